@@ -1,0 +1,1 @@
+"""Physics core of mwreach (no Qt)."""

@@ -1,0 +1,120 @@
+"""Command line: ``mwreach field | antenna | run | sky | sheet | gui``.
+
+Errors in user input exit with status 2 and a one-line message on stderr. Qt is imported only by
+the ``gui`` and ``sheet`` commands.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+import numpy as np
+
+__all__ = ["main"]
+
+
+class UsageError(Exception):
+    """A mistake in what the user typed: printed as one line, exit status 2."""
+
+
+def _ground_from_args(args):
+    from .ground import Ground, ground_class
+
+    if args.ground:
+        if args.sigma_ms_m is not None or args.eps_r is not None:
+            raise UsageError("give either --ground or --sigma-ms-m/--eps-r, not both")
+        return ground_class(args.ground)
+    if args.sigma_ms_m is None or args.eps_r is None:
+        raise UsageError("give --ground NAME or both --sigma-ms-m and --eps-r")
+    return Ground(args.sigma_ms_m, args.eps_r)
+
+
+def _cmd_field(args) -> int:
+    from . import groundwave as gw
+
+    ground = _ground_from_args(args)
+    m = gw.model(args.freq_khz, ground, args.earth_k)
+    km = np.asarray(args.km, dtype=float)
+    if np.any(km <= 0):
+        raise UsageError(f"--km values must be > 0 (got {args.km})")
+    e1 = args.e1km_mv_m
+    if not (np.isfinite(e1) and e1 > 0):
+        raise UsageError(f"--e1km-mv-m must be > 0 (got {e1})")
+    att = m.attenuation(km)
+    fld = e1 / km * np.abs(att)
+    rows = [
+        {
+            "km": float(d),
+            "field_mv_m": float(f),
+            "field_dbu": float(gw.mv_m_to_dbu(f)),
+            "attenuation_db": float(-20 * np.log10(abs(a))),
+        }
+        for d, f, a in zip(km, fld, att)
+    ]
+    if args.json:
+        print(
+            json.dumps(
+                {
+                    "freq_khz": m.freq_khz,
+                    "sigma_ms_m": ground.sigma_ms_m,
+                    "eps_r": ground.eps_r,
+                    "earth_k": m.earth_k,
+                    "e1km_mv_m": e1,
+                    "points": rows,
+                },
+                indent=1,
+            )
+        )
+        return 0
+    print(
+        f"Ground wave, {m.freq_khz:g} kHz, {ground.label()}, K = {m.earth_k:.4g}, "
+        f"{e1:g} mV/m at 1 km unattenuated"
+    )
+    print(f"{'km':>10} {'mV/m':>12} {'dBµV/m':>8} {'atten. dB':>10}")
+    for r in rows:
+        print(
+            f"{r['km']:10.2f} {r['field_mv_m']:12.5g} {r['field_dbu']:8.2f} "
+            f"{r['attenuation_db']:10.2f}"
+        )
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="mwreach",
+        description="Medium-wave coverage and interference estimates (planning estimates only; "
+        "filings must be checked by a licensed engineer under local rules).",
+    )
+    sub = p.add_subparsers(dest="command", required=True)
+
+    f = sub.add_parser("field", help="ground-wave field over a smooth homogeneous earth")
+    f.add_argument("--freq-khz", type=float, required=True, help="frequency [kHz], 10–30000")
+    f.add_argument("--sigma-ms-m", type=float, help="ground conductivity [mS/m]")
+    f.add_argument("--eps-r", type=float, help="relative permittivity")
+    f.add_argument("--ground", help="ITU-R P.368 ground class name instead of σ/εr")
+    f.add_argument("--km", type=float, nargs="+", required=True, help="distances [km]")
+    f.add_argument("--e1km-mv-m", type=float, default=300.0,
+                   help="unattenuated field at 1 km [mV/m] (default 300: 1 kW, short monopole)")
+    f.add_argument("--earth-k", type=float, default=4.0 / 3.0,
+                   help="effective earth-radius factor (default 4/3)")
+    f.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    f.set_defaults(func=_cmd_field)
+
+    return p
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.func(args) or 0)
+    except (UsageError, ValueError, FileNotFoundError, IsADirectoryError) as exc:
+        msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        print(f"mwreach {args.command}: error: {msg}", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
