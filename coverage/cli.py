@@ -81,6 +81,69 @@ def _cmd_field(args) -> int:
     return 0
 
 
+def _load_toml(path: str) -> dict:
+    """Read a TOML file; parse errors keep tomllib's line and column and name the file."""
+    import tomllib
+
+    try:
+        with open(path, "rb") as fh:
+            return tomllib.load(fh)
+    except tomllib.TOMLDecodeError as exc:
+        raise ValueError(f"{path}: {exc}") from None
+
+
+def _cmd_antenna(args) -> int:
+    from .antenna import Array, Tower, array_from_table, height_m
+
+    if args.array:
+        if args.height_deg is not None or args.height_m is not None:
+            raise UsageError("give --array FILE or a single tower's height, not both")
+        array = array_from_table(_load_toml(args.array), args.freq_khz, args.array)
+    else:
+        if (args.height_deg is None) == (args.height_m is None):
+            raise UsageError("give exactly one of --height-deg, --height-m or --array")
+        loss = dict(loss_ohm=args.loss_ohm or 0.0, efficiency=args.efficiency)
+        tower = (
+            Tower(args.height_deg, **loss)
+            if args.height_deg is not None
+            else Tower.from_height_m(args.height_m, args.freq_khz, **loss)
+        )
+        array = Array.single(tower)
+    summ = array.horizontal_summary(args.power_kw)
+    pattern = array.field_mv_m(np.arange(360.0), 0.0, args.power_kw)
+    single = len(array.elements) == 1
+    out = {
+        "freq_khz": args.freq_khz,
+        "power_kw": args.power_kw,
+        "towers": len(array.elements),
+        "e1km_mv_m": summ["rms_mv_m"],
+        "max_mv_m": summ["max_mv_m"],
+        "max_azimuth_deg": summ["max_azimuth_deg"],
+        "min_mv_m": summ["min_mv_m"],
+        "min_azimuth_deg": summ["min_azimuth_deg"],
+        "radiated_power_kw": array.radiated_power_kw(args.power_kw),
+        "radiation_resistance_ohm": (
+            array.elements[0].tower.radiation_resistance_ohm if single else None
+        ),
+        "pattern_mv_m": [float(v) for v in pattern],
+    }
+    if args.json:
+        print(json.dumps(out, indent=1))
+        return 0
+    print(f"Antenna at {args.freq_khz:g} kHz, {args.power_kw:g} kW into the antenna, "
+          f"{len(array.elements)} tower(s)")
+    if single:
+        t = array.elements[0].tower
+        print(f"  height               {t.height_deg:.1f}° ({float(height_m(t.height_deg, args.freq_khz)):.1f} m)")
+        where = "base" if t.base_current_factor < 1 else "current loop"
+        print(f"  radiation resistance {t.radiation_resistance_ohm:.2f} Ω at the {where}")
+    print(f"  radiated power       {out['radiated_power_kw']:.3f} kW")
+    print(f"  RMS field at 1 km    {out['e1km_mv_m']:.1f} mV/m (horizontal plane)")
+    print(f"  maximum              {out['max_mv_m']:.1f} mV/m at {out['max_azimuth_deg']:.1f}°")
+    print(f"  minimum              {out['min_mv_m']:.2f} mV/m at {out['min_azimuth_deg']:.1f}°")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="mwreach",
@@ -101,6 +164,17 @@ def build_parser() -> argparse.ArgumentParser:
                    help="effective earth-radius factor (default 4/3)")
     f.add_argument("--json", action="store_true", help="print JSON instead of a table")
     f.set_defaults(func=_cmd_field)
+
+    a = sub.add_parser("antenna", help="tower or directional-array field at 1 km")
+    a.add_argument("--freq-khz", type=float, required=True, help="frequency [kHz]")
+    a.add_argument("--height-deg", type=float, help="electrical height of a single tower [deg]")
+    a.add_argument("--height-m", type=float, help="physical height of a single tower [m]")
+    a.add_argument("--power-kw", type=float, default=1.0, help="power into the antenna [kW]")
+    a.add_argument("--loss-ohm", type=float, help="loss resistance at the current loop [Ω]")
+    a.add_argument("--efficiency", type=float, help="radiation efficiency (0–1]")
+    a.add_argument("--array", help="TOML file with rotation_deg and [[tower]] tables")
+    a.add_argument("--json", action="store_true", help="print JSON instead of text")
+    a.set_defaults(func=_cmd_antenna)
 
     return p
 

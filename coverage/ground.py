@@ -5,41 +5,15 @@ Conductivity zones read from GeoJSON live in :mod:`mwreach.coverage.zones`.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
-__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "check_finite"]
+from .validate import check_finite
+
+__all__ = ["Ground", "GROUND_CLASSES", "ground_class"]
 
 # Validity window of the ground-wave method (ITU-R P.368 covers 10 kHz to 30 MHz).
 SIGMA_RANGE_MS_M = (1e-4, 1e7)  # from very dry ice to (practically) a perfect conductor
 EPS_R_RANGE = (1.0, 100.0)
-
-
-def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_open=False):
-    """Return ``float(value)`` or raise a ValueError naming the field, the value and the range.
-
-    Parameters
-    ----------
-    name : field name as the user wrote it (``sigma_ms_m``)
-    value : the value to check
-    low, high : inclusive bounds (``low_open`` makes the lower bound exclusive)
-    where : where the value came from (``"[ground] of demo.toml"``), appended to the message
-    """
-    suffix = f" in {where}" if where else ""
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a number (got {value!r}){suffix}") from None
-    if not math.isfinite(v):
-        raise ValueError(f"{name} must be a finite number (got {value!r}){suffix}")
-    too_low = low is not None and (v <= low if low_open else v < low)
-    too_high = high is not None and v > high
-    if too_low or too_high:
-        lo = "" if low is None else (f"> {low:g}" if low_open else f">= {low:g}")
-        hi = "" if high is None else f"<= {high:g}"
-        rng = " and ".join(s for s in (lo, hi) if s)
-        raise ValueError(f"{name} must be {rng} (got {value!r}){suffix}")
-    return v
 
 
 @dataclass(frozen=True)

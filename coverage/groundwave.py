@@ -27,7 +27,8 @@ import numpy as np
 from scipy import optimize, special
 from scipy.integrate import solve_ivp
 
-from .ground import Ground, check_finite
+from .ground import Ground
+from .validate import check_finite
 
 __all__ = [
     "C0",

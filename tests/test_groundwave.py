@@ -199,3 +199,20 @@ def test_bad_ground_and_distance():
         m.field_dbu([10.0, np.nan])
     with pytest.raises(ValueError, match="level_mv_m"):
         m.distance_to_field_km(-1.0)
+
+
+def test_cli_field_json_and_errors(capsys):
+    from mwreach.coverage import cli
+
+    assert cli.main(["field", "--freq-khz", "1000", "--ground", "land", "--km", "10", "100",
+                     "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert [p["km"] for p in out["points"]] == [10.0, 100.0]
+    # methods.md §1 check values [calc]: 80.5 and 37.8 dBµV/m
+    assert out["points"][0]["field_dbu"] == pytest.approx(80.5, abs=0.06)
+    assert out["points"][1]["field_dbu"] == pytest.approx(37.8, abs=0.06)
+    assert out["points"][1]["attenuation_db"] == pytest.approx(109.54 - 40 - 37.85, abs=0.06)
+    assert cli.main(["field", "--freq-khz", "1000", "--sigma-ms-m", "nan", "--eps-r", "15",
+                     "--km", "10"]) == 2
+    err = capsys.readouterr().err
+    assert "sigma_ms_m" in err and err.count("\n") == 1
