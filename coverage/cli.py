@@ -144,6 +144,60 @@ def _cmd_antenna(args) -> int:
     return 0
 
 
+class _Progress:
+    """A one-line progress bar on a terminal; silent when stderr is not a terminal."""
+
+    def __init__(self, label: str, stream=None):
+        self.stream = stream or sys.stderr
+        self.label = label
+        self.active = self.stream.isatty()
+        self._last = -1
+
+    def __call__(self, done: int, total: int):
+        if not self.active:
+            return
+        pct = int(100 * done / max(total, 1))
+        if pct == self._last:
+            return
+        self._last = pct
+        bar = "#" * (pct // 4)
+        self.stream.write(f"\r{self.label} [{bar:<25}] {pct:3d}%")
+        if done >= total:
+            self.stream.write("\n")
+        self.stream.flush()
+
+
+def _cmd_run(args) -> int:
+    from .export import write_outputs
+    from .study import Study
+
+    study = Study.from_file(args.study)
+    result = study.run(progress=_Progress("day ground wave"))
+    files = write_outputs(result, args.out)
+    st = result.spec.station
+    print(f"{result.spec.title}")
+    print(f"{st.name}: {st.freq_khz:g} kHz, {st.power_day_kw:g} kW day, "
+          f"{result.antenna_summary['rms_mv_m']:.1f} mV/m RMS at 1 km, "
+          f"site {st.lat:.5f}, {st.lon:.5f}")
+    for a, b in result.spec.ground.overlaps:
+        print(f"note: ground zones '{a}' and '{b}' overlap; '{b}' (later) is used there")
+    print(f"{'contour':<24} {'min km':>8} {'mean km':>8} {'max km':>8} {'area km²':>10} "
+          f"{'community':>9}")
+    for row in result.level_rows():
+        fmt = lambda v: "—" if v is None else f"{v:.1f}"  # noqa: E731
+        share = "—" if row["community_share"] is None else f"{100 * row['community_share']:.0f} %"
+        print(f"{row['label']:<24} {fmt(row['min_km']):>8} {fmt(row['mean_km']):>8} "
+              f"{fmt(row['max_km']):>8} {row['area_km2']:>10.0f} {share:>9}")
+        if row["radials_with_further_crossings"]:
+            print(f"  {row['radials_with_further_crossings']} radial(s) cross this level again "
+                  "further out (field recovers over water); see radials.csv")
+    print(f"{len(result.radials.bearings_deg)} radials in {result.elapsed_s:.2f} s; wrote "
+          + ", ".join(str(f) for f in files))
+    print("Planning estimate only: filings must follow local rules and be checked by a "
+          "licensed engineer.")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="mwreach",
@@ -175,6 +229,11 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--array", help="TOML file with rotation_deg and [[tower]] tables")
     a.add_argument("--json", action="store_true", help="print JSON instead of text")
     a.set_defaults(func=_cmd_antenna)
+
+    r = sub.add_parser("run", help="run a study file: contours, tables, GeoJSON, KML")
+    r.add_argument("study", help="study file (TOML)")
+    r.add_argument("--out", required=True, help="output folder (created if missing)")
+    r.set_defaults(func=_cmd_run)
 
     return p
 

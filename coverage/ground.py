@@ -7,9 +7,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .validate import check_finite
+import numpy as np
 
-__all__ = ["Ground", "GROUND_CLASSES", "ground_class"]
+from .validate import check_finite, check_keys
+
+__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap", "load_zones"]
 
 # Validity window of the ground-wave method (ITU-R P.368 covers 10 kHz to 30 MHz).
 SIGMA_RANGE_MS_M = (1e-4, 1e7)  # from very dry ice to (practically) a perfect conductor
@@ -90,3 +92,199 @@ def ground_class(name: str, *, where: str = "") -> Ground:
         raise ValueError(
             f"unknown ground class {name!r}{suffix}; valid: {', '.join(GROUND_CLASSES)}"
         ) from None
+
+
+# --- conductivity zones --------------------------------------------------------------------
+
+ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note")
+
+
+@dataclass(frozen=True)
+class Zone:
+    """A region of uniform ground: a shapely (multi)polygon in lon/lat [deg] and its ground."""
+
+    name: str
+    ground: Ground
+    geometry: object  # shapely Polygon or MultiPolygon
+
+
+@dataclass(frozen=True)
+class Section:
+    """A stretch of one ground along a radial, from ``start_km`` to ``end_km``."""
+
+    start_km: float
+    end_km: float
+    ground: Ground
+
+
+class GroundMap:
+    """Default ground plus conductivity zones; where zones overlap, the later one wins.
+
+    Parameters
+    ----------
+    default : ground outside every zone
+    zones : zones in priority order (later wins)
+    source : file the zones came from (for messages)
+    """
+
+    def __init__(self, default: Ground, zones=(), source: str = ""):
+        import shapely
+
+        self.default = default
+        self.zones = tuple(zones)
+        self.source = source
+        for z in self.zones:
+            shapely.prepare(z.geometry)
+        self.overlaps = self._find_overlaps()
+
+    def _find_overlaps(self) -> list[tuple[str, str]]:
+        """Pairs (earlier, later) of zones whose areas overlap; the later one wins there."""
+        out = []
+        for i, a in enumerate(self.zones):
+            for b in self.zones[i + 1 :]:
+                if a.geometry.intersects(b.geometry) and a.geometry.intersection(b.geometry).area > 0:
+                    out.append((a.name, b.name))
+        return out
+
+    @property
+    def grounds(self) -> list[Ground]:
+        """The default ground followed by each zone's ground."""
+        return [self.default] + [z.ground for z in self.zones]
+
+    def zone_index(self, lon, lat):
+        """Index into :attr:`grounds` of the ground at each point (0 = default)."""
+        import shapely
+
+        lon = np.asarray(lon, dtype=float)
+        lat = np.asarray(lat, dtype=float)
+        idx = np.zeros(lon.shape, dtype=int)
+        for i, z in enumerate(self.zones, 1):
+            idx[shapely.contains_xy(z.geometry, lon, lat)] = i  # later zones overwrite
+        return idx
+
+    def ground_at(self, lon: float, lat: float) -> Ground:
+        """Ground at one point."""
+        return self.grounds[int(self.zone_index(np.array([lon]), np.array([lat]))[0])]
+
+    def zones_xy(self, projection) -> list:
+        """Zone geometries in a site's local projection [km] (edges densified to 0.01° first,
+        so that straight lon/lat edges stay faithful after projection)."""
+        import shapely
+
+        key = (projection.lat, projection.lon)
+        cache = self.__dict__.setdefault("_xy_cache", {})
+        if key not in cache:
+            cache.clear()
+            cache[key] = [
+                projection.geom_to_xy(shapely.segmentize(z.geometry, 0.01))
+                for z in self.zones
+            ]
+        return cache[key]
+
+    def radial_sections(self, lat, lon, bearings_deg, max_km: float):
+        """Ordered ground sections along each radial from the site, to ``max_km``.
+
+        Each radial is a straight line in the site's azimuthal-equidistant projection (where
+        geodesics from the centre are straight with true length); its exact intersections with
+        the projected zones give the boundaries. Later zones override earlier ones; adjacent
+        sections of equal ground are merged.
+
+        Returns
+        -------
+        list (one per bearing) of lists of :class:`Section`
+        """
+        import shapely
+
+        from .geodesy import local_projection
+
+        check_finite("max_km", max_km, 0.0, 20_000.0, low_open=True)
+        bearings = np.atleast_1d(np.asarray(bearings_deg, dtype=float))
+        proj = local_projection(float(lat), float(lon))
+        b = np.radians(bearings)
+        ends = np.column_stack([max_km * np.sin(b), max_km * np.cos(b)])
+        lines = shapely.linestrings(
+            np.stack([np.zeros_like(ends), ends], axis=1)
+        )
+        # intervals[i] = list of (start, end, zone index) in priority order
+        intervals = [[] for _ in bearings]
+        for zi, geom in enumerate(self.zones_xy(proj), 1):
+            hits = shapely.intersection(lines, geom)
+            for i in np.flatnonzero(~shapely.is_empty(hits)):
+                for part in shapely.get_parts(hits[i]):
+                    if part.geom_type not in ("LineString", "LinearRing"):
+                        continue
+                    r = np.hypot(*shapely.get_coordinates(part).T)
+                    if r.max() - r.min() > 1e-9:
+                        intervals[i].append((float(r.min()), float(r.max()), zi))
+        grounds = self.grounds
+        out = []
+        for ivs in intervals:
+            cuts = sorted({0.0, float(max_km), *(v for a, e, _ in ivs for v in (a, e))})
+            secs: list[Section] = []
+            for a, e in zip(cuts[:-1], cuts[1:]):
+                if e - a <= 1e-9:
+                    continue
+                mid = 0.5 * (a + e)
+                zone = 0
+                for s0, s1, zi in ivs:  # later zones win
+                    if s0 <= mid <= s1:
+                        zone = zi
+                g = grounds[zone]
+                if secs and secs[-1].ground.key == g.key:
+                    secs[-1] = Section(secs[-1].start_km, e, secs[-1].ground)
+                else:
+                    secs.append(Section(a, e, g))
+            out.append(secs)
+        return out
+
+
+def load_zones(path, default: Ground) -> GroundMap:
+    """Read conductivity zones from a GeoJSON FeatureCollection.
+
+    Each feature: a Polygon or MultiPolygon (lon/lat, WGS84) with properties
+    ``conductivity_ms_m`` and ``permittivity`` (a ``name`` and ``note`` are optional).
+    Errors name the file, the feature and the property.
+    """
+    import json
+    import pathlib
+
+    import shapely
+    from shapely.geometry import shape
+
+    path = pathlib.Path(path)
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except json.JSONDecodeError as exc:
+        raise ValueError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}): "
+                         f"{exc.msg}") from None
+    if not isinstance(data, dict) or data.get("type") != "FeatureCollection":
+        raise ValueError(f"{path}: expected a GeoJSON FeatureCollection")
+    zones = []
+    for i, feat in enumerate(data.get("features", []), 1):
+        where = f"feature {i} of {path}"
+        if not isinstance(feat, dict) or feat.get("type") != "Feature":
+            raise ValueError(f"{where}: expected a GeoJSON Feature")
+        props = feat.get("properties") or {}
+        check_keys(props, ZONE_PROPERTIES, f"properties of {where}",
+                   required=("conductivity_ms_m", "permittivity"))
+        name = str(props.get("name") or f"zone {i}")
+        try:
+            ground = Ground(props["conductivity_ms_m"], props["permittivity"], name=name,
+                            source=str(path.name))
+        except ValueError as exc:
+            raise ValueError(f"{exc} ({where})") from None
+        geom_json = feat.get("geometry") or {}
+        if geom_json.get("type") not in ("Polygon", "MultiPolygon"):
+            raise ValueError(f"{where}: geometry must be Polygon or MultiPolygon "
+                             f"(got {geom_json.get('type')!r})")
+        try:
+            geom = shape(geom_json)
+        except Exception as exc:  # shapely raises several types for malformed coordinates
+            raise ValueError(f"{where}: malformed coordinates ({exc})") from None
+        if not geom.is_valid:
+            geom = shapely.make_valid(geom)
+        b = geom.bounds
+        if not (-180 <= b[0] and b[2] <= 360 and -90 <= b[1] and b[3] <= 90):
+            raise ValueError(f"{where}: coordinates must be lon/lat degrees (bounds {b})")
+        zones.append(Zone(name, ground, geom))
+    return GroundMap(default, zones, source=str(path))

@@ -1,0 +1,244 @@
+"""Fields along radials, contour distances and crossings, contour polygons, field raster.
+
+A radial is a geodesic from the site at a bearing; the field along it comes from the ground
+sections it crosses (mixed paths) and the antenna's field at 1 km toward that bearing.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .geodesy import LocalProjection, geodesic_area_km2
+from .ground import GroundMap, Section
+from .groundwave import model, mv_m_to_dbu
+from .mixedpath import path_field_db
+
+__all__ = [
+    "RadialFields",
+    "LevelContour",
+    "distance_grid",
+    "radial_fields",
+    "crossings",
+    "level_contour",
+    "field_raster",
+]
+
+
+@dataclass(frozen=True)
+class RadialFields:
+    """Field along each radial on a shared distance grid.
+
+    Attributes
+    ----------
+    bearings_deg : (nb,) [deg true]
+    dist_km : (nd,) [km]
+    field_dbu : (nb, nd) [dBµV/m]
+    e1km_mv_m : (nb,) unattenuated field at 1 km toward each bearing [mV/m]
+    sections : one list of :class:`Section` per bearing
+    """
+
+    bearings_deg: np.ndarray
+    dist_km: np.ndarray
+    field_dbu: np.ndarray
+    e1km_mv_m: np.ndarray
+    sections: list = field(repr=False)
+
+    def field_at(self, bearing_index: int, dist_km):
+        """Field [dBµV/m] along one radial, interpolated in distance."""
+        return np.interp(dist_km, self.dist_km, self.field_dbu[bearing_index])
+
+
+def distance_grid(freq_khz: float, max_km: float, step_km: float) -> np.ndarray:
+    """Distances [km] for radial fields: geometric from one wavelength to 10 km (100 points),
+    then every ``step_km`` to ``max_km``."""
+    lam = 299.792458 / freq_khz  # wavelength [km]
+    d0 = max(lam, 0.05)
+    near_end = min(10.0, max_km)
+    near = np.geomspace(d0, near_end, 100) if near_end > d0 else np.array([d0])
+    far = np.arange(near_end + step_km, max_km + step_km / 2, step_km)
+    return np.concatenate([near, far])
+
+
+def radial_fields(
+    freq_khz: float,
+    ground_map: GroundMap,
+    lat: float,
+    lon: float,
+    bearings_deg,
+    e1km_mv_m,
+    max_km: float,
+    step_km: float = 0.25,
+    method: str = "millington",
+    earth_k: float = 4 / 3,
+    progress=None,
+) -> RadialFields:
+    """Ground-wave field along every radial (mixed paths), vectorised over distance.
+
+    Parameters
+    ----------
+    freq_khz : [kHz]
+    ground_map : default ground and zones
+    lat, lon : site [deg]
+    bearings_deg : (nb,) [deg true]
+    e1km_mv_m : (nb,) unattenuated field at 1 km toward each bearing [mV/m]
+    max_km : radial length [km]
+    step_km : ground sampling and distance step [km]
+    method : ``"millington"`` or ``"kirke"``
+    earth_k : effective earth-radius factor
+    progress : optional callable(done, total)
+    """
+    bearings = np.atleast_1d(np.asarray(bearings_deg, dtype=float))
+    e1 = np.broadcast_to(np.asarray(e1km_mv_m, dtype=float), bearings.shape)
+    d = distance_grid(freq_khz, max_km, step_km)
+    sections = ground_map.radial_sections(lat, lon, bearings, max_km)
+    out = np.empty((bearings.size, d.size))
+    for g in {s.ground.key: s.ground for secs in sections for s in secs}.values():
+        model(freq_khz, g, earth_k).table  # build each curve once, up front
+    for i, secs in enumerate(sections):
+        out[i] = path_field_db(method, secs, d, freq_khz, earth_k) + mv_m_to_dbu(e1[i])
+        if progress is not None:
+            progress(i + 1, bearings.size)
+    return RadialFields(bearings, d, out, np.array(e1), sections)
+
+
+def crossings(dist_km, field_dbu, level_dbu):
+    """Where a field profile crosses a level: (distances [km], +1 rising / −1 falling).
+
+    Linear interpolation in dB between grid points.
+    """
+    above = field_dbu >= level_dbu
+    idx = np.flatnonzero(above[1:] != above[:-1])
+    f0, f1 = field_dbu[idx], field_dbu[idx + 1]
+    t = (f0 - level_dbu) / (f0 - f1)
+    dist = dist_km[idx] + t * (dist_km[idx + 1] - dist_km[idx])
+    direction = np.where(above[idx + 1], 1, -1)
+    return dist, direction
+
+
+@dataclass(frozen=True)
+class LevelContour:
+    """One contour level over all bearings.
+
+    Attributes
+    ----------
+    level_mv_m, label : the level and its label
+    first_km : (nb,) distance where the field first falls below the level; NaN where it is
+        below the level already at the first grid distance, ``inf`` where it is still above at
+        the end of the radial
+    further : per bearing, list of (start km, end km) stretches beyond ``first_km`` where the
+        field is above the level again (recovery over water)
+    polygon_xy : shapely geometry in the site's local projection [km]
+    polygon_lonlat : the same in lon/lat [deg]
+    area_km2 : geodesic area [km²]
+    community_share : share of the community area inside the contour (None without one)
+    """
+
+    level_mv_m: float
+    label: str
+    first_km: np.ndarray
+    further: list
+    polygon_xy: object
+    polygon_lonlat: object
+    area_km2: float
+    community_share: float | None
+
+    @property
+    def multiple(self) -> np.ndarray:
+        """(nb,) True where the radial crosses the level more than once."""
+        return np.array([bool(f) for f in self.further])
+
+
+def _wedge(b_deg: float, half_deg: float, d1: float, d2: float):
+    from shapely.geometry import Polygon
+
+    a = np.radians([b_deg - half_deg, b_deg + half_deg])
+    pts = [(d1 * np.sin(a[0]), d1 * np.cos(a[0])), (d2 * np.sin(a[0]), d2 * np.cos(a[0])),
+           (d2 * np.sin(a[1]), d2 * np.cos(a[1])), (d1 * np.sin(a[1]), d1 * np.cos(a[1]))]
+    return Polygon(pts)
+
+
+def level_contour(
+    radials: RadialFields,
+    level_mv_m: float,
+    label: str,
+    projection: LocalProjection,
+    community_lonlat=None,
+) -> LevelContour:
+    """Contour distances, polygon, area and community share for one level."""
+    import shapely
+    from shapely.geometry import Polygon
+
+    level = float(mv_m_to_dbu(level_mv_m))
+    d = radials.dist_km
+    nb = radials.bearings_deg.size
+    first = np.empty(nb)
+    further = []
+    for i in range(nb):
+        prof = radials.field_dbu[i]
+        dist, direction = crossings(d, prof, level)
+        if prof[0] < level:
+            first[i] = np.nan
+            further.append([])
+            continue
+        if dist.size == 0:
+            first[i] = np.inf
+            further.append([])
+            continue
+        first[i] = dist[0]
+        rest, rdir = dist[1:], direction[1:]
+        spans = []
+        for k in range(0, rest.size, 2):  # rising then falling
+            if rdir[k] != 1:
+                continue
+            end = rest[k + 1] if k + 1 < rest.size else d[-1]
+            spans.append((float(rest[k]), float(end)))
+        further.append(spans)
+
+    reach = np.where(np.isnan(first), 0.0, np.where(np.isinf(first), d[-1], first))
+    b = np.radians(radials.bearings_deg)
+    if nb >= 3:
+        poly = Polygon(np.column_stack([reach * np.sin(b), reach * np.cos(b)]))
+        if not poly.is_valid:
+            poly = shapely.make_valid(poly)
+    else:
+        poly = Polygon()
+    step = 360.0 / nb if nb else 0.0
+    wedges = [
+        _wedge(radials.bearings_deg[i], step / 2, a, e) for i, sp in enumerate(further) for a, e in sp
+    ]
+    if wedges:
+        poly = shapely.unary_union([poly, *wedges])
+    poly_ll = projection.geom_to_lonlat(poly) if not poly.is_empty else poly
+    area = geodesic_area_km2(poly_ll)
+    share = None
+    if community_lonlat is not None:
+        comm_xy = projection.geom_to_xy(community_lonlat)
+        inside = projection.geom_to_lonlat(comm_xy.intersection(poly))
+        total = geodesic_area_km2(community_lonlat)
+        share = geodesic_area_km2(inside) / total if total > 0 else 0.0
+    return LevelContour(float(level_mv_m), label, first, further, poly, poly_ll, area, share)
+
+
+def field_raster(radials: RadialFields, extent_km: float, n: int = 201):
+    """Field [dBµV/m] on a regular (x, y) grid [km] in the site's local projection.
+
+    Bilinear interpolation of the radial fields in (bearing, distance); NaN inside one
+    wavelength and beyond the radials. Returns (x_km (n,), y_km (n,), field (n, n) [y, x]).
+    """
+    from scipy.interpolate import RegularGridInterpolator
+
+    x = np.linspace(-extent_km, extent_km, n)
+    xx, yy = np.meshgrid(x, x)
+    dist = np.hypot(xx, yy)
+    brg = np.mod(np.degrees(np.arctan2(xx, yy)), 360.0)
+    b = radials.bearings_deg
+    order = np.argsort(b)
+    b_ext = np.concatenate([b[order][-1:] - 360.0, b[order], b[order][:1] + 360.0])
+    f = radials.field_dbu[order]
+    f_ext = np.vstack([f[-1:], f, f[:1]])
+    interp = RegularGridInterpolator((b_ext, radials.dist_km), f_ext, bounds_error=False,
+                                     fill_value=np.nan)
+    vals = interp(np.column_stack([brg.ravel(), dist.ravel()])).reshape(xx.shape)
+    return x, x, vals

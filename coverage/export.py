@@ -1,0 +1,198 @@
+"""Writers for a study's results: summary JSON, radial CSV, GeoJSON and KML (open formats)."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import pathlib
+import tempfile
+from xml.sax.saxutils import escape
+
+import numpy as np
+
+from .study import StudyResult
+
+__all__ = ["KM_PER_MI", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
+           "contours_kml", "atomic_write"]
+
+KM_PER_MI = 1.609344
+
+
+def atomic_write(path: pathlib.Path, text: str) -> None:
+    """Write a text file through a temporary file and a rename, so it is never half-written."""
+    path = pathlib.Path(path)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the file normal permissions
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        pathlib.Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def _num(v):
+    """JSON-safe number: NaN/inf become None."""
+    if v is None:
+        return None
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
+    """Inputs echoed, antenna summary and one entry per level."""
+    spec = result.spec
+    st = spec.station
+    out = {
+        "mwreach_version": _version(),
+        "created": result.created,
+        "study_file": spec.path,
+        "title": spec.title,
+        "station": {
+            "name": st.name, "lat": st.lat, "lon": st.lon, "freq_khz": st.freq_khz,
+            "power_day_kw": st.power_day_kw, "power_night_kw": st.power_night_kw,
+            "towers": len(st.antenna.elements),
+        },
+        "antenna": {k: _num(v) for k, v in result.antenna_summary.items()},
+        "ground": {
+            "default": {"sigma_ms_m": spec.ground.default.sigma_ms_m,
+                        "eps_r": spec.ground.default.eps_r},
+            "zones": [{"name": z.name, "sigma_ms_m": z.ground.sigma_ms_m,
+                       "eps_r": z.ground.eps_r} for z in spec.ground.zones],
+            "zones_file": spec.zones_path or None,
+            "overlaps_later_wins": [list(p) for p in spec.ground.overlaps],
+        },
+        "method": {
+            "ground_wave": "smooth earth: Sommerfeld-Norton flat earth with curvature correction "
+                           "below x = 0.1, Van der Pol-Bremmer/Wait residue series beyond "
+                           "(ITU-R P.368 theory)",
+            "mixed_path": spec.mixed_path,
+            "earth_k": spec.earth_k,
+            "bearing_step_deg": spec.bearing_step_deg,
+            "step_km": spec.step_km,
+            "radial_length_km": result.max_km,
+        },
+        "community": spec.community.name if spec.community else None,
+        "levels": [{k: (_num(v) if not isinstance(v, str) else v) for k, v in row.items()}
+                   for row in result.level_rows()],
+        "elapsed_s": result.elapsed_s,
+        "caution": "Planning estimate only; not a compliance determination. Filings must follow "
+                   "local rules and be checked by a licensed engineer. RF exposure near towers "
+                   "is not assessed.",
+    }
+    if extra:
+        out.update(extra)
+    return out
+
+
+def _version() -> str:
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("mwreach")
+    except PackageNotFoundError:  # running from a source tree without install
+        return "unknown"
+
+
+def radials_csv(result: StudyResult) -> str:
+    """Bearing × level distances in km and mi; crossings beyond the first listed per level."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    head = ["bearing_deg", "e1km_mv_m"]
+    for c in result.contours:
+        tag = f"{c.level_mv_m:g}mV_m"
+        head += [f"{tag}_km", f"{tag}_mi", f"{tag}_further_km"]
+    w.writerow(head)
+    for i, b in enumerate(result.radials.bearings_deg):
+        row = [f"{b:g}", f"{result.radials.e1km_mv_m[i]:.2f}"]
+        for c in result.contours:
+            d = c.first_km[i]
+            if np.isnan(d):
+                row += ["not reached", "not reached"]
+            elif np.isinf(d):
+                row += [f">{result.max_km:.1f}", f">{result.max_km / KM_PER_MI:.1f}"]
+            else:
+                row += [f"{d:.2f}", f"{d / KM_PER_MI:.2f}"]
+            row.append(" ".join(f"{a:.2f}-{e:.2f}" for a, e in c.further[i]))
+        w.writerow(row)
+    return buf.getvalue()
+
+
+def contours_geojson(result: StudyResult, extra_features=()) -> dict:
+    """One Feature per level (lon/lat, WGS84)."""
+    from shapely.geometry import mapping
+
+    st = result.spec.station
+    feats = []
+    for c in result.contours:
+        if c.polygon_lonlat.is_empty:
+            continue
+        feats.append({
+            "type": "Feature",
+            "properties": {"level": c.level_mv_m, "units": "mV/m", "label": c.label,
+                           "station": st.name, "freq_khz": st.freq_khz, "kind": "day ground wave",
+                           "area_km2": round(c.area_km2, 3)},
+            "geometry": mapping(c.polygon_lonlat),
+        })
+    feats.extend(extra_features)
+    return {"type": "FeatureCollection", "features": feats}
+
+
+def _kml_rings(geom) -> str:
+    polys = getattr(geom, "geoms", [geom])
+    out = []
+    for p in polys:
+        if p.geom_type != "Polygon" or p.is_empty:
+            continue
+        coords = " ".join(f"{x:.6f},{y:.6f},0" for x, y in p.exterior.coords)
+        inner = "".join(
+            "<innerBoundaryIs><LinearRing><coordinates>"
+            + " ".join(f"{x:.6f},{y:.6f},0" for x, y in r.coords)
+            + "</coordinates></LinearRing></innerBoundaryIs>"
+            for r in p.interiors
+        )
+        out.append("<Polygon><outerBoundaryIs><LinearRing><coordinates>" + coords
+                   + "</coordinates></LinearRing></outerBoundaryIs>" + inner + "</Polygon>")
+    return "<MultiGeometry>" + "".join(out) + "</MultiGeometry>"
+
+
+def contours_kml(geojson: dict, name: str) -> str:
+    """KML 2.2 document with one Placemark per GeoJSON feature."""
+    marks = []
+    from shapely.geometry import shape
+
+    for f in geojson["features"]:
+        p = f["properties"]
+        title = f"{p.get('label') or p.get('level')} ({p.get('kind', '')})"
+        marks.append(f"<Placemark><name>{escape(str(title))}</name>"
+                     f"<description>{escape(json.dumps(p, ensure_ascii=False))}</description>"
+                     f"{_kml_rings(shape(f['geometry']))}</Placemark>")
+    return ('<?xml version="1.0" encoding="UTF-8"?>\n<kml xmlns="http://www.opengis.net/kml/2.2">'
+            f"<Document><name>{escape(name)}</name>" + "".join(marks) + "</Document></kml>\n")
+
+
+def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_features=(),
+                  extra_files=None) -> list[pathlib.Path]:
+    """Write summary.json, radials.csv, contours.geojson and contours.kml into ``out_dir``."""
+    out = pathlib.Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    gj = contours_geojson(result, extra_features)
+    files = {
+        "summary.json": json.dumps(summary_dict(result, extra_summary), indent=1,
+                                   ensure_ascii=False) + "\n",
+        "radials.csv": radials_csv(result),
+        "contours.geojson": json.dumps(gj) + "\n",
+        "contours.kml": contours_kml(gj, result.spec.title),
+    }
+    files.update(extra_files or {})
+    written = []
+    for name, text in files.items():
+        atomic_write(out / name, text)
+        written.append(out / name)
+    return written

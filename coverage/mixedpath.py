@@ -1,0 +1,115 @@
+"""Ground wave over mixed paths: Millington's method and the equivalent-distance (Kirke) method.
+
+Both are built on the homogeneous curves of :mod:`mwreach.coverage.groundwave`, through each
+model's cached table, so nothing that depends only on (frequency, ground) is recomputed per point.
+All fields here are in dB relative to the unattenuated field at 1 km; add
+``mv_m_to_dbu(e1km_mv_m)`` for dBµV/m.
+
+References
+----------
+G. Millington, "Ground-wave propagation over an inhomogeneous smooth earth",
+Proc. IEE 96, Part III (1949); ITU-R P.368-9, Annex 2 (methods.md §2).
+H. L. Kirke, "Calculation of ground-wave field strength over a composite land and sea path",
+Proc. IRE 37 (1949); required for mixed paths in 47 CFR 73.183(d).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from .ground import Section
+from .groundwave import GroundWaveModel, model
+
+__all__ = ["METHODS", "path_field_db", "millington_db", "kirke_db"]
+
+METHODS = ("millington", "kirke")
+
+
+def _models(sections: Sequence[Section], freq_khz: float, earth_k: float):
+    return [model(freq_khz, s.ground, earth_k) for s in sections]
+
+
+def _check_sections(sections: Sequence[Section]):
+    if not sections:
+        raise ValueError("a path needs at least one ground section")
+    if sections[0].start_km != 0.0:
+        raise ValueError("the first section must start at the transmitter (0 km)")
+    for a, b in zip(sections, sections[1:]):
+        if abs(a.end_km - b.start_km) > 1e-9 or b.end_km <= b.start_km:
+            raise ValueError("sections must be contiguous and of positive length")
+
+
+def millington_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k: float = 4 / 3):
+    """Millington's mixed-path field [dB re unattenuated field at 1 km] at ``dist_km``.
+
+    With boundaries b_j (cumulative, from the transmitter) and E_i the homogeneous curve of
+    section i (dB), for a receiver at D in section n:
+
+    forward  E_F = E_n(D) + Σ_{b_j < D} [E_j(b_j) − E_{j+1}(b_j)]
+    reverse  E_R = E_1(D) + Σ_{b_j < D} [E_{j+1}(D − b_j) − E_j(D − b_j)]
+    result   (E_F + E_R) / 2
+
+    The last section is taken to extend beyond its end. The inverse-distance parts cancel in
+    each bracket, so only attenuations are differenced.
+
+    References
+    ----------
+    Millington (1949); ITU-R P.368-9 Annex 2; methods.md §2.
+    """
+    _check_sections(sections)
+    d = np.asarray(dist_km, dtype=float)
+    ms = _models(sections, freq_khz, earth_k)
+    bounds = np.array([s.end_km for s in sections[:-1]])
+    # the section each distance lies in
+    sec = np.searchsorted(bounds, d, side="left")
+    fwd = np.empty(d.shape)
+    for i, m in enumerate(ms):
+        here = sec == i
+        if np.any(here):
+            fwd[here] = m.curve_db(d[here])
+    rev = ms[0].curve_db(d)
+    for j, b in enumerate(bounds):
+        beyond = d > b
+        if not np.any(beyond):
+            break
+        fwd[beyond] += float(ms[j].gain_db(b) - ms[j + 1].gain_db(b))  # Eq. forward jump
+        r = d[beyond] - b
+        rev[beyond] += ms[j + 1].gain_db(r) - ms[j].gain_db(r)  # Eq. reverse term
+    return 0.5 * (fwd + rev)
+
+
+def kirke_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k: float = 4 / 3):
+    """Equivalent-distance (Kirke) field [dB re unattenuated field at 1 km] at ``dist_km``.
+
+    Along section 1 the field follows its own curve. At each boundary, the distance on the
+    next section's curve that gives the field reached so far is found, and the field continues
+    along that curve from there. Continuous at boundaries; not reciprocal.
+
+    References
+    ----------
+    Kirke (1949); 47 CFR 73.183(d); methods.md §2.
+    """
+    _check_sections(sections)
+    d = np.asarray(dist_km, dtype=float)
+    ms: list[GroundWaveModel] = _models(sections, freq_khz, earth_k)
+    out = ms[0].curve_db(d)
+    offset = 0.0  # equivalent distance at the start of the current section, minus its start
+    for j in range(1, len(sections)):
+        b = sections[j].start_km
+        reached = float(ms[j - 1].curve_db(b + offset))
+        d_eq = float(ms[j].distance_for_curve_db(reached))
+        offset = d_eq - b
+        beyond = d > b
+        out[beyond] = ms[j].curve_db(d[beyond] + offset)
+    return out
+
+
+def path_field_db(method: str, sections, dist_km, freq_khz: float, earth_k: float = 4 / 3):
+    """Dispatch to :func:`millington_db` or :func:`kirke_db` by name."""
+    if method == "millington":
+        return millington_db(sections, dist_km, freq_khz, earth_k)
+    if method == "kirke":
+        return kirke_db(sections, dist_km, freq_khz, earth_k)
+    raise ValueError(f"mixed_path must be one of {', '.join(METHODS)} (got {method!r})")

@@ -1,0 +1,125 @@
+"""Geodesics, local projection and ground zones."""
+
+import json
+
+import numpy as np
+import pytest
+from pyproj import Geod
+from shapely.geometry import Polygon, box
+
+from mwreach.coverage import geodesy
+from mwreach.coverage.ground import Ground, GroundMap, Zone, ground_class, load_zones
+
+LAT, LON = 38.4, -46.2
+
+
+def test_radial_points_match_geographiclib():
+    # pyproj.Geod wraps GeographicLib (Karney 2013): the inverse recovers distance and bearing
+    lat, lon = geodesy.radial_points(LAT, LON, [0.0, 90.0, 225.0], [10.0, 500.0])
+    g = Geod(ellps="WGS84")
+    az, _, dist = g.inv(np.full(6, LON), np.full(6, LAT), lon.ravel(), lat.ravel())
+    np.testing.assert_allclose(dist.reshape(3, 2) / 1e3, [[10, 500]] * 3, atol=1e-9)
+    np.testing.assert_allclose(np.mod(az, 360).reshape(3, 2), [[0, 0], [90, 90], [225, 225]],
+                               atol=1e-7)
+
+
+def test_meridian_degree_length():
+    # WGS84: one degree of latitude at 45° is 111.132 km (geographiclib, common reference)
+    d, az12, _ = geodesy.inverse(44.5, 10.0, 45.5, 10.0)
+    assert float(d) == pytest.approx(111.132, abs=0.002)
+    assert float(az12) == pytest.approx(0.0, abs=1e-9)
+
+
+def test_midpoint_is_halfway():
+    lat, lon = geodesy.midpoint(10.0, 170.0, -20.0, -150.0)  # across the date line and equator
+    d1, _, _ = geodesy.inverse(10.0, 170.0, lat, lon)
+    d2, _, _ = geodesy.inverse(lat, lon, -20.0, -150.0)
+    assert float(d1) == pytest.approx(float(d2), abs=1e-6)
+
+
+def test_local_projection_radials_are_true():
+    # azimuthal equidistant: a point at bearing β, distance d maps to (d sin β, d cos β)
+    p = geodesy.LocalProjection(LAT, LON)
+    lat, lon = geodesy.fwd_points(LAT, LON, np.array([30.0, 200.0]), np.array([150.0, 420.0]))
+    x, y = p.to_xy(lon, lat)
+    b = np.radians([30.0, 200.0])
+    np.testing.assert_allclose(x, [150 * np.sin(b[0]), 420 * np.sin(b[1])], atol=1e-6)
+    np.testing.assert_allclose(y, [150 * np.cos(b[0]), 420 * np.cos(b[1])], atol=1e-6)
+    lon2, lat2 = p.to_lonlat(x, y)
+    np.testing.assert_allclose([lon2, lat2], [lon, lat], atol=1e-9)
+
+
+def test_geodesic_area_of_a_one_degree_cell():
+    # a 1°×1° cell at the equator is 12 308.8 km² on WGS84 (geographiclib PolygonArea)
+    assert geodesy.geodesic_area_km2(box(0, 0, 1, 1)) == pytest.approx(12308.8, rel=1e-4)
+
+
+def test_dms():
+    assert geodesy.dms(38.4, "N", "S") == "38°24′00.0″ N"
+    assert geodesy.dms(-46.2125, "E", "W") == "46°12′45.0″ W"
+
+
+def _zone_map():
+    # two boxes east of the site; the second overlaps the first and wins there
+    p = geodesy.LocalProjection(LAT, LON)
+    def bx(x0, x1, y0, y1):
+        lon, lat = p.to_lonlat(np.array([x0, x1, x1, x0]), np.array([y0, y0, y1, y1]))
+        return Polygon(zip(lon, lat))
+    sea = Zone("sea", ground_class("sea"), bx(20, 60, -30, 30))
+    river = Zone("river", Ground(15, 30, "river"), bx(40, 80, -5, 5))
+    return GroundMap(ground_class("land"), [sea, river])
+
+
+def test_radial_sections_and_overlap():
+    gm = _zone_map()
+    assert gm.overlaps == [("sea", "river")]
+    (secs,) = gm.radial_sections(LAT, LON, [90.0], 100.0)
+    names = [s.ground.name for s in secs]
+    assert names == ["land", "sea", "river", "land"]
+    # boundaries at 20, 40 and 80 km east (edges densified, projection exact along radials)
+    np.testing.assert_allclose([s.end_km for s in secs[:-1]], [20, 40, 80], atol=0.05)
+    assert secs[-1].end_km == pytest.approx(100.0)
+    (north,) = gm.radial_sections(LAT, LON, [0.0], 100.0)
+    assert len(north) == 1 and north[0].ground.name == "land"
+
+
+def test_merge_equal_grounds():
+    p = geodesy.LocalProjection(LAT, LON)
+    lon, lat = p.to_lonlat(np.array([10, 30, 30, 10.0]), np.array([-5, -5, 5, 5.0]))
+    twin = Zone("twin", ground_class("land"), Polygon(zip(lon, lat)))
+    (secs,) = GroundMap(ground_class("land"), [twin]).radial_sections(LAT, LON, [90.0], 50.0)
+    assert len(secs) == 1
+
+
+def test_ground_at_point():
+    gm = _zone_map()
+    p = geodesy.LocalProjection(LAT, LON)
+    lon, lat = p.to_lonlat(np.array([50.0, 30.0, 0.0]), np.array([0.0, 20.0, 0.0]))
+    assert [gm.ground_at(a, b).name for a, b in zip(lon, lat)] == ["river", "sea", "land"]
+
+
+def _write(tmp_path, obj):
+    f = tmp_path / "z.geojson"
+    f.write_text(obj if isinstance(obj, str) else json.dumps(obj))
+    return f
+
+
+def test_zone_file_errors(tmp_path):
+    land = ground_class("land")
+    with pytest.raises(ValueError, match=r"z.geojson: not valid JSON \(line 1"):
+        load_zones(_write(tmp_path, "{oops"), land)
+    feat = {"type": "Feature", "properties": {"conductivity_ms_m": -1, "permittivity": 10},
+            "geometry": {"type": "Polygon", "coordinates": [[[0, 0], [1, 0], [1, 1], [0, 0]]]}}
+    fc = {"type": "FeatureCollection", "features": [feat]}
+    with pytest.raises(ValueError, match=r"sigma_ms_m must be .*got -1.*feature 1 of .*z.geojson"):
+        load_zones(_write(tmp_path, fc), land)
+    feat["properties"] = {"conductivity_ms_m": 3, "permittivity": 10, "colour": "red"}
+    with pytest.raises(ValueError, match="unknown key 'colour' in properties of feature 1"):
+        load_zones(_write(tmp_path, fc), land)
+    feat["properties"] = {"conductivity_ms_m": 3}
+    with pytest.raises(ValueError, match="missing key 'permittivity'"):
+        load_zones(_write(tmp_path, fc), land)
+    feat["properties"] = {"conductivity_ms_m": 3, "permittivity": 10}
+    feat["geometry"] = {"type": "Point", "coordinates": [0, 0]}
+    with pytest.raises(ValueError, match="Polygon or MultiPolygon"):
+        load_zones(_write(tmp_path, fc), land)
