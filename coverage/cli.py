@@ -191,10 +191,75 @@ def _cmd_run(args) -> int:
         if row["radials_with_further_crossings"]:
             print(f"  {row['radials_with_further_crossings']} radial(s) cross this level again "
                   "further out (field recovers over water); see radials.csv")
+    if result.interference is not None:
+        _print_interference(result)
     print(f"{len(result.radials.bearings_deg)} radials in {result.elapsed_s:.2f} s; wrote "
           + ", ".join(str(f) for f in files))
     print("Planning estimate only: filings must follow local rules and be checked by a "
           "licensed engineer.")
+    return 0
+
+
+def _print_interference(result) -> None:
+    inter = result.interference
+    n = inter.night
+    method = "47 CFR 73.190" if inter.settings.method == "cfr" else "ITU-R P.1147"
+    print(f"Night ({method}, {inter.settings.percent} % sky wave, "
+          f"RSS {inter.settings.exclusion_percent} % exclusion), {n.power_kw:g} kW:")
+    print(f"  night limit {n.limit_mv_m.min():.2f}–{n.limit_mv_m.max():.2f} mV/m; night service "
+          f"contour {np.nanmin(n.contour_km):.1f}–{np.nanmax(n.contour_km):.1f} km, "
+          f"{n.area_km2:.0f} km²")
+    print(f"  {'neighbour':<20} {'check':<13} {'offset':>6} {'D/U dB':>7} {'worst margin':>13}")
+    for row in inter.neighbour_summary():
+        flag = "" if row["passed"] else "  FAILS"
+        print(f"  {row['neighbour']:<20} {row['kind']:<13} {row['offset_channels']:>+6d} "
+              f"{row['ratio_db']:>7g} {row['worst_margin_db']:>10.1f} dB{flag}")
+    for period, mp in inter.max_power.items():
+        if mp is None:
+            continue
+        print(f"  maximum {period} power {mp['max_power_kw']:.3g} kW (now {mp['current_power_kw']:g}"
+              f" kW), limited by {mp['limiting_neighbour']} at {mp['limiting_lat']:.4f}, "
+              f"{mp['limiting_lon']:.4f}")
+    for note in inter.notes:
+        print(f"  note: {note}")
+
+
+def _cmd_sky(args) -> int:
+    from .skywave import sky_field_dbu, sky_path
+
+    if args.hops is not None and args.hops < 1:
+        raise UsageError(f"--hops must be >= 1 (got {args.hops})")
+    path = sky_path(args.from_[0], args.from_[1], args.to[0], args.to[1], hops=args.hops,
+                    height_km=args.height_km)
+    ref = 100.0 if args.method == "cfr" else 300.0
+    e = ref if args.e1km_mv_m is None else args.e1km_mv_m
+    if not (np.isfinite(e) and e > 0):
+        raise UsageError(f"--e1km-mv-m must be > 0 (got {e})")
+    kw = dict(freq_khz=args.freq_khz, tx=tuple(args.from_), rx=tuple(args.to))
+    f50 = float(sky_field_dbu(path, e, args.method, 50, **kw))
+    f10 = float(sky_field_dbu(path, e, args.method, 10, **kw))
+    out = {
+        "method": args.method, "freq_khz": args.freq_khz, "e1km_mv_m": e,
+        "distance_km": float(path.distance_km), "azimuth_deg": float(path.azimuth_deg),
+        "slant_km": float(path.slant_km), "midpoint_lat": float(path.mid_lat),
+        "midpoint_lon": float(path.mid_lon),
+        "midpoint_geomagnetic_lat_deg": float(path.geomagnetic_lat_deg),
+        "hops": int(path.hops), "departure_deg": float(path.departure_deg),
+        "field_50_dbu": f50, "field_10_dbu": f10,
+        "field_50_mv_m": 10 ** (f50 / 20) / 1e3, "field_10_mv_m": 10 ** (f10 / 20) / 1e3,
+    }
+    if args.json:
+        print(json.dumps(out, indent=1))
+        return 0
+    name = "47 CFR 73.190" if args.method == "cfr" else "ITU-R P.1147"
+    print(f"Sky wave ({name}), {args.freq_khz:g} kHz, {e:g} mV/m at 1 km toward the receiver")
+    print(f"  distance {out['distance_km']:.1f} km, slant {out['slant_km']:.1f} km, "
+          f"azimuth {out['azimuth_deg']:.1f}°, {out['hops']} hop(s), departure "
+          f"{out['departure_deg']:.1f}°")
+    print(f"  midpoint {out['midpoint_lat']:.3f}, {out['midpoint_lon']:.3f}, geomagnetic "
+          f"latitude {out['midpoint_geomagnetic_lat_deg']:.2f}°")
+    print(f"  field 50 %: {f50:.2f} dBµV/m ({out['field_50_mv_m']:.4g} mV/m); "
+          f"10 %: {f10:.2f} dBµV/m ({out['field_10_mv_m']:.4g} mV/m)")
     return 0
 
 
@@ -235,6 +300,22 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--out", required=True, help="output folder (created if missing)")
     r.set_defaults(func=_cmd_run)
 
+    k = sub.add_parser("sky", help="night-time sky wave on one path")
+    k.add_argument("--freq-khz", type=float, required=True, help="frequency [kHz]")
+    k.add_argument("--from", dest="from_", type=float, nargs=2, required=True,
+                   metavar=("LAT", "LON"), help="transmitter [deg]")
+    k.add_argument("--to", type=float, nargs=2, required=True, metavar=("LAT", "LON"),
+                   help="receiver [deg]")
+    k.add_argument("--method", choices=("cfr", "itu"), default="cfr",
+                   help="47 CFR 73.190 (cfr) or ITU-R P.1147 (itu)")
+    k.add_argument("--e1km-mv-m", type=float,
+                   help="radiation toward the receiver at the departure angle [mV/m at 1 km] "
+                        "(default: 100 for cfr, 300 for itu)")
+    k.add_argument("--hops", type=int, help="number of hops (default: fewest possible)")
+    k.add_argument("--height-km", type=float, default=100.0, help="reflection height [km]")
+    k.add_argument("--json", action="store_true", help="print JSON instead of text")
+    k.set_defaults(func=_cmd_sky)
+
     return p
 
 
@@ -243,6 +324,9 @@ def main(argv=None) -> int:
     args = parser.parse_args(argv)
     try:
         return int(args.func(args) or 0)
+    except BrokenPipeError:  # output piped into e.g. `head`
+        sys.stderr.close()
+        return 0
     except (UsageError, ValueError, FileNotFoundError, IsADirectoryError) as exc:
         msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         print(f"mwreach {args.command}: error: {msg}", file=sys.stderr)

@@ -22,6 +22,8 @@ __all__ = [
     "radial_fields",
     "crossings",
     "level_contour",
+    "first_crossings",
+    "contour_geometry",
     "field_raster",
 ]
 
@@ -159,24 +161,21 @@ def _wedge(b_deg: float, half_deg: float, d1: float, d2: float):
     return Polygon(pts)
 
 
-def level_contour(
-    radials: RadialFields,
-    level_mv_m: float,
-    label: str,
-    projection: LocalProjection,
-    community_lonlat=None,
-) -> LevelContour:
-    """Contour distances, polygon, area and community share for one level."""
-    import shapely
-    from shapely.geometry import Polygon
+def first_crossings(radials: RadialFields, level_dbu):
+    """First falling crossing per bearing and the further stretches above the level.
 
-    level = float(mv_m_to_dbu(level_mv_m))
+    ``level_dbu`` is a scalar or one level per bearing. Returns (first_km (nb,), further list);
+    NaN where the field is below the level already at the first distance, ``inf`` where it is
+    still above at the end of the radial.
+    """
     d = radials.dist_km
     nb = radials.bearings_deg.size
+    levels = np.broadcast_to(np.asarray(level_dbu, dtype=float), (nb,))
     first = np.empty(nb)
     further = []
     for i in range(nb):
         prof = radials.field_dbu[i]
+        level = levels[i]
         dist, direction = crossings(d, prof, level)
         if prof[0] < level:
             first[i] = np.nan
@@ -195,9 +194,22 @@ def level_contour(
             end = rest[k + 1] if k + 1 < rest.size else d[-1]
             spans.append((float(rest[k]), float(end)))
         further.append(spans)
+    return first, further
 
-    reach = np.where(np.isnan(first), 0.0, np.where(np.isinf(first), d[-1], first))
-    b = np.radians(radials.bearings_deg)
+
+def contour_geometry(bearings_deg, first_km, further, end_km: float,
+                     projection: LocalProjection, community_lonlat=None):
+    """Contour polygon from per-bearing distances, plus islands where the field recovers.
+
+    Returns (polygon in local xy [km], polygon in lon/lat, geodesic area [km²], community share
+    or None).
+    """
+    import shapely
+    from shapely.geometry import Polygon
+
+    nb = len(bearings_deg)
+    reach = np.where(np.isnan(first_km), 0.0, np.where(np.isinf(first_km), end_km, first_km))
+    b = np.radians(bearings_deg)
     if nb >= 3:
         poly = Polygon(np.column_stack([reach * np.sin(b), reach * np.cos(b)]))
         if not poly.is_valid:
@@ -205,9 +217,7 @@ def level_contour(
     else:
         poly = Polygon()
     step = 360.0 / nb if nb else 0.0
-    wedges = [
-        _wedge(radials.bearings_deg[i], step / 2, a, e) for i, sp in enumerate(further) for a, e in sp
-    ]
+    wedges = [_wedge(bearings_deg[i], step / 2, a, e) for i, sp in enumerate(further) for a, e in sp]
     if wedges:
         poly = shapely.unary_union([poly, *wedges])
     poly_ll = projection.geom_to_lonlat(poly) if not poly.is_empty else poly
@@ -218,6 +228,21 @@ def level_contour(
         inside = projection.geom_to_lonlat(comm_xy.intersection(poly))
         total = geodesic_area_km2(community_lonlat)
         share = geodesic_area_km2(inside) / total if total > 0 else 0.0
+    return poly, poly_ll, area, share
+
+
+def level_contour(
+    radials: RadialFields,
+    level_mv_m: float,
+    label: str,
+    projection: LocalProjection,
+    community_lonlat=None,
+) -> LevelContour:
+    """Contour distances, polygon, area and community share for one level."""
+    first, further = first_crossings(radials, float(mv_m_to_dbu(level_mv_m)))
+    poly, poly_ll, area, share = contour_geometry(
+        radials.bearings_deg, first, further, radials.dist_km[-1], projection, community_lonlat
+    )
     return LevelContour(float(level_mv_m), label, first, further, poly, poly_ll, area, share)
 
 

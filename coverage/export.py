@@ -177,11 +177,91 @@ def contours_kml(geojson: dict, name: str) -> str:
             f"<Document><name>{escape(name)}</name>" + "".join(marks) + "</Document></kml>\n")
 
 
+def interference_summary(result: StudyResult) -> dict:
+    """Maximum powers, per-neighbour worst margins, ratios used and notes (for summary.json)."""
+    inter = result.interference
+    if inter is None:
+        return {}
+    clean = lambda d: None if d is None else {k: (_num(v) if not isinstance(v, str) else v)  # noqa: E731
+                                               for k, v in d.items()}
+    return {
+        "max_power": {k: clean(v) for k, v in inter.max_power.items()},
+        "neighbours": [{k: (_num(v) if isinstance(v, float) else v) for k, v in row.items()}
+                       for row in inter.neighbour_summary()],
+        "protection_ratios": inter.protection.rows(),
+        "interference_notes": list(inter.notes),
+    }
+
+
+def night_json(result: StudyResult) -> dict:
+    """Night limit and night service contour per bearing, with the method settings."""
+    inter = result.interference
+    n = inter.night
+    s = inter.settings
+    return {
+        "station": result.spec.station.name,
+        "power_night_kw": n.power_kw,
+        "method": {"sky_wave": "47 CFR 73.190" if s.method == "cfr" else "ITU-R P.1147",
+                   "percent_of_time": s.percent, "rss_exclusion_percent": s.exclusion_percent,
+                   "layer_height_km": s.layer_height_km, "floor_mv_m": s.floor_mv_m},
+        "area_km2": n.area_km2,
+        "bearings": [
+            {"bearing_deg": float(b), "night_limit_mv_m": float(lim),
+             "night_limit_dbu": float(db), "contour_km": _num(d), "interferers_used": used}
+            for b, lim, db, d, used in zip(n.bearings_deg, n.limit_mv_m, n.limit_dbu,
+                                           n.contour_km, n.contributors)
+        ],
+    }
+
+
+def interference_csv(result: StudyResult) -> str:
+    """One row per neighbour and check point: fields, ratio, margin, pass."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["kind", "neighbour", "offset_channels", "bearing_deg", "lat", "lon",
+                "wanted_dbu", "wanted_mv_m", "unwanted_dbu", "unwanted_mv_m", "ratio_db",
+                "margin_db", "pass"])
+    for r in result.interference.rows:
+        w.writerow([r.kind, r.neighbour, r.offset_channels, f"{r.bearing_deg:g}", f"{r.lat:.5f}",
+                    f"{r.lon:.5f}", f"{r.wanted_dbu:.2f}", f"{10 ** (r.wanted_dbu / 20) / 1e3:.4g}",
+                    f"{r.unwanted_dbu:.2f}", f"{10 ** (r.unwanted_dbu / 20) / 1e3:.4g}",
+                    f"{r.ratio_db:g}", f"{r.margin_db:.2f}", "yes" if r.passed else "NO"])
+    return buf.getvalue()
+
+
+def night_feature(result: StudyResult) -> dict | None:
+    """The night service contour as a GeoJSON Feature (None without a night result)."""
+    from shapely.geometry import mapping
+
+    inter = result.interference
+    if inter is None or inter.night is None or inter.night.polygon_lonlat.is_empty:
+        return None
+    n = inter.night
+    st = result.spec.station
+    return {"type": "Feature",
+            "properties": {"level": round(float(np.median(n.limit_mv_m)), 4), "units": "mV/m",
+                           "label": "night service (night limit, median shown)",
+                           "station": st.name, "freq_khz": st.freq_khz,
+                           "kind": "night service", "area_km2": round(n.area_km2, 3)},
+            "geometry": mapping(n.polygon_lonlat)}
+
+
 def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_features=(),
                   extra_files=None) -> list[pathlib.Path]:
-    """Write summary.json, radials.csv, contours.geojson and contours.kml into ``out_dir``."""
+    """Write summary.json, radials.csv, contours.geojson and contours.kml into ``out_dir``,
+    and night.json and interference.csv when the study ran the night/interference work."""
     out = pathlib.Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    extra_summary = dict(extra_summary or {}) | interference_summary(result)
+    extra_features = list(extra_features)
+    extra_files = dict(extra_files or {})
+    if result.interference is not None:
+        nf = night_feature(result)
+        if nf is not None:
+            extra_features.append(nf)
+        extra_files["night.json"] = json.dumps(night_json(result), indent=1,
+                                               ensure_ascii=False) + "\n"
+        extra_files["interference.csv"] = interference_csv(result)
     gj = contours_geojson(result, extra_features)
     files = {
         "summary.json": json.dumps(summary_dict(result, extra_summary), indent=1,

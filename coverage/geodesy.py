@@ -108,16 +108,16 @@ class LocalProjection:
 
     def __init__(self, lat_deg: float, lon_deg: float):
         self.lat, self.lon = check_site(lat_deg, lon_deg)
-        proj = (
-            f"+proj=aeqd +lat_0={self.lat} +lon_0={self.lon} +x_0=0 +y_0=0 "
-            "+ellps=WGS84 +units=km +no_defs"
+        # a PROJ pipeline string needs no database lookup (from_crs costs ~13 ms per site)
+        self._tr = Transformer.from_pipeline(
+            "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
+            f"+step +proj=aeqd +lat_0={self.lat!r} +lon_0={self.lon!r} +x_0=0 +y_0=0 "
+            "+ellps=WGS84 +units=km"
         )
-        self._fwd = Transformer.from_crs("EPSG:4326", proj, always_xy=True)
-        self._inv = Transformer.from_crs(proj, "EPSG:4326", always_xy=True)
 
     def to_xy(self, lon, lat):
         """(lon, lat) [deg] → (x, y) [km]."""
-        x, y = self._fwd.transform(np.asarray(lon, float), np.asarray(lat, float))
+        x, y = self._tr.transform(np.asarray(lon, float), np.asarray(lat, float))
         return np.asarray(x), np.asarray(y)
 
     def geom_to_xy(self, geometry):
@@ -134,7 +134,8 @@ class LocalProjection:
 
     def to_lonlat(self, x_km, y_km):
         """(x, y) [km] → (lon, lat) [deg]."""
-        lon, lat = self._inv.transform(np.asarray(x_km, float), np.asarray(y_km, float))
+        lon, lat = self._tr.transform(np.asarray(x_km, float), np.asarray(y_km, float),
+                                      direction="INVERSE")
         return np.asarray(lon), np.asarray(lat)
 
 

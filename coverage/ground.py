@@ -174,7 +174,8 @@ class GroundMap:
         key = (projection.lat, projection.lon)
         cache = self.__dict__.setdefault("_xy_cache", {})
         if key not in cache:
-            cache.clear()
+            if len(cache) >= 64:  # a study's own site and its neighbours' sites
+                cache.pop(next(iter(cache)))
             cache[key] = [
                 projection.geom_to_xy(shapely.segmentize(z.geometry, 0.01))
                 for z in self.zones

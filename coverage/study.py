@@ -18,6 +18,15 @@ import numpy as np
 from .antenna import Array, array_from_table, array_to_table
 from .contours import LevelContour, RadialFields, level_contour, radial_fields
 from .geodesy import check_site, local_projection
+from .interference import (
+    InterferencePlan,
+    InterferenceResult,
+    NightSettings,
+    ProtectionTable,
+    neighbour_from_table,
+    read_neighbours_csv,
+    run_interference,
+)
 from .ground import Ground, GroundMap, ground_class, load_zones
 from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ, model
 from .mixedpath import METHODS
@@ -36,7 +45,8 @@ __all__ = [
     "read_boundary",
 ]
 
-SECTIONS = ("study", "station", "antenna", "ground", "contour", "community", "output")
+SECTIONS = ("study", "station", "antenna", "ground", "contour", "community", "output", "night",
+            "interference", "protection", "neighbour")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km", "step_km")
 STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw")
 GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones")
@@ -99,6 +109,8 @@ class StudySpec:
     path: str = ""  # study file, for messages and relative paths
     zones_path: str = ""  # as written in the file (relative to it)
     ground_class: str = ""  # default ground class name, if given by name
+    interference: InterferencePlan | None = None
+    neighbour_tables: tuple = ()  # [[neighbour]] tables as written, for saving
 
     @property
     def bearings(self) -> np.ndarray:
@@ -252,6 +264,8 @@ def parse_study(doc: dict, path: str | pathlib.Path = "<study>") -> StudySpec:
     if "table_step_deg" in output:
         check_finite("table_step_deg", output["table_step_deg"], 1.0, 90.0, where=w)
 
+    interference, neighbour_tables = _parse_interference(doc, base, fname)
+
     return StudySpec(
         title=str(st.get("title", station.name)),
         station=station,
@@ -268,7 +282,49 @@ def parse_study(doc: dict, path: str | pathlib.Path = "<study>") -> StudySpec:
         path=fname,
         zones_path=str(zones_rel),
         ground_class=cls_name,
+        interference=interference,
+        neighbour_tables=neighbour_tables,
     )
+
+
+def _parse_interference(doc: dict, base: pathlib.Path, fname: str):
+    """``[night]``, ``[interference]``, ``[protection]`` and ``[[neighbour]]``."""
+    if not any(k in doc for k in ("night", "interference", "protection", "neighbour")):
+        return None, ()
+    night = NightSettings.from_table(_table(doc, "night", fname), where_join("[night]", fname))
+    prot = ProtectionTable.from_table(_table(doc, "protection", fname),
+                                      where_join("[protection]", fname))
+    it = _table(doc, "interference", fname)
+    w = where_join("[interference]", fname)
+    check_keys(it, InterferencePlan.KEYS, w)
+    tables = doc.get("neighbour", [])
+    if not isinstance(tables, list):
+        raise ValueError(f"neighbour must be a list of [[neighbour]] tables in {fname}")
+    neighbours = []
+    for i, t in enumerate(tables, 1):
+        if not isinstance(t, dict):
+            raise ValueError(f"[[neighbour]] {i} must be a table in {fname}")
+        neighbours.append(neighbour_from_table(t, where_join(f"[[neighbour]] {i}", fname), base))
+    nfile = str(it.get("neighbours", ""))
+    if nfile:
+        npath = base / nfile
+        if not npath.is_file():
+            raise ValueError(f"neighbours file {str(npath)!r} not found (neighbours in {w})")
+        neighbours += read_neighbours_csv(npath)
+    names = [n.name for n in neighbours]
+    dup = {x for x in names if names.count(x) > 1}
+    if dup:
+        raise ValueError(f"neighbour names must be unique (repeated: {', '.join(sorted(dup))}) "
+                         f"in {fname}")
+    plan = InterferencePlan(
+        neighbours=tuple(neighbours), protection=prot, night=night,
+        protected_day_mv_m=check_finite("protected_day_mv_m", it.get("protected_day_mv_m", 0.5),
+                                        0.01, 100.0, where=w),
+        contour_step_deg=check_finite("contour_step_deg", it.get("contour_step_deg", 10.0),
+                                      1.0, 45.0, where=w),
+        neighbours_file=nfile,
+    )
+    return plan, tuple(dict(t) for t in tables)
 
 
 def load_study(path) -> StudySpec:
@@ -335,6 +391,22 @@ def spec_to_toml(spec: StudySpec) -> str:
                                            "boundary": spec.community.path})
     if spec.output:
         lines += _toml_table("output", spec.output)
+    plan = spec.interference
+    if plan is not None:
+        lines += _toml_table("night", plan.night.to_table())
+        inter = {"protected_day_mv_m": plan.protected_day_mv_m,
+                 "contour_step_deg": plan.contour_step_deg}
+        if plan.neighbours_file:
+            inter["neighbours"] = plan.neighbours_file
+        lines += _toml_table("interference", inter)
+        prot = {"raster_khz": plan.protection.raster_khz}
+        from .interference import ORDINALS
+
+        for (period, off), (ratio, _src) in sorted(plan.protection.ratios.items()):
+            prot[f"{period}_{ORDINALS[off]}_db"] = ratio
+        lines += _toml_table("protection", prot)
+        for t in spec.neighbour_tables:
+            lines += _toml_table("neighbour", t, array=True)
     return "\n".join(lines)
 
 
@@ -351,6 +423,7 @@ class StudyResult:
     max_km: float
     elapsed_s: float
     created: str
+    interference: InterferenceResult | None = None
 
     def level_rows(self) -> list[dict]:
         """One summary row per level (distances over the regular bearings)."""
@@ -402,7 +475,8 @@ class Study:
             return MAX_RANGE_KM
         return float(np.clip(1.2 * d, 20.0, MAX_RANGE_KM))
 
-    def run(self, bearings=None, power_kw: float | None = None, progress=None) -> StudyResult:
+    def run(self, bearings=None, power_kw: float | None = None, progress=None,
+            interference: bool = True) -> StudyResult:
         """Compute radial fields, contour distances and polygons.
 
         Parameters
@@ -410,6 +484,8 @@ class Study:
         bearings : bearings [deg true] (default: the study's)
         power_kw : antenna input power (default: the day power)
         progress : optional callable(done, total) called per bearing
+        interference : also run the night and interference work when the study has neighbours
+            or night settings
         """
         t0 = time.perf_counter()
         spec = self.spec
@@ -426,6 +502,9 @@ class Study:
         contours = tuple(
             level_contour(radials, lv.field_mv_m, lv.text, proj, community) for lv in spec.levels
         )
+        inter = None
+        if interference and spec.interference is not None:
+            inter = run_interference(spec, spec.interference)
         return StudyResult(
             spec=spec,
             radials=radials,
@@ -434,4 +513,5 @@ class Study:
             max_km=max_km,
             elapsed_s=time.perf_counter() - t0,
             created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
+            interference=inter,
         )

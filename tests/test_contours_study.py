@@ -114,7 +114,7 @@ def test_bearings_include_extra_ones():
 
 def test_spec_round_trip(tmp_path):
     spec = load_study(DEMO)
-    for name in ("zones.geojson", "community.geojson"):
+    for name in ("zones.geojson", "community.geojson", "neighbours.csv", "varnholt_array.toml"):
         shutil.copy(DEMO.parent / name, tmp_path / name)
     f = tmp_path / "copy.toml"
     f.write_text(spec_to_toml(spec))
@@ -123,6 +123,9 @@ def test_spec_round_trip(tmp_path):
     assert again.station.antenna.elements[0].tower.height_deg == pytest.approx(
         spec.station.antenna.elements[0].tower.height_deg)
     assert again.mixed_path == spec.mixed_path and again.extra_bearings == spec.extra_bearings
+    assert again.interference.neighbours == spec.interference.neighbours
+    assert again.interference.night == spec.interference.night
+    assert again.interference.protection.ratios.keys() == spec.interference.protection.ratios.keys()
 
 
 def _study_text(**replace):
@@ -148,7 +151,7 @@ def _study_text(**replace):
     ],
 )
 def test_study_errors_name_key_and_file(tmp_path, old, new, needle):
-    for name in ("zones.geojson", "community.geojson"):
+    for name in ("zones.geojson", "community.geojson", "neighbours.csv", "varnholt_array.toml"):
         shutil.copy(DEMO.parent / name, tmp_path / name)
     f = tmp_path / "bad.toml"
     f.write_text(_study_text(**{old: new}))
@@ -169,10 +172,11 @@ def test_cli_run_writes_outputs(tmp_path, capsys):
     r90 = next(r for r in rows if r["bearing_deg"] == "90")
     assert float(r90["0.5mV_m_mi"]) == pytest.approx(float(r90["0.5mV_m_km"]) / 1.609344, abs=0.01)
     gj = json.loads((tmp_path / "contours.geojson").read_text())
-    assert [f["properties"]["level"] for f in gj["features"]] == [5.0, 2.0, 0.5, 0.1]
+    day = [f for f in gj["features"] if f["properties"]["kind"] == "day ground wave"]
+    assert [f["properties"]["level"] for f in day] == [5.0, 2.0, 0.5, 0.1]
     assert all(f["properties"]["units"] == "mV/m" for f in gj["features"])
     kml = (tmp_path / "contours.kml").read_text()
-    assert kml.count("<Placemark>") == 4 and "opengis.net/kml/2.2" in kml
+    assert kml.count("<Placemark>") == len(gj["features"]) and "opengis.net/kml/2.2" in kml
 
 
 def test_cli_run_bad_file(tmp_path, capsys):

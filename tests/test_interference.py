@@ -1,0 +1,182 @@
+"""Protection ratios, RSS, night limit, D/U margins and maximum power."""
+
+import csv
+import dataclasses
+import json
+import pathlib
+import shutil
+
+import numpy as np
+import pytest
+
+from mwreach.coverage import cli
+from mwreach.coverage.antenna import Array, Tower
+from mwreach.coverage.ground import GroundMap, ground_class
+from mwreach.coverage.interference import (
+    InterferencePlan,
+    Neighbour,
+    NightSettings,
+    ProtectionTable,
+    channel_offset,
+    read_neighbours_csv,
+    rss,
+    run_interference,
+)
+from mwreach.coverage.skywave import sky_field_dbu, sky_path
+from mwreach.coverage.study import Study, load_study
+
+DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
+
+
+def test_rss_exclusion_example():
+    # methods.md §5 [calc]: 1.0, 0.6, 0.3, 0.1 mV/m → 1.166 (50 % rule), 1.204 (25 % rule)
+    vals = [0.3, 1.0, 0.1, 0.6]
+    total50, used50 = rss(vals, 50)
+    total25, used25 = rss(vals, 25)
+    assert total50 == pytest.approx(1.166, abs=5e-4)
+    assert total25 == pytest.approx(1.204, abs=5e-4)
+    assert list(used50) == [False, True, False, True]
+    assert list(used25) == [True, True, False, True]
+    assert rss(vals, 0)[0] == pytest.approx(np.sqrt(1 + 0.36 + 0.09 + 0.01))
+
+
+def test_channel_offsets():
+    assert channel_offset(1390, 1390, 10) == 0
+    assert channel_offset(1390, 1380, 10) == -1
+    assert channel_offset(1390, 1420, 10) == 3
+    assert channel_offset(1395, 1390, 10) is None  # off the raster
+    assert channel_offset(999, 1008, 9) == 1
+
+
+def test_default_ratios_carry_sources():
+    t = ProtectionTable()
+    assert t.ratio_db("night", 0)[0] == 26.0 and "73.37" in t.ratio_db("night", 0)[1]
+    assert t.ratio_db("day", -1)[0] == 6.0 and "73.183(c)" in t.ratio_db("day", -1)[1]
+    assert t.ratio_db("day", 2) is None
+
+
+def _spec(neighbours, night=None, floor=0.5):
+    spec = load_study(DEMO)
+    plan = InterferencePlan(tuple(neighbours), night=night or NightSettings(floor_mv_m=floor,
+                                                                           bearing_step_deg=30.0),
+                            contour_step_deg=30.0)
+    return dataclasses.replace(spec, ground=GroundMap(ground_class("land")), community=None,
+                               interference=plan)
+
+
+def _nb(name, freq, lat=42.0, lon=-51.0, p=5.0):
+    return Neighbour(name, lat, lon, freq, p, p, Array.single(Tower(90.0)))
+
+
+def test_one_interferer_sets_the_limit_to_ratio_times_field():
+    n = _nb("A", 1390.0)
+    spec = _spec([n], floor=0.01)
+    res = run_interference(spec, spec.interference)
+    st = spec.station
+    night = res.night
+    from mwreach.coverage.geodesy import fwd_points
+
+    plat, plon = fwd_points(st.lat, st.lon, night.bearings_deg, night.contour_km)
+    # at each night-contour point the limit is 26 dB (co-channel, 47 CFR 73.37) above A's
+    # 10 % sky wave there (47 CFR 73.190 Formula 2)
+    path = sky_path(n.lat, n.lon, plat, plon)
+    e_dep = n.antenna.field_mv_m(path.azimuth_deg, path.departure_deg, n.power_night_kw)
+    u = sky_field_dbu(path, e_dep, "cfr", 10)
+    # the limit is evaluated at the previous iteration's contour; the contour moves < 0.1 km
+    np.testing.assert_allclose(night.limit_dbu, u + 26.0, atol=0.01)  # dB
+    # and the own ground wave at the night contour equals the limit
+    from mwreach.coverage.interference import point_ground_dbu
+
+    own = point_ground_dbu(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
+                           st.power_night_kw, plat, plon)
+    np.testing.assert_allclose(own, night.limit_dbu, atol=0.05)  # dB, 0.25 km grid
+
+
+def test_undefined_ratio_contributes_nothing_and_is_reported():
+    spec = _spec([_nb("B", 1410.0)])
+    res = run_interference(spec, spec.interference)
+    assert not res.rows
+    assert any("B" in n and "no protection ratio" in n for n in res.notes)
+    assert np.allclose(res.night.limit_mv_m, 0.5)  # the floor
+
+
+def test_doubling_neighbour_power_raises_limit_3_01_db():
+    a = _spec([_nb("A", 1390.0, p=5.0)], floor=0.01)
+    b = _spec([_nb("A", 1390.0, p=10.0)], floor=0.01)
+    la = run_interference(a, a.interference).night.limit_dbu
+    lb = run_interference(b, b.interference).night.limit_dbu
+    # the contour moves a little, so the points differ slightly: within 0.05 dB
+    np.testing.assert_allclose(lb - la, 3.0103, atol=0.05)
+
+
+def test_max_power_restores_zero_margin():
+    spec = _spec([_nb("A", 1390.0, lat=39.5, lon=-48.0, p=1.0)])
+    res = run_interference(spec, spec.interference)
+    mp = res.max_power["night"]
+    w = res.worst("night caused")
+    assert mp["limiting_neighbour"] == "A"
+    # caused field ∝ sqrt(P): at the maximum power the worst margin is zero
+    spec2 = dataclasses.replace(spec, station=dataclasses.replace(
+        spec.station, power_night_kw=mp["max_power_kw"]))
+    w2 = run_interference(spec2, spec2.interference).worst("night caused")
+    assert w2.margin_db == pytest.approx(0.0, abs=0.01)
+    assert w.margin_db == pytest.approx(10 * np.log10(mp["max_power_kw"] / spec.station.power_night_kw))
+
+
+def test_neighbours_csv_errors(tmp_path):
+    f = tmp_path / "n.csv"
+    f.write_text("name,lat,lon,freq_khz,power_day_kw,height_deg\nX,91,0,1390,1,90\n")
+    with pytest.raises(ValueError, match=r"lat must be .*got 91.*line 2 of .*n.csv"):
+        read_neighbours_csv(f)
+    f.write_text("name,lat,lon,freq_khz,power_day_kw,height_deg\nX,40,0,abc,1,90\n")
+    with pytest.raises(ValueError, match=r"freq_khz must be a number \(got 'abc'\) in line 2"):
+        read_neighbours_csv(f)
+    f.write_text("name,lat,lon,freq_khz,power_day_kw,colour\nX,40,0,1390,1,red\n")
+    with pytest.raises(ValueError, match="unknown key 'colour'"):
+        read_neighbours_csv(f)
+    f.write_text("name,lat,lon,freq_khz,power_day_kw\nX,40,0,1390,1\n")
+    with pytest.raises(ValueError, match="exactly one of height_deg, height_m or array"):
+        read_neighbours_csv(f)
+
+
+def test_demo_night_outputs(tmp_path, capsys):
+    assert cli.main(["run", str(DEMO), "--out", str(tmp_path)]) == 0
+    text = capsys.readouterr().out
+    assert "maximum night power" in text and "Thistlebury Radio" in text
+    night = json.loads((tmp_path / "night.json").read_text())
+    assert len(night["bearings"]) == 72
+    rows = list(csv.DictReader((tmp_path / "interference.csv").open()))
+    kinds = {r["kind"] for r in rows}
+    assert kinds == {"day received", "day caused", "night caused"}
+    r = rows[0]
+    assert float(r["margin_db"]) == pytest.approx(
+        float(r["wanted_dbu"]) - float(r["unwanted_dbu"]) - float(r["ratio_db"]), abs=0.02)
+    summary = json.loads((tmp_path / "summary.json").read_text())
+    assert summary["max_power"]["night"]["limiting_neighbour"]
+    assert any(p["ratio_db"] is None for p in summary["protection_ratios"])
+    gj = json.loads((tmp_path / "contours.geojson").read_text())
+    assert gj["features"][-1]["properties"]["kind"] == "night service"
+
+
+def test_study_interference_errors(tmp_path):
+    for name in ("zones.geojson", "community.geojson", "neighbours.csv", "varnholt_array.toml"):
+        shutil.copy(DEMO.parent / name, tmp_path / name)
+    text = DEMO.read_text()
+    bad = tmp_path / "bad.toml"
+    bad.write_text(text.replace('method = "cfr"', 'method = "guess"'))
+    with pytest.raises(ValueError, match=r"method must be 'cfr' or 'itu' .*\[night\] of .*bad.toml"):
+        load_study(bad)
+    bad.write_text(text.replace("raster_khz = 10", "raster_khz = 8"))
+    with pytest.raises(ValueError, match=r"raster_khz must be 9 or 10 .*\[protection\]"):
+        load_study(bad)
+    bad.write_text(text.replace('array = "varnholt_array.toml"', 'array = "nope.toml"'))
+    with pytest.raises(ValueError, match=r"array file .*nope.toml.* not found in \[\[neighbour\]\] 1"):
+        load_study(bad)
+
+
+def test_itu_method_runs_on_demo():
+    spec = load_study(DEMO)
+    plan = dataclasses.replace(spec.interference, night=dataclasses.replace(
+        spec.interference.night, method="itu", bearing_step_deg=30.0), contour_step_deg=30.0)
+    res = Study(dataclasses.replace(spec, interference=plan)).run(bearings=np.arange(0, 360, 30.0))
+    assert res.interference.night.limit_mv_m.min() >= 0.5

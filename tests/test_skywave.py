@@ -1,0 +1,120 @@
+"""Night-time sky wave: 47 CFR 73.190 and ITU-R P.1147 (constants from memory)."""
+
+import json
+
+import numpy as np
+import pytest
+
+from mwreach.coverage import cli
+from mwreach.coverage import skywave as sw
+
+
+@pytest.mark.parametrize(
+    "d_km, phi, expected",
+    # methods.md §4 [calc] from 47 CFR 73.190 Formula 1: Φ_M = 40°: 41.87 (250 km),
+    # 27.46 (1000 km), 11.00 (3000 km); Φ_M = 50°: 23.88 at 1000 km
+    [(250.0, 40.0, 41.87), (1000.0, 40.0, 27.46), (3000.0, 40.0, 11.00), (1000.0, 50.0, 23.88)],
+)
+def test_cfr_formula_check_values(d_km, phi, expected):
+    assert float(sw.cfr_field_dbu(d_km, phi, 50)) == pytest.approx(expected, abs=0.005)
+
+
+def test_geomagnetic_latitude():
+    # methods.md §4 [calc]: Φ_M(40° N, 90° W) = 50.58°; the dipole pole itself is at 90°
+    assert float(sw.geomagnetic_lat_deg(40.0, -90.0)) == pytest.approx(50.58, abs=0.005)
+    assert float(sw.geomagnetic_lat_deg(78.5, -69.0)) == pytest.approx(90.0, abs=1e-9)
+    assert float(sw.geomagnetic_lat_deg(-78.5, 111.0)) == pytest.approx(-90.0, abs=1e-9)
+
+
+def test_slant_distance_at_zero_is_200_km():
+    # 47 CFR 73.190: D = sqrt(40000 + d²)
+    assert float(sw.slant_km(0.0)) == 200.0
+
+
+@pytest.mark.parametrize("phi, delta", [(30.0, 6.0), (50.0, 8.0), (70.0, 10.0), (-50.0, 8.0)])
+def test_ten_percent_correction(phi, delta):
+    # 47 CFR 73.190 Formula 2 (methods.md §4): 6 dB below 40°, 0.2|Φ| − 2 for 40–60°, 10 above
+    assert float(sw.ten_percent_excess_db(phi)) == pytest.approx(delta)
+    assert float(sw.cfr_field_dbu(800.0, phi, 10) - sw.cfr_field_dbu(800.0, phi, 50)) == pytest.approx(delta)
+
+
+def test_latitude_cap_at_60_degrees():
+    # 47 CFR 73.190: Φ_M is evaluated at 60° when |Φ_M| > 60°
+    assert float(sw.cfr_field_dbu(900.0, 75.0)) == pytest.approx(float(sw.cfr_field_dbu(900.0, 60.0)))
+    assert float(sw.cfr_field_dbu(900.0, -75.0)) == pytest.approx(float(sw.cfr_field_dbu(900.0, 60.0)))
+
+
+@pytest.mark.parametrize(
+    "d_km, expected",
+    # methods.md §4 [calc]: one hop off 100 km: 63.0° (100 km), 20.5° (500), 9.0° (1000), 1.2° (2000)
+    [(100.0, 63.0), (500.0, 20.5), (1000.0, 9.0), (2000.0, 1.2)],
+)
+def test_departure_angles(d_km, expected):
+    assert float(sw.departure_deg(d_km, 1, 100.0)) == pytest.approx(expected, abs=0.05)
+
+
+def test_hops():
+    assert list(sw.auto_hops([100.0, 2200.0, 2300.0, 6000.0])) == [1, 1, 2, 3]
+    assert float(sw.departure_deg(0.0)) == pytest.approx(90.0)
+
+
+@pytest.mark.parametrize("a, b", [((10.0, 179.5), (12.0, -175.0)), ((-5.0, 20.0), (8.0, 25.0))])
+def test_paths_across_date_line_and_equator_are_symmetric(a, b):
+    fwd = sw.sky_path(*a, *b)
+    rev = sw.sky_path(*b, *a)
+    assert float(fwd.distance_km) == pytest.approx(float(rev.distance_km), abs=1e-6)
+    assert float(fwd.geomagnetic_lat_deg) == pytest.approx(float(rev.geomagnetic_lat_deg), abs=1e-6)
+    f1 = sw.sky_field_dbu(fwd, 100.0, "cfr", 10)
+    f2 = sw.sky_field_dbu(rev, 100.0, "cfr", 10)
+    assert float(f1) == pytest.approx(float(f2), abs=1e-6)
+
+
+def test_itu_terms_by_hand():
+    # ITU-R P.1147 §2 structure (constants from memory, ITU_CONSTANTS): V = 0, G_S = 0, L_p = 0
+    d, f, phi = 1000.0, 1000.0, 45.0
+    p = np.sqrt(d**2 + 40000)
+    k = 3.2 + 0.19 * f**0.4 * np.tan(np.radians(phi + 3)) ** 2
+    expected = 110.0 - 20 * np.log10(p) - k * p / 1000  # Region 2, A = 110
+    assert float(sw.itu_field_dbu(d, f, phi, region=2)) == pytest.approx(expected, abs=1e-9)
+    assert float(sw.itu_field_dbu(d, f, phi, region=1)) == pytest.approx(expected - 3.0, abs=1e-9)
+    # sunspot term: k_R = k + b·R/100 with b = 4 in North America
+    na = float(sw.itu_field_dbu(d, f, phi, solar="north-america", sunspot=100))
+    assert na == pytest.approx(expected - 4 * p / 1000, abs=1e-9)
+
+
+def test_doubling_power_raises_sky_wave_3_01_db():
+    path = sw.sky_path(38.4, -46.2, 42.0, -51.0)
+    e1 = sw.sky_field_dbu(path, 300.0, "cfr", 10)
+    e2 = sw.sky_field_dbu(path, 300.0 * np.sqrt(2), "cfr", 10)
+    assert float(e2 - e1) == pytest.approx(3.0103, abs=1e-4)
+
+
+def test_out_of_range_distances_are_refused():
+    with pytest.raises(ValueError, match="outside the ITU-R P.1147 sky-wave range 50–12000 km"):
+        sw.itu_field_dbu(20.0, 1000.0, 40.0)
+    with pytest.raises(ValueError, match="outside the 47 CFR 73.190 sky-wave range"):
+        sw.cfr_field_dbu(9000.0, 40.0)
+    with pytest.raises(ValueError, match="freq_khz"):
+        sw.itu_field_dbu(500.0, 100.0, 40.0)
+
+
+def test_coupling_loss_only_at_low_dip():
+    # ITU-R P.1147 (from memory): L_p applies for |I| ≤ 45° only
+    assert float(sw.coupling_loss_db(60.0, -80.0, 90.0)) == 0.0
+    lp = sw.coupling_loss_db(0.0, -20.0, np.arange(0.0, 360.0, 30.0))
+    assert np.all(lp > 0) and np.all(lp <= 180 / 6 - 2 + 1e-9)
+
+
+def test_cli_sky_json(capsys):
+    assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40", "-78",
+                     "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    for key in ("distance_km", "slant_km", "midpoint_geomagnetic_lat_deg", "departure_deg",
+                "field_50_dbu", "field_10_dbu"):
+        assert key in out
+    assert out["e1km_mv_m"] == 100.0
+    expected = float(sw.cfr_field_dbu(out["distance_km"], out["midpoint_geomagnetic_lat_deg"]))
+    assert out["field_50_dbu"] == pytest.approx(expected, abs=1e-9)
+    assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40.1", "-90",
+                     "--method", "itu"]) == 2
+    assert "outside the ITU-R P.1147" in capsys.readouterr().err
