@@ -212,14 +212,12 @@ def _print_interference(result) -> None:
     print(f"  {'neighbour':<20} {'check':<13} {'offset':>6} {'D/U dB':>7} {'worst margin':>13}")
     for row in inter.neighbour_summary():
         flag = "" if row["passed"] else "  FAILS"
-        print(f"  {row['neighbour']:<20} {row['kind']:<13} {row['offset_channels']:>+6d} "
+        print(f"  {row['neighbour']:<20} {row['kind']:<13} {row['offset_channels']:>6d} "
               f"{row['ratio_db']:>7g} {row['worst_margin_db']:>10.1f} dB{flag}")
+    from .interference import describe_max_power
+
     for period, mp in inter.max_power.items():
-        if mp is None:
-            continue
-        print(f"  maximum {period} power {mp['max_power_kw']:.3g} kW (now {mp['current_power_kw']:g}"
-              f" kW), limited by {mp['limiting_neighbour']} at {mp['limiting_lat']:.4f}, "
-              f"{mp['limiting_lon']:.4f}")
+        print("  " + describe_max_power(period, mp))
     for note in inter.notes:
         print(f"  note: {note}")
 
@@ -261,6 +259,27 @@ def _cmd_sky(args) -> int:
     print(f"  field 50 %: {f50:.2f} dBµV/m ({out['field_50_mv_m']:.4g} mV/m); "
           f"10 %: {f10:.2f} dBµV/m ({out['field_10_mv_m']:.4g} mV/m)")
     return 0
+
+
+def _cmd_sheet(args) -> int:
+    from .study import Study
+
+    study = Study.from_file(args.study)
+    result = study.run(progress=_Progress("computing"))
+    from mwreach.gui.qt import ensure_app  # Qt only for this command
+
+    ensure_app()
+    from mwreach.gui.sheet import write_sheet
+
+    pages = write_sheet(result, args.output, args.paper, args.orientation)
+    print(f"wrote {args.output} ({pages} pages)")
+    return 0
+
+
+def _cmd_gui(args) -> int:
+    from mwreach.gui.app import run_gui  # Qt only for this command
+
+    return run_gui(args.study, screenshot=args.screenshot)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -315,6 +334,19 @@ def build_parser() -> argparse.ArgumentParser:
     k.add_argument("--height-km", type=float, default=100.0, help="reflection height [km]")
     k.add_argument("--json", action="store_true", help="print JSON instead of text")
     k.set_defaults(func=_cmd_sky)
+
+    sh = sub.add_parser("sheet", help="contour sheet (PDF) for permit paperwork")
+    sh.add_argument("study", help="study file (TOML)")
+    sh.add_argument("-o", "--output", required=True, help="PDF file to write")
+    sh.add_argument("--paper", choices=("A4", "Letter"), help="paper size (default: study file)")
+    sh.add_argument("--orientation", choices=("portrait", "landscape"),
+                    help="page orientation (default: study file)")
+    sh.set_defaults(func=_cmd_sheet)
+
+    g = sub.add_parser("gui", help="the desktop application")
+    g.add_argument("study", nargs="?", help="study file to open")
+    g.add_argument("--screenshot", help="open, compute, save a PNG of the window and exit")
+    g.set_defaults(func=_cmd_gui)
 
     return p
 

@@ -37,6 +37,7 @@ __all__ = [
     "protected_contour_points",
     "read_neighbours_csv",
     "neighbour_from_table",
+    "describe_max_power",
 ]
 
 ORDINALS = ("co_channel", "adjacent_1", "adjacent_2", "adjacent_3")
@@ -78,8 +79,10 @@ class ProtectionTable:
             for i, o in enumerate(ORDINALS):
                 k = f"{p}_{o}_db"
                 if k in table:
-                    ratios[(p, i)] = (check_finite(k, table[k], -60.0, 60.0, where=where),
-                                      f"study file ({k})")
+                    v = check_finite(k, table[k], -60.0, 60.0, where=where)
+                    default = DEFAULT_RATIOS.get((p, i))
+                    same = default is not None and default[0] == v
+                    ratios[(p, i)] = (v, default[1] if same else f"set in the study file ({k})")
         return cls(raster, ratios)
 
     def rows(self) -> list[dict]:
@@ -422,6 +425,18 @@ class InterferenceResult:
                                 "ratio_db": w.ratio_db, "worst_margin_db": w.margin_db,
                                 "passed": w.passed, "lat": w.lat, "lon": w.lon})
         return out
+
+
+def describe_max_power(period: str, mp: dict | None) -> str:
+    """One line for reports: the maximum power and what limits it."""
+    if mp is None:
+        return f"Maximum {period} power: no neighbour with a {period} protection ratio limits it"
+    where = f"{mp['limiting_neighbour']} at {mp['limiting_lat']:.4f}, {mp['limiting_lon']:.4f}"
+    if mp["max_power_kw"] > 100 * mp["current_power_kw"]:
+        return (f"Maximum {period} power: more than 100 × the present {mp['current_power_kw']:g} kW "
+                f"({mp['max_power_kw']:.3g} kW by the worst margin, {where}); other limits apply")
+    return (f"Maximum {period} power: {mp['max_power_kw']:.3g} kW (now {mp['current_power_kw']:g} "
+            f"kW), limited by {where}")
 
 
 def _limit_at(points_lat, points_lon, plan: InterferencePlan, station, interferers):

@@ -142,7 +142,7 @@ def test_neighbours_csv_errors(tmp_path):
 def test_demo_night_outputs(tmp_path, capsys):
     assert cli.main(["run", str(DEMO), "--out", str(tmp_path)]) == 0
     text = capsys.readouterr().out
-    assert "maximum night power" in text and "Thistlebury Radio" in text
+    assert "Maximum night power" in text and "Thistlebury Radio" in text
     night = json.loads((tmp_path / "night.json").read_text())
     assert len(night["bearings"]) == 72
     rows = list(csv.DictReader((tmp_path / "interference.csv").open()))

@@ -1,0 +1,28 @@
+"""Qt application bootstrap shared by the GUI, the sheet writer and the tests."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+__all__ = ["ensure_app"]
+
+
+def ensure_app(gui: bool = False):
+    """Return the running QApplication, creating one if needed.
+
+    Without a display (no DISPLAY/WAYLAND_DISPLAY) and no platform chosen, Qt is told to run
+    offscreen, so that sheets and screenshots work on servers and in CI.
+    """
+    if not os.environ.get("QT_QPA_PLATFORM") and not (
+        os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")
+    ) and sys.platform.startswith("linux"):
+        os.environ["QT_QPA_PLATFORM"] = "offscreen"
+    from PySide6.QtWidgets import QApplication
+
+    app = QApplication.instance()
+    if app is None:
+        app = QApplication(sys.argv[:1])
+        app.setOrganizationName("mwreach")
+        app.setApplicationName("mwreach")
+    return app

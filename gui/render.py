@@ -1,0 +1,389 @@
+"""One map renderer for the screen and for paper: draws a study result with a QPainter.
+
+World coordinates are the site's azimuthal-equidistant projection in km (x east, y north);
+the :class:`View` maps them into a device rectangle. No physics here: everything drawn comes
+from :class:`mwreach.coverage.study.StudyResult`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from PySide6.QtCore import QPointF, QRectF, Qt
+from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
+
+from mwreach.coverage.export import KM_PER_MI
+from mwreach.coverage.geodesy import local_projection
+
+__all__ = ["View", "MapOptions", "draw_map", "fit_view", "conductivity_colour",
+           "LEVEL_COLOURS", "zone_legend_rows"]
+
+#: Contour colours, strongest level first (chosen for print and screen; colour-blind safe set).
+LEVEL_COLOURS = ["#b2182b", "#e08214", "#1b7837", "#2166ac", "#762a83", "#4d4d4d"]
+NIGHT_COLOUR = "#202020"
+FAIL_COLOUR = "#d7191c"
+
+
+def conductivity_colour(sigma_ms_m: float) -> QColor:
+    """Fill colour for a ground by conductivity: sandy (dry) → green (land) → blue (sea)."""
+    t = float(np.clip((math.log10(sigma_ms_m) + 1.0) / 4.7, 0.0, 1.0))  # 0.1 mS/m … 5 S/m
+    stops = [(0.0, (233, 214, 170)), (0.35, (214, 230, 190)), (0.6, (170, 214, 170)),
+             (0.8, (150, 200, 215)), (1.0, (165, 195, 235))]
+    for (t0, c0), (t1, c1) in zip(stops, stops[1:]):
+        if t <= t1:
+            u = (t - t0) / (t1 - t0)
+            return QColor(*[round(a + u * (b - a)) for a, b in zip(c0, c1)])
+    return QColor(*stops[-1][1])
+
+
+@dataclass
+class View:
+    """Maps world km to device units: centre (km) and scale (km per device unit)."""
+
+    cx_km: float
+    cy_km: float
+    km_per_unit: float
+    rect: QRectF = field(default_factory=QRectF)
+
+    def to_dev(self, x, y):
+        x = np.asarray(x, float)
+        y = np.asarray(y, float)
+        c = self.rect.center()
+        return c.x() + (x - self.cx_km) / self.km_per_unit, c.y() - (y - self.cy_km) / self.km_per_unit
+
+    def to_world(self, px: float, py: float):
+        c = self.rect.center()
+        return self.cx_km + (px - c.x()) * self.km_per_unit, self.cy_km - (py - c.y()) * self.km_per_unit
+
+    def world_extent(self):
+        x0, y0 = self.to_world(self.rect.left(), self.rect.bottom())
+        x1, y1 = self.to_world(self.rect.right(), self.rect.top())
+        return x0, y0, x1, y1
+
+
+@dataclass
+class MapOptions:
+    """What to draw and how large (sizes in points at the device's resolution)."""
+
+    zones: bool = True
+    contours: bool = True
+    night: bool = True
+    neighbours: bool = True
+    community: bool = True
+    graticule: bool = True
+    legend: bool = True
+    scale_bar: bool = True
+    north_arrow: bool = True
+    font_pt: float = 8.0
+    line_scale: float = 1.0  # device units per point
+    distance_units: str = "km"
+
+
+def fit_view(result, rect: QRectF, level_index: int | None = None, margin: float = 1.08) -> View:
+    """A view that shows the chosen contour (default: the lowest level drawn) with a margin."""
+    contours = result.contours
+    idx = len(contours) - 1 if level_index is None else level_index
+    geom = contours[idx].polygon_xy if contours else None
+    if geom is None or geom.is_empty:
+        x0, y0, x1, y1 = -20.0, -20.0, 20.0, 20.0
+    else:
+        x0, y0, x1, y1 = geom.bounds
+    x0, x1 = min(x0, 0.0), max(x1, 0.0)
+    y0, y1 = min(y0, 0.0), max(y1, 0.0)
+    w = max(x1 - x0, 1.0) * margin
+    h = max(y1 - y0, 1.0) * margin
+    kpu = max(w / max(rect.width(), 1.0), h / max(rect.height(), 1.0))
+    return View((x0 + x1) / 2, (y0 + y1) / 2, kpu, QRectF(rect))
+
+
+def _path_from_geom(geom, view: View) -> QPainterPath:
+    path = QPainterPath()
+    path.setFillRule(Qt.OddEvenFill)
+    polys = getattr(geom, "geoms", [geom])
+    for p in polys:
+        if p.is_empty or p.geom_type != "Polygon":
+            continue
+        for ring in [p.exterior, *p.interiors]:
+            xy = np.asarray(ring.coords)
+            dx, dy = view.to_dev(xy[:, 0], xy[:, 1])
+            path.addPolygon(QPolygonF([QPointF(a, b) for a, b in zip(dx, dy)]))
+            path.closeSubpath()
+    return path
+
+
+def _line_path(xy, view: View) -> QPainterPath:
+    path = QPainterPath()
+    dx, dy = view.to_dev(xy[:, 0], xy[:, 1])
+    path.addPolygon(QPolygonF([QPointF(a, b) for a, b in zip(dx, dy)]))
+    return path
+
+
+def zone_legend_rows(spec) -> list[tuple[QColor, str]]:
+    rows = [(conductivity_colour(spec.ground.default.sigma_ms_m),
+             f"default ground: {spec.ground.default.sigma_ms_m:g} mS/m, εr {spec.ground.default.eps_r:g}")]
+    for z in spec.ground.zones:
+        rows.append((conductivity_colour(z.ground.sigma_ms_m),
+                     f"{z.name}: {z.ground.sigma_ms_m:g} mS/m, εr {z.ground.eps_r:g}"))
+    return rows
+
+
+def _nice_step(span: float, target: int = 5) -> float:
+    raw = span / target
+    for s in (0.01, 0.02, 0.05, 0.1, 0.2, 0.25, 0.5, 1.0, 2.0, 5.0, 10.0):
+        if s >= raw:
+            return s
+    return 10.0
+
+
+def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions):
+    x0, y0, x1, y1 = view.world_extent()
+    corners = np.array([[x0, y0], [x0, y1], [x1, y0], [x1, y1], [(x0 + x1) / 2, y0],
+                        [(x0 + x1) / 2, y1], [x0, (y0 + y1) / 2], [x1, (y0 + y1) / 2]])
+    lon, lat = proj.to_lonlat(corners[:, 0], corners[:, 1])
+    lat0, lat1, lon0, lon1 = lat.min(), lat.max(), lon.min(), lon.max()
+    step = _nice_step(max(lat1 - lat0, lon1 - lon0))
+    pen = QPen(QColor(120, 120, 120, 150), 0.5 * opts.line_scale, Qt.DotLine)
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt * 0.85)
+    p.setFont(font)
+    dec = max(0, -int(math.floor(math.log10(step))) if step < 1 else 0)
+    for la in np.arange(math.floor(lat0 / step) * step, lat1 + step, step):
+        lons = np.linspace(lon0, lon1, 60)
+        x, y = proj.to_xy(lons, np.full(lons.shape, la))
+        p.setPen(pen)
+        p.drawPath(_line_path(np.column_stack([x, y]), view))
+        dx, dy = view.to_dev(x, y)
+        inside = (dy > view.rect.top() + 8) & (dy < view.rect.bottom() - 8)
+        if inside.any():
+            p.setPen(QColor(80, 80, 80))
+            p.drawText(QPointF(view.rect.left() + 2 * opts.line_scale, float(dy[inside][0]) - 2),
+                       f"{abs(la):.{dec}f}°{'N' if la >= 0 else 'S'}")
+    for lo in np.arange(math.floor(lon0 / step) * step, lon1 + step, step):
+        lats = np.linspace(lat0, lat1, 60)
+        x, y = proj.to_xy(np.full(lats.shape, lo), lats)
+        p.setPen(pen)
+        p.drawPath(_line_path(np.column_stack([x, y]), view))
+        dx, dy = view.to_dev(x, y)
+        inside = (dx > view.rect.left() + 30) & (dx < view.rect.right() - 30)
+        if inside.any():
+            p.setPen(QColor(80, 80, 80))
+            p.drawText(QPointF(float(dx[inside][0]) + 2, view.rect.bottom() - 3 * opts.line_scale),
+                       f"{abs(lo):.{dec}f}°{'E' if lo >= 0 else 'W'}")
+
+
+def _draw_scale_bar(p: QPainter, view: View, opts: MapOptions):
+    width_km = view.rect.width() * view.km_per_unit
+    unit_km = 1.0 if opts.distance_units == "km" else KM_PER_MI
+    length = _nice_step(width_km / unit_km / 4.0, 1)
+    for s in (1, 2, 5, 10, 20, 25, 50, 100, 200, 250, 500, 1000):
+        if s >= width_km / unit_km / 5.0:
+            length = s
+            break
+    dev = length * unit_km / view.km_per_unit
+    s = opts.line_scale
+    x = view.rect.left() + 12 * s
+    y = view.rect.bottom() - 16 * s
+    p.setPen(QPen(Qt.black, 1.0 * s))
+    p.setBrush(Qt.white)
+    p.drawRect(QRectF(x - 4 * s, y - 12 * s, dev + 40 * s, 18 * s))
+    p.setBrush(Qt.black)
+    p.drawRect(QRectF(x, y, dev / 2, 3 * s))
+    p.setBrush(Qt.white)
+    p.drawRect(QRectF(x + dev / 2, y, dev / 2, 3 * s))
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt * 0.85)
+    p.setFont(font)
+    p.drawText(QPointF(x, y - 2 * s), "0")
+    p.drawText(QPointF(x + dev - 4 * s, y - 2 * s), f"{length:g} {opts.distance_units}")
+
+
+def _draw_north_arrow(p: QPainter, view: View, opts: MapOptions):
+    s = opts.line_scale
+    x = view.rect.right() - 18 * s
+    y = view.rect.top() + 14 * s
+    poly = QPolygonF([QPointF(x, y), QPointF(x - 6 * s, y + 18 * s), QPointF(x, y + 13 * s),
+                      QPointF(x + 6 * s, y + 18 * s)])
+    p.setPen(QPen(Qt.black, 0.8 * s))
+    p.setBrush(Qt.black)
+    p.drawPolygon(poly)
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt)
+    font.setBold(True)
+    p.setFont(font)
+    p.drawText(QRectF(x - 10 * s, y + 19 * s, 20 * s, 12 * s), Qt.AlignCenter, "N")
+
+
+def _label(p: QPainter, x: float, y: float, text: str, colour: QColor, opts: MapOptions):
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt * 0.9)
+    p.setFont(font)
+    fm = p.fontMetrics()
+    w = fm.horizontalAdvance(text) + 4 * opts.line_scale
+    h = fm.height()
+    r = QRectF(x - w / 2, y - h / 2, w, h)
+    p.setPen(Qt.NoPen)
+    p.setBrush(QColor(255, 255, 255, 215))
+    p.drawRect(r)
+    p.setPen(colour)
+    p.drawText(r, Qt.AlignCenter, text)
+
+
+def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
+             failing_points=None):
+    """Draw the study on ``p`` inside ``view.rect``."""
+    opts = opts or MapOptions()
+    spec = result.spec
+    st = spec.station
+    proj = local_projection(st.lat, st.lon)
+    s = opts.line_scale
+    p.save()
+    p.setClipRect(view.rect)
+    p.setRenderHint(QPainter.Antialiasing, True)
+    p.fillRect(view.rect, conductivity_colour(spec.ground.default.sigma_ms_m))
+
+    if opts.zones:
+        for z, geom in zip(spec.ground.zones, spec.ground.zones_xy(proj)):
+            p.setPen(QPen(QColor(90, 90, 90, 120), 0.4 * s))
+            p.setBrush(conductivity_colour(z.ground.sigma_ms_m))
+            p.drawPath(_path_from_geom(geom, view))
+
+    if opts.graticule:
+        _draw_graticule(p, view, proj, opts)
+
+    if opts.community and spec.community is not None:
+        g = proj.geom_to_xy(spec.community.geometry)
+        p.setPen(QPen(QColor(60, 60, 60), 1.0 * s, Qt.DashLine))
+        p.setBrush(QColor(255, 255, 255, 70))
+        p.drawPath(_path_from_geom(g, view))
+        c = g.representative_point()
+        cx, cy = view.to_dev(c.x, c.y)
+        _label(p, float(cx), float(cy), spec.community.name, QColor(40, 40, 40), opts)
+
+    if opts.contours:
+        n = len(result.contours)
+        for i, c in enumerate(result.contours):
+            col = QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)])
+            p.setPen(QPen(col, 1.6 * s))
+            p.setBrush(Qt.NoBrush)
+            p.drawPath(_path_from_geom(c.polygon_xy, view))
+        for i, c in enumerate(result.contours):  # labels after lines, spread in bearing
+            col = QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)])
+            b = result.radials.bearings_deg
+            want = (30.0 + 360.0 / max(n, 1) * i * 0.5 + 90.0 * (i % 2)) % 360
+            j = int(np.argmin(np.abs((b - want + 180) % 360 - 180)))
+            d = c.first_km[j]
+            if not np.isfinite(d):
+                continue
+            x, y = d * math.sin(math.radians(b[j])), d * math.cos(math.radians(b[j]))
+            dx, dy = view.to_dev(x, y)
+            _label(p, float(dx), float(dy), f"{c.level_mv_m:g} mV/m", col, opts)
+
+    inter = getattr(result, "interference", None)
+    if opts.night and inter is not None and inter.night is not None:
+        p.setPen(QPen(QColor(NIGHT_COLOUR), 1.4 * s, Qt.DashDotLine))
+        p.setBrush(Qt.NoBrush)
+        p.drawPath(_path_from_geom(inter.night.polygon_xy, view))
+
+    if opts.neighbours and spec.interference is not None:
+        font = QFont("DejaVu Sans", 1)
+        font.setPointSizeF(opts.font_pt * 0.85)
+        for nb in spec.interference.neighbours:
+            x, y = proj.to_xy(nb.lon, nb.lat)
+            dx, dy = view.to_dev(x, y)
+            dx, dy = float(dx), float(dy)
+            if not view.rect.adjusted(-5, -5, 5, 5).contains(QPointF(dx, dy)):
+                continue
+            tri = QPolygonF([QPointF(dx, dy - 5 * s), QPointF(dx - 4.5 * s, dy + 3.5 * s),
+                             QPointF(dx + 4.5 * s, dy + 3.5 * s)])
+            p.setPen(QPen(Qt.black, 0.8 * s))
+            p.setBrush(QColor(255, 255, 255))
+            p.drawPolygon(tri)
+            p.setFont(font)
+            p.drawText(QPointF(dx + 6 * s, dy + 3 * s), f"{nb.name} ({nb.freq_khz:g} kHz)")
+
+    if failing_points is None and inter is not None:
+        failing_points = [(r.lat, r.lon) for r in inter.rows if not r.passed]
+    if failing_points:
+        lat = np.array([a for a, _ in failing_points])
+        lon = np.array([b for _, b in failing_points])
+        x, y = proj.to_xy(lon, lat)
+        dx, dy = view.to_dev(x, y)
+        p.setPen(QPen(QColor(FAIL_COLOUR), 1.6 * s))
+        for a, b in zip(dx, dy):
+            p.drawLine(QPointF(a - 3 * s, b - 3 * s), QPointF(a + 3 * s, b + 3 * s))
+            p.drawLine(QPointF(a - 3 * s, b + 3 * s), QPointF(a + 3 * s, b - 3 * s))
+
+    # the site: a tower symbol
+    dx, dy = view.to_dev(0.0, 0.0)
+    dx, dy = float(dx), float(dy)
+    p.setPen(QPen(Qt.black, 1.2 * s))
+    p.setBrush(QColor(255, 230, 0))
+    p.drawEllipse(QPointF(dx, dy), 4.5 * s, 4.5 * s)
+    p.drawLine(QPointF(dx, dy - 8 * s), QPointF(dx, dy + 8 * s))
+    p.drawLine(QPointF(dx - 8 * s, dy), QPointF(dx + 8 * s, dy))
+    _label(p, dx, dy - 14 * s, st.name, QColor(0, 0, 0), opts)
+
+    if opts.scale_bar:
+        _draw_scale_bar(p, view, opts)
+    if opts.north_arrow:
+        _draw_north_arrow(p, view, opts)
+    p.setPen(QPen(Qt.black, 1.0 * s))
+    p.setBrush(Qt.NoBrush)
+    p.drawRect(view.rect)
+    p.restore()
+
+
+def draw_legend(p: QPainter, rect: QRectF, result, opts: MapOptions) -> float:
+    """Contour and conductivity legend in ``rect``; returns the height used."""
+    s = opts.line_scale
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt * 0.9)
+    p.setFont(font)
+    fm = p.fontMetrics()
+    line = fm.height() * 1.15
+    y = rect.top() + line
+    x = rect.left()
+    bold = QFont(font)
+    bold.setBold(True)
+    p.setFont(bold)
+    p.setPen(Qt.black)
+    p.drawText(QPointF(x, y), "Contours (day ground wave)")
+    p.setFont(font)
+    for i, c in enumerate(result.contours):
+        y += line
+        p.setPen(QPen(QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)]), 2.0 * s))
+        p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
+        p.setPen(Qt.black)
+        base = f"{c.level_mv_m:g} mV/m"
+        text = c.label if c.label.startswith(base) else f"{base} ({c.label})" if c.label else base
+        p.drawText(QPointF(x + 24 * s, y), text)
+    inter = getattr(result, "interference", None)
+    if inter is not None and inter.night is not None:
+        y += line
+        p.setPen(QPen(QColor(NIGHT_COLOUR), 1.6 * s, Qt.DashDotLine))
+        p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
+        p.setPen(Qt.black)
+        p.drawText(QPointF(x + 24 * s, y), "night service contour (night limit)")
+        if any(not r.passed for r in inter.rows):
+            y += line
+            p.setPen(QPen(QColor(FAIL_COLOUR), 1.6 * s))
+            cx = x + 9 * s
+            cy = y - line / 3
+            p.drawLine(QPointF(cx - 3 * s, cy - 3 * s), QPointF(cx + 3 * s, cy + 3 * s))
+            p.drawLine(QPointF(cx - 3 * s, cy + 3 * s), QPointF(cx + 3 * s, cy - 3 * s))
+            p.setPen(Qt.black)
+            p.drawText(QPointF(x + 24 * s, y), "protection fails (D/U below ratio)")
+    y += line * 1.4
+    p.setFont(bold)
+    p.drawText(QPointF(x, y), "Ground conductivity")
+    p.setFont(font)
+    for colour, text in zone_legend_rows(result.spec):
+        y += line
+        p.setPen(QPen(QColor(90, 90, 90), 0.5 * s))
+        p.setBrush(colour)
+        p.drawRect(QRectF(x, y - line * 0.7, 18 * s, line * 0.6))
+        p.setPen(Qt.black)
+        p.drawText(QPointF(x + 24 * s, y), text)
+    return y - rect.top() + line * 0.5

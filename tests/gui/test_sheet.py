@@ -1,0 +1,111 @@
+"""Contour sheet PDF: the printed numbers equal the Study output."""
+
+import pathlib
+import re
+import shutil
+import subprocess
+import unicodedata
+
+import numpy as np
+import pytest
+
+pytest.importorskip("PySide6")
+from pypdf import PdfReader  # noqa: E402
+
+from mwreach.coverage import cli  # noqa: E402
+from mwreach.coverage.export import KM_PER_MI  # noqa: E402
+from mwreach.coverage.study import Study  # noqa: E402
+
+pytestmark = pytest.mark.gui
+DEMO = pathlib.Path(__file__).parents[2] / "data" / "demo" / "quellmoor.toml"
+
+
+@pytest.fixture(scope="module")
+def demo_result():
+    return Study.from_file(DEMO).run()
+
+
+@pytest.fixture(scope="module")
+def sheet(demo_result, tmp_path_factory):
+    from mwreach.gui.qt import ensure_app
+    from mwreach.gui.sheet import write_sheet
+
+    ensure_app()
+    path = tmp_path_factory.mktemp("sheet") / "demo.pdf"
+    pages = write_sheet(demo_result, path)
+    return path, pages
+
+
+def _pages_text(path):
+    out = []
+    for page in PdfReader(str(path)).pages:
+        t = unicodedata.normalize("NFKC", page.extract_text())
+        out.append(re.sub(r"\s+", " ", t))
+    return out
+
+
+def test_page_count_and_page_numbers(sheet):
+    path, pages = sheet
+    text = _pages_text(path)
+    assert len(text) == pages == 3
+    for i, t in enumerate(text, 1):
+        assert f"Page {i} of {pages}" in t
+
+
+def test_station_parameters_and_levels_printed(sheet, demo_result):
+    path, _ = sheet
+    t = _pages_text(path)[0]
+    st = demo_result.spec.station
+    assert st.name in t and f"{st.freq_khz:g} kHz" in t
+    assert f"{st.lat:.5f}, {st.lon:.5f}" in t
+    assert unicodedata.normalize("NFKC", "38°24′00.0″ N, 46°12′00.0″ W") in t
+    for c in demo_result.contours:
+        assert f"{c.level_mv_m:g} mV/m" in t
+    assert "Millington" in t and "licensed engineer" in t
+
+
+def test_radial_distances_printed_equal_study(sheet, demo_result):
+    path, _ = sheet
+    t = _pages_text(path)[1]
+    b = demo_result.radials.bearings_deg
+    for bearing in (0.0, 90.0, 137.5, 270.0):
+        j = int(np.flatnonzero(b == bearing)[0])
+        cells = []
+        for c in demo_result.contours:
+            d = c.first_km[j]
+            mark = "*" if c.further[j] else ""
+            cells.append(f"{d:.1f}{mark} | {d / KM_PER_MI:.1f}{mark}")
+        expected = f"{bearing:g}° " + " ".join(cells)
+        assert expected in t, expected
+
+
+def test_night_page(sheet, demo_result):
+    path, _ = sheet
+    t = _pages_text(path)[2]
+    inter = demo_result.interference
+    assert f"{inter.night.limit_mv_m.min():.2f} to {inter.night.limit_mv_m.max():.2f} mV/m" in t
+    for row in inter.neighbour_summary():
+        assert row["neighbour"] in t
+    assert "47 CFR 73.37" in t  # source of the default ratios
+
+
+@pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="pdftoppm (poppler-utils) not installed")
+def test_map_page_renders_non_blank(sheet, tmp_path):
+    path, _ = sheet
+    subprocess.run(["pdftoppm", "-png", "-r", "40", "-f", "1", "-l", "1", str(path),
+                    str(tmp_path / "p")], check=True)
+    from PySide6.QtGui import QImage
+
+    png = next(tmp_path.glob("p*.png"))
+    img = QImage(str(png))
+    colours = {img.pixel(x, y) for x in range(0, img.width(), 7) for y in range(0, img.height(), 7)}
+    assert len(colours) > 20  # a blank page has one colour
+
+
+def test_cli_sheet(tmp_path, capsys):
+    out = tmp_path / "s.pdf"
+    assert cli.main(["sheet", str(DEMO), "-o", str(out), "--paper", "Letter",
+                     "--orientation", "landscape"]) == 0
+    reader = PdfReader(str(out))
+    box = reader.pages[0].mediabox
+    assert float(box.width) == pytest.approx(792, abs=1) and float(box.height) == pytest.approx(612, abs=1)
