@@ -6,10 +6,10 @@ here is hand-written spherical trigonometry.
 
 from __future__ import annotations
 
-from functools import lru_cache
+import threading
 
 import numpy as np
-from pyproj import Geod, Transformer
+from pyproj import Geod
 
 from .validate import check_finite
 
@@ -102,23 +102,33 @@ def geodesic_area_km2(geometry) -> float:
 class LocalProjection:
     """Azimuthal-equidistant projection centred on a site, in km (x east, y north).
 
-    Distances and bearings from the centre are true on this projection, so a radial at
-    bearing β and distance d lands at (d sin β, d cos β).
+    Distances and bearings from the centre are true: a point at geodesic distance d and
+    azimuth β maps to (d sin β, d cos β). This is the ellipsoidal azimuthal equidistant
+    projection (as PROJ's ``aeqd`` defines it), evaluated with GeographicLib geodesics through
+    pyproj's ``Geod``, which, unlike PROJ transformer objects, is safe to share between threads.
     """
 
     def __init__(self, lat_deg: float, lon_deg: float):
         self.lat, self.lon = check_site(lat_deg, lon_deg)
-        # a PROJ pipeline string needs no database lookup (from_crs costs ~13 ms per site)
-        self._tr = Transformer.from_pipeline(
-            "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
-            f"+step +proj=aeqd +lat_0={self.lat!r} +lon_0={self.lon!r} +x_0=0 +y_0=0 "
-            "+ellps=WGS84 +units=km"
-        )
 
     def to_xy(self, lon, lat):
         """(lon, lat) [deg] → (x, y) [km]."""
-        x, y = self._tr.transform(np.asarray(lon, float), np.asarray(lat, float))
-        return np.asarray(x), np.asarray(y)
+        lon = np.asarray(lon, float)
+        lat = np.asarray(lat, float)
+        lon_b, lat_b = np.broadcast_arrays(lon, lat)
+        az, _, dist = GEOD.inv(np.full(lon_b.size, self.lon), np.full(lon_b.size, self.lat),
+                               lon_b.ravel(), lat_b.ravel())
+        d = np.asarray(dist) / 1e3
+        a = np.radians(np.asarray(az))
+        return (d * np.sin(a)).reshape(lon_b.shape), (d * np.cos(a)).reshape(lon_b.shape)
+
+    def to_lonlat(self, x_km, y_km):
+        """(x, y) [km] → (lon, lat) [deg]."""
+        x, y = np.broadcast_arrays(np.asarray(x_km, float), np.asarray(y_km, float))
+        az = np.degrees(np.arctan2(x, y)).ravel()
+        d = np.hypot(x, y).ravel() * 1e3
+        lon, lat, _ = GEOD.fwd(np.full(d.size, self.lon), np.full(d.size, self.lat), az, d)
+        return np.asarray(lon).reshape(x.shape), np.asarray(lat).reshape(x.shape)
 
     def geom_to_xy(self, geometry):
         """A shapely geometry in lon/lat → the same in local (x, y) [km]."""
@@ -132,17 +142,22 @@ class LocalProjection:
 
         return shapely.transform(geometry, lambda c: np.column_stack(self.to_lonlat(c[:, 0], c[:, 1])))
 
-    def to_lonlat(self, x_km, y_km):
-        """(x, y) [km] → (lon, lat) [deg]."""
-        lon, lat = self._tr.transform(np.asarray(x_km, float), np.asarray(y_km, float),
-                                      direction="INVERSE")
-        return np.asarray(lon), np.asarray(lat)
+
+_THREAD = threading.local()
 
 
-@lru_cache(maxsize=32)
 def local_projection(lat_deg: float, lon_deg: float) -> LocalProjection:
-    """Cached :class:`LocalProjection` for a site."""
-    return LocalProjection(lat_deg, lon_deg)
+    """Cached :class:`LocalProjection` for a site (one small cache per thread)."""
+    cache = getattr(_THREAD, "projections", None)
+    if cache is None:
+        cache = _THREAD.projections = {}
+    key = (float(lat_deg), float(lon_deg))
+    proj = cache.get(key)
+    if proj is None:
+        if len(cache) >= 64:
+            cache.pop(next(iter(cache)))
+        proj = cache[key] = LocalProjection(*key)
+    return proj
 
 
 def dms(value_deg: float, pos: str, neg: str) -> str:

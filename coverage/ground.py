@@ -5,6 +5,7 @@ Conductivity zones read from GeoJSON live in :mod:`mwreach.coverage.zones`.
 
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -128,13 +129,12 @@ class GroundMap:
     """
 
     def __init__(self, default: Ground, zones=(), source: str = ""):
-        import shapely
-
         self.default = default
         self.zones = tuple(zones)
         self.source = source
-        for z in self.zones:
-            shapely.prepare(z.geometry)
+        # GEOS prepares geometries lazily inside queries; the GUI thread (readout, drawing) and a
+        # worker thread share these zones, so every GEOS use of them holds this lock.
+        self._lock = threading.RLock()
         self.overlaps = self._find_overlaps()
 
     def _find_overlaps(self) -> list[tuple[str, str]]:
@@ -158,8 +158,9 @@ class GroundMap:
         lon = np.asarray(lon, dtype=float)
         lat = np.asarray(lat, dtype=float)
         idx = np.zeros(lon.shape, dtype=int)
-        for i, z in enumerate(self.zones, 1):
-            idx[shapely.contains_xy(z.geometry, lon, lat)] = i  # later zones overwrite
+        with self._lock:
+            for i, z in enumerate(self.zones, 1):
+                idx[shapely.contains_xy(z.geometry, lon, lat)] = i  # later zones overwrite
         return idx
 
     def ground_at(self, lon: float, lat: float) -> Ground:
@@ -172,15 +173,16 @@ class GroundMap:
         import shapely
 
         key = (projection.lat, projection.lon)
-        cache = self.__dict__.setdefault("_xy_cache", {})
-        if key not in cache:
-            if len(cache) >= 64:  # a study's own site and its neighbours' sites
-                cache.pop(next(iter(cache)))
-            cache[key] = [
-                projection.geom_to_xy(shapely.segmentize(z.geometry, 0.01))
-                for z in self.zones
-            ]
-        return cache[key]
+        with self._lock:  # the GUI thread draws while a worker computes
+            cache = self.__dict__.setdefault("_xy_cache", {})
+            if key not in cache:
+                if len(cache) >= 64:  # a study's own site and its neighbours' sites
+                    cache.pop(next(iter(cache)))
+                cache[key] = [
+                    projection.geom_to_xy(shapely.segmentize(z.geometry, 0.01))
+                    for z in self.zones
+                ]
+            return cache[key]
 
     def radial_sections(self, lat, lon, bearings_deg, max_km: float):
         """Ordered ground sections along each radial from the site, to ``max_km``.
@@ -208,8 +210,9 @@ class GroundMap:
         )
         # intervals[i] = list of (start, end, zone index) in priority order
         intervals = [[] for _ in bearings]
-        for zi, geom in enumerate(self.zones_xy(proj), 1):
-            hits = shapely.intersection(lines, geom)
+        with self._lock:
+            hits_per_zone = [shapely.intersection(lines, g) for g in self.zones_xy(proj)]
+        for zi, hits in enumerate(hits_per_zone, 1):
             for i in np.flatnonzero(~shapely.is_empty(hits)):
                 for part in shapely.get_parts(hits[i]):
                     if part.geom_type not in ("LineString", "LinearRing"):

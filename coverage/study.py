@@ -42,6 +42,8 @@ __all__ = [
     "load_study",
     "parse_study",
     "spec_to_toml",
+    "spec_to_doc",
+    "dump_toml",
     "read_boundary",
 ]
 
@@ -352,62 +354,88 @@ def _toml_value(v) -> str:
     raise TypeError(f"cannot write {type(v).__name__} to TOML")
 
 
-def _toml_table(name: str, table: dict, array: bool = False) -> list[str]:
-    head = f"[[{name}]]" if array else f"[{name}]"
-    return [head] + [f"{k} = {_toml_value(v)}" for k, v in table.items()] + [""]
+def dump_toml(doc: dict) -> str:
+    """Write a study document (dict as tomllib returns it) as TOML text.
 
-
-def spec_to_toml(spec: StudySpec) -> str:
-    """Write a study back as TOML (the format :func:`load_study` reads)."""
-    s = spec.station
+    Handles what the study format uses: scalars and lists of scalars, tables, arrays of tables
+    and one level of nested arrays of tables (``[[antenna.tower]]``).
+    """
     lines = ["# mwreach study file", ""]
+
+    def table(name: str, t: dict, array: bool = False):
+        lines.append(f"[[{name}]]" if array else f"[{name}]")
+        nested = []
+        for k, v in t.items():
+            if isinstance(v, list) and v and all(isinstance(x, dict) for x in v):
+                nested.append((k, v))
+            elif isinstance(v, dict):
+                nested.append((k, [v]))
+            else:
+                lines.append(f"{k} = {_toml_value(v)}")
+        lines.append("")
+        for k, items in nested:
+            for item in items:
+                table(f"{name}.{k}", item, array=True)
+
+    for key, value in doc.items():
+        if isinstance(value, dict):
+            table(key, value)
+        elif isinstance(value, list) and all(isinstance(x, dict) for x in value):
+            for item in value:
+                table(key, item, array=True)
+        else:
+            raise ValueError(f"top-level key {key!r} must be a table")
+    return "\n".join(lines)
+
+
+def spec_to_doc(spec: StudySpec) -> dict:
+    """The study as a TOML document (the structure :func:`parse_study` reads)."""
+    s = spec.station
+    doc: dict = {}
     study = {"title": spec.title, "mixed_path": spec.mixed_path, "earth_k": spec.earth_k,
              "bearing_step_deg": spec.bearing_step_deg, "step_km": spec.step_km}
     if spec.extra_bearings:
         study["bearings"] = list(spec.extra_bearings)
     if spec.max_km:
         study["max_km"] = spec.max_km
-    lines += _toml_table("study", study)
-    lines += _toml_table("station", {"name": s.name, "lat": s.lat, "lon": s.lon,
-                                     "freq_khz": s.freq_khz, "power_day_kw": s.power_day_kw,
-                                     "power_night_kw": s.power_night_kw})
-    ant = array_to_table(s.antenna)
-    lines += _toml_table("antenna", {"rotation_deg": ant["rotation_deg"]})
-    for t in ant["tower"]:
-        lines += _toml_table("antenna.tower", t, array=True)
+    doc["study"] = study
+    doc["station"] = {"name": s.name, "lat": s.lat, "lon": s.lon, "freq_khz": s.freq_khz,
+                      "power_day_kw": s.power_day_kw, "power_night_kw": s.power_night_kw}
+    doc["antenna"] = array_to_table(s.antenna)
     g = spec.ground.default
     ground = {"class": spec.ground_class} if spec.ground_class else {
         "sigma_ms_m": g.sigma_ms_m, "eps_r": g.eps_r}
     if spec.zones_path:
         ground["zones"] = spec.zones_path
-    lines += _toml_table("ground", ground)
-    for lv in spec.levels:
-        c = {"field_mv_m": lv.field_mv_m}
-        if lv.label:
-            c["label"] = lv.label
-        lines += _toml_table("contour", c, array=True)
+    doc["ground"] = ground
+    doc["contour"] = [{"field_mv_m": lv.field_mv_m, **({"label": lv.label} if lv.label else {})}
+                      for lv in spec.levels]
     if spec.community is not None:
-        lines += _toml_table("community", {"name": spec.community.name,
-                                           "boundary": spec.community.path})
+        doc["community"] = {"name": spec.community.name, "boundary": spec.community.path}
     if spec.output:
-        lines += _toml_table("output", spec.output)
+        doc["output"] = dict(spec.output)
     plan = spec.interference
     if plan is not None:
-        lines += _toml_table("night", plan.night.to_table())
+        from .interference import ORDINALS
+
+        doc["night"] = plan.night.to_table()
         inter = {"protected_day_mv_m": plan.protected_day_mv_m,
                  "contour_step_deg": plan.contour_step_deg}
         if plan.neighbours_file:
             inter["neighbours"] = plan.neighbours_file
-        lines += _toml_table("interference", inter)
+        doc["interference"] = inter
         prot = {"raster_khz": plan.protection.raster_khz}
-        from .interference import ORDINALS
-
         for (period, off), (ratio, _src) in sorted(plan.protection.ratios.items()):
             prot[f"{period}_{ORDINALS[off]}_db"] = ratio
-        lines += _toml_table("protection", prot)
-        for t in spec.neighbour_tables:
-            lines += _toml_table("neighbour", t, array=True)
-    return "\n".join(lines)
+        doc["protection"] = prot
+        if spec.neighbour_tables:
+            doc["neighbour"] = [dict(t) for t in spec.neighbour_tables]
+    return doc
+
+
+def spec_to_toml(spec: StudySpec) -> str:
+    """Write a study back as TOML (the format :func:`load_study` reads)."""
+    return dump_toml(spec_to_doc(spec))
 
 
 # --- running -------------------------------------------------------------------------------

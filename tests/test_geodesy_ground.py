@@ -123,3 +123,18 @@ def test_zone_file_errors(tmp_path):
     feat["geometry"] = {"type": "Point", "coordinates": [0, 0]}
     with pytest.raises(ValueError, match="Polygon or MultiPolygon"):
         load_zones(_write(tmp_path, fc), land)
+
+
+def test_local_projection_equals_proj_aeqd():
+    # PROJ's ellipsoidal azimuthal equidistant projection (pyproj pipeline) as the reference
+    from pyproj import Transformer
+
+    t = Transformer.from_pipeline(
+        "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
+        f"+step +proj=aeqd +lat_0={LAT} +lon_0={LON} +ellps=WGS84 +units=km")
+    lon = np.array([-50.0, -46.2, -40.0, -46.1, -60.0])
+    lat = np.array([40.0, 30.0, 38.4, 38.41, 45.0])
+    x, y = geodesy.LocalProjection(LAT, LON).to_xy(lon, lat)
+    xr, yr = t.transform(lon, lat)
+    np.testing.assert_allclose(x, xr, atol=1e-6)  # km: 1 mm
+    np.testing.assert_allclose(y, yr, atol=1e-6)

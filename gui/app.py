@@ -1,0 +1,391 @@
+"""The desktop application: map, editors, result views, background computation."""
+
+from __future__ import annotations
+
+import pathlib
+import sys
+
+import numpy as np
+from PySide6.QtCore import QSettings, Qt, QTimer
+from PySide6.QtGui import QAction, QKeySequence
+from PySide6.QtWidgets import (
+    QDockWidget,
+    QFileDialog,
+    QLabel,
+    QMainWindow,
+    QMessageBox,
+    QProgressBar,
+    QPushButton,
+    QScrollArea,
+    QTabWidget,
+)
+
+from mwreach.coverage.export import KM_PER_MI, write_outputs
+from mwreach.coverage.geodesy import inverse, local_projection
+
+from .document import StudyDocument
+from .mapwidget import MapWidget
+from .panels import (
+    AntennaEditor,
+    GroundEditor,
+    InterferenceTable,
+    LevelsEditor,
+    NeighboursEditor,
+    NightEditor,
+    PatternPlot,
+    ProfilePlot,
+    RadialTable,
+    StationEditor,
+)
+from .qt import ensure_app
+from .sheet import CAUTIONS
+from .worker import Computer
+
+__all__ = ["MainWindow", "run_gui"]
+
+COARSE_BEARINGS = np.arange(0.0, 360.0, 5.0)  # 72 radials while dragging the site
+MAX_RECENT = 8
+
+
+class MainWindow(QMainWindow):
+    def __init__(self, settings: QSettings | None = None):
+        super().__init__()
+        self.settings = settings or QSettings("mwreach", "mwreach")
+        self.document = StudyDocument(self)
+        self.computer = Computer(self)
+        self.result = None  # latest full or coarse result shown
+        self.full_result = None  # latest full result (tables, sheet, exports)
+        self.units = self.settings.value("units/distance", "km")
+        self.field_units = self.settings.value("units/field", "dBu")
+
+        self.map = MapWidget()
+        self.map.set_units(self.units)
+        self.setCentralWidget(self.map)
+        self._build_docks()
+        self._build_menus()
+        self._build_status()
+
+        self.document.changed.connect(self._recompute)
+        self.document.dirtyChanged.connect(lambda _d: self._update_title())
+        self.document.pathChanged.connect(lambda _p: self._update_title())
+        self.computer.result.connect(self._on_result)
+        self.computer.error.connect(self._on_error)
+        self.computer.progress.connect(self._on_progress)
+        self.computer.idle.connect(self._on_idle)
+        self.map.siteDragged.connect(self._on_site_drag)
+        self.map.siteDropped.connect(self._on_site_drop)
+        self.map.hovered.connect(self._on_hover)
+        self.resize(1400, 900)
+        self._update_title()
+
+    # --- construction -------------------------------------------------------------------------
+    def _build_docks(self):
+        self.station_editor = StationEditor(self.document)
+        self.antenna_editor = AntennaEditor(self.document)
+        self.ground_editor = GroundEditor(self.document)
+        self.levels_editor = LevelsEditor(self.document)
+        self.neighbours_editor = NeighboursEditor(self.document)
+        self.night_editor = NightEditor(self.document)
+        self.editors = [self.station_editor, self.antenna_editor, self.ground_editor,
+                        self.levels_editor, self.neighbours_editor, self.night_editor]
+        inputs = QTabWidget()
+        for w, name in zip(self.editors, ("Station", "Antenna", "Ground", "Contours",
+                                          "Neighbours", "Night && ratios")):
+            scroll = QScrollArea()
+            scroll.setWidgetResizable(True)
+            scroll.setWidget(w)
+            inputs.addTab(scroll, name)
+        dock = QDockWidget("Study inputs", self)
+        dock.setObjectName("inputs")
+        dock.setWidget(inputs)
+        self.addDockWidget(Qt.RightDockWidgetArea, dock)
+
+        self.radial_table = RadialTable()
+        self.profile = ProfilePlot()
+        self.pattern = PatternPlot()
+        self.interference_table = InterferenceTable()
+        self.results_tabs = QTabWidget()
+        self.results_tabs.addTab(self.radial_table, "Radial distances")
+        self.results_tabs.addTab(self.profile, "Field along a bearing")
+        self.results_tabs.addTab(self.pattern, "Antenna pattern")
+        self.results_tabs.addTab(self.interference_table, "Interference checks")
+        rdock = QDockWidget("Results", self)
+        rdock.setObjectName("results")
+        rdock.setWidget(self.results_tabs)
+        self.addDockWidget(Qt.BottomDockWidgetArea, rdock)
+        self.resizeDocks([rdock], [250], Qt.Vertical)
+        self.resizeDocks([dock], [430], Qt.Horizontal)
+
+    def _action(self, menu, text, slot, shortcut=None):
+        a = QAction(text, self)
+        if shortcut:
+            a.setShortcut(shortcut)
+        a.triggered.connect(slot)
+        menu.addAction(a)
+        return a
+
+    def _build_menus(self):
+        mb = self.menuBar()
+        f = mb.addMenu("&File")
+        self._action(f, "New from demo", self.new_from_demo, QKeySequence.New)
+        self._action(f, "Open…", self.open_dialog, QKeySequence.Open)
+        self.recent_menu = f.addMenu("Open recent")
+        self._action(f, "Save", self.save, QKeySequence.Save)
+        self._action(f, "Save as…", self.save_as, QKeySequence.SaveAs)
+        f.addSeparator()
+        self._action(f, "Contour sheet (PDF)…", self.export_sheet, "Ctrl+P")
+        self._action(f, "Export GeoJSON, KML and CSV…", self.export_files)
+        f.addSeparator()
+        self._action(f, "Quit", self.close, QKeySequence.Quit)
+        v = mb.addMenu("&View")
+        self._action(v, "Fit to study", self.map.fit, "Ctrl+0")
+        self._action(v, "Zoom in", lambda: self.map.zoom(0.8), QKeySequence.ZoomIn)
+        self._action(v, "Zoom out", lambda: self.map.zoom(1.25), QKeySequence.ZoomOut)
+        v.addSeparator()
+        self.act_km = self._action(v, "Distances in km", lambda: self.set_units("km"))
+        self.act_mi = self._action(v, "Distances in mi", lambda: self.set_units("mi"))
+        self.act_dbu = self._action(v, "Fields in dBµV/m", lambda: self.set_field_units("dBu"))
+        self.act_mvm = self._action(v, "Fields in mV/m", lambda: self.set_field_units("mV/m"))
+        h = mb.addMenu("&Help")
+        self._action(h, "Cautions", self.show_cautions)
+        self._action(h, "About mwreach", self.show_about)
+        self._fill_recent()
+
+    def _build_status(self):
+        sb = self.statusBar()
+        self.readout = QLabel("")
+        self.progress = QProgressBar()
+        self.progress.setMaximumWidth(220)
+        self.progress.setVisible(False)
+        self.cancel_btn = QPushButton("Cancel")
+        self.cancel_btn.setVisible(False)
+        self.cancel_btn.clicked.connect(self.computer.cancel)
+        self.error_label = QLabel("")
+        self.error_label.setStyleSheet("color: #b00020;")
+        sb.addWidget(self.readout, 1)
+        sb.addWidget(self.error_label)
+        sb.addPermanentWidget(QLabel("Planning estimate — see Help ▸ Cautions"))
+        sb.addPermanentWidget(self.progress)
+        sb.addPermanentWidget(self.cancel_btn)
+
+    # --- files --------------------------------------------------------------------------------
+    def _update_title(self):
+        star = " *" if self.document.dirty else ""
+        self.setWindowTitle(f"mwreach — {self.document.display_name}{star}")
+
+    def _fill_recent(self):
+        self.recent_menu.clear()
+        for p in self._recent():
+            self._action(self.recent_menu, p, lambda _=False, p=p: self.open_path(p))
+
+    def _recent(self) -> list[str]:
+        v = self.settings.value("files/recent", [])
+        return [v] if isinstance(v, str) else list(v or [])
+
+    def _remember(self, path: str):
+        rec = [path] + [p for p in self._recent() if p != path]
+        self.settings.setValue("files/recent", rec[:MAX_RECENT])
+        self._fill_recent()
+
+    def _confirm_discard(self) -> bool:
+        if not self.document.dirty or self.document.spec is None:
+            return True
+        ans = QMessageBox.question(self, "Unsaved changes",
+                                   "The study has unsaved changes. Discard them?",
+                                   QMessageBox.Discard | QMessageBox.Cancel, QMessageBox.Cancel)
+        return ans == QMessageBox.Discard
+
+    def new_from_demo(self):
+        if self._confirm_discard():
+            self.document.new_from_demo()
+            self.map.fit()
+
+    def open_dialog(self):
+        if not self._confirm_discard():
+            return
+        path, _ = QFileDialog.getOpenFileName(self, "Open study", "", "mwreach study (*.toml)")
+        if path:
+            self.open_path(path)
+
+    def open_path(self, path) -> bool:
+        try:
+            self.document.load(path)
+        except (ValueError, OSError) as exc:
+            QMessageBox.warning(self, "Cannot open study", str(exc))
+            return False
+        self._remember(str(pathlib.Path(path).resolve()))
+        self.result = None
+        return True
+
+    def save(self) -> bool:
+        if self.document.path is None:
+            return self.save_as()
+        return self._save_to(None)
+
+    def save_as(self) -> bool:
+        path, _ = QFileDialog.getSaveFileName(self, "Save study as", "", "mwreach study (*.toml)")
+        return bool(path) and self._save_to(path)
+
+    def _save_to(self, path) -> bool:
+        try:
+            saved = self.document.save(path)
+        except (ValueError, OSError) as exc:
+            QMessageBox.warning(self, "Cannot save study", str(exc))
+            return False
+        self._remember(str(saved))
+        return True
+
+    def export_sheet(self, path=None):
+        if self.full_result is None:
+            QMessageBox.information(self, "Contour sheet", "Wait for the computation to finish.")
+            return
+        if not path:
+            path, _ = QFileDialog.getSaveFileName(self, "Contour sheet", "", "PDF (*.pdf)")
+        if path:
+            from .sheet import write_sheet
+
+            write_sheet(self.full_result, path)
+
+    def export_files(self, folder=None):
+        if self.full_result is None:
+            return
+        if not folder:
+            folder = QFileDialog.getExistingDirectory(self, "Export to folder")
+        if folder:
+            write_outputs(self.full_result, folder)
+
+    def closeEvent(self, ev):  # noqa: N802
+        if not self._confirm_discard():
+            ev.ignore()
+            return
+        self.computer.shutdown()
+        super().closeEvent(ev)
+
+    # --- computation --------------------------------------------------------------------------
+    def _recompute(self):
+        for e in self.editors:
+            e.refresh()
+        if self.document.spec is not None:
+            self.error_label.setText("")
+            self.computer.submit(self.document.spec, label="computing")
+
+    def _on_site_drag(self, lat, lon):
+        spec = self.document.spec.with_site(lat, lon)
+        self.computer.submit(spec, bearings=COARSE_BEARINGS, interference=False, label="coarse")
+
+    def _on_site_drop(self, lat, lon):
+        self.document.set_site_quiet(lat, lon)  # full recompute through `changed`
+
+    def _on_result(self, req, result):
+        self.result = result
+        self.map.set_result(result)
+        if req.bearings is None:
+            self._on_idle()
+            self.full_result = result
+            self.radial_table.show_result(result, self.units)
+            self.profile.show_result(result, self.units, self.field_units)
+            self.pattern.show_result(result)
+            self.interference_table.show_result(result)
+
+    def _on_error(self, req, msg):
+        self.error_label.setText(msg.splitlines()[0])
+        QMessageBox.warning(self, "Computation failed", msg)
+
+    def _on_progress(self, label, done, total):
+        self.progress.setVisible(True)
+        self.cancel_btn.setVisible(True)
+        self.progress.setFormat(f"{label} %p%")
+        self.progress.setMaximum(total)
+        self.progress.setValue(done)
+
+    def _on_idle(self):
+        self.progress.setVisible(False)
+        self.cancel_btn.setVisible(False)
+
+    # --- readout and units --------------------------------------------------------------------
+    def _on_hover(self, x_km, y_km):
+        r = self.result
+        if r is None:
+            return
+        st = r.spec.station
+        lon, lat = local_projection(st.lat, st.lon).to_lonlat(x_km, y_km)
+        d, az, _ = inverse(st.lat, st.lon, lat, lon)
+        d, az = float(d), float(az)
+        b = r.radials.bearings_deg
+        i = int(np.argmin(np.abs((b - az + 180) % 360 - 180)))
+        field = ""
+        if r.radials.dist_km[0] <= d <= r.radials.dist_km[-1]:
+            e = float(r.radials.field_at(i, d))
+            mv = 10 ** (e / 20) / 1e3
+            field = f"field {mv:.3g} mV/m ({e:.1f} dBµV/m)" if self.field_units == "mV/m" else \
+                f"field {e:.1f} dBµV/m ({mv:.3g} mV/m)"
+        g = r.spec.ground.ground_at(float(lon), float(lat))
+        f = 1.0 if self.units == "km" else 1 / KM_PER_MI
+        self.readout.setText(
+            f"{float(lat):.5f}, {float(lon):.5f} | {az:.1f}° {d * f:.2f} {self.units} from site | "
+            f"{field} | ground {g.label()}")
+
+    def set_units(self, units: str):
+        self.units = units
+        self.settings.setValue("units/distance", units)
+        self.map.set_units(units)
+        if self.full_result is not None:
+            self.radial_table.show_result(self.full_result, units)
+            self.profile.show_result(self.full_result, units)
+
+    def set_field_units(self, units: str):
+        self.field_units = units
+        self.settings.setValue("units/field", units)
+        if self.full_result is not None:
+            self.profile.show_result(self.full_result, field_units=units)
+
+    def show_cautions(self):
+        QMessageBox.information(self, "Cautions", CAUTIONS)
+
+    def show_about(self):
+        from mwreach.coverage.export import _version
+
+        QMessageBox.about(self, "About mwreach",
+                          f"mwreach {_version()}\nMedium-wave coverage and interference "
+                          "estimates.\n\n" + CAUTIONS)
+
+
+def run_gui(study=None, screenshot=None) -> int:
+    """Start the application; with ``screenshot`` compute, save a PNG of the window and exit."""
+    app = ensure_app(gui=True)
+    win = MainWindow()
+    if study:
+        if not win.open_path(study):
+            return 2
+    elif screenshot:
+        win.document.new_from_demo()
+    win.show()
+    if screenshot:
+        status = {"rc": 0}
+
+        def done(req, result):
+            if req.bearings is not None:
+                return
+            app.processEvents()
+            win.map.fit()
+            app.processEvents()
+            ok = win.grab().save(str(screenshot))
+            print(f"wrote {screenshot}" if ok else f"could not write {screenshot}")
+            status["rc"] = 0 if ok else 1
+            app.quit()
+
+        def failed(req, msg):
+            print(f"mwreach gui: error: {msg.splitlines()[0]}", file=sys.stderr)
+            status["rc"] = 2
+            app.quit()
+
+        win.computer.result.connect(done)
+        win.computer.error.connect(failed)
+        QTimer.singleShot(120_000, app.quit)  # never hang in batch use
+        app.exec()
+        win.computer.shutdown()
+        win.deleteLater()
+        app.processEvents()
+        return status["rc"]
+    rc = app.exec()
+    return int(rc)

@@ -1,0 +1,163 @@
+"""The map: draws the study with the shared renderer; pan, zoom, drag the site, readout."""
+
+from __future__ import annotations
+
+import math
+
+from PySide6.QtCore import QPointF, QRectF, Qt, Signal
+from PySide6.QtGui import QPainter
+from PySide6.QtWidgets import QWidget
+
+from mwreach.coverage.geodesy import local_projection
+
+from .render import MapOptions, View, draw_legend, draw_map, fit_view
+
+__all__ = ["MapWidget"]
+
+
+class MapWidget(QWidget):
+    """Shows a StudyResult. Signals carry geographic positions; no physics state is kept."""
+
+    siteDragged = Signal(float, float)  # lat, lon while dragging
+    siteDropped = Signal(float, float)  # lat, lon on release
+    hovered = Signal(float, float)  # x_km, y_km in the displayed result's projection
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setMinimumSize(420, 360)
+        self.setMouseTracking(True)
+        self.result = None
+        self.view: View | None = None
+        self.options = MapOptions(font_pt=8.0, line_scale=1.0)
+        self._drag = None  # ("site" | "pan", start QPointF, start view centre)
+        self._site_offset = (0.0, 0.0)  # km, while dragging the site
+
+    # --- data -------------------------------------------------------------------------------
+    def set_result(self, result, refit: bool = False) -> None:
+        old = self.result
+        self.result = result
+        if self.view is None or refit or old is None:
+            self.fit()
+        elif old.spec.station.lat != result.spec.station.lat or old.spec.station.lon != result.spec.station.lon:
+            # keep the same geographic view although the projection centre moved
+            p_old = local_projection(old.spec.station.lat, old.spec.station.lon)
+            lon, lat = p_old.to_lonlat(self.view.cx_km, self.view.cy_km)
+            p_new = local_projection(result.spec.station.lat, result.spec.station.lon)
+            x, y = p_new.to_xy(lon, lat)
+            self.view.cx_km, self.view.cy_km = float(x), float(y)
+            if self._drag and self._drag[0] == "site":
+                # the site is at the origin of the new projection: drag continues from there
+                self._site_offset = (0.0, 0.0)
+        self.update()
+
+    def fit(self) -> None:
+        if self.result is None:
+            return
+        self.view = fit_view(self.result, QRectF(self.rect()), margin=1.1)
+        self.update()
+
+    def set_units(self, distance_units: str) -> None:
+        self.options.distance_units = distance_units
+        self.update()
+
+    # --- painting ---------------------------------------------------------------------------
+    def paintEvent(self, event):  # noqa: N802 - Qt API
+        p = QPainter(self)
+        p.fillRect(self.rect(), Qt.white)
+        if self.result is None or self.view is None:
+            p.drawText(self.rect(), Qt.AlignCenter, "Open a study (File ▸ Open) or start from "
+                       "the demo (File ▸ New from demo).")
+            return
+        self.view.rect = QRectF(self.rect())
+        draw_map(p, self.view, self.result, self.options)
+        if self._drag and self._drag[0] == "site":
+            x, y = self.view.to_dev(*self._site_offset)
+            p.setPen(Qt.red)
+            p.drawEllipse(QPointF(float(x), float(y)), 7, 7)
+        legend = QRectF(self.width() - 290, 40, 280, 260)
+        p.setOpacity(0.92)
+        p.fillRect(QRectF(legend.left() - 6, legend.top() - 4, legend.width() + 12,
+                          draw_legend_height(self.result, self.options)), Qt.white)
+        p.setOpacity(1.0)
+        draw_legend(p, legend, self.result, self.options)
+        p.end()
+
+    # --- interaction ------------------------------------------------------------------------
+    def _site_hit(self, pos) -> bool:
+        if self.view is None:
+            return False
+        x, y = self.view.to_dev(*self._site_offset)
+        return math.hypot(pos.x() - float(x), pos.y() - float(y)) < 10
+
+    def mousePressEvent(self, ev):  # noqa: N802
+        if self.view is None:
+            return
+        if ev.button() == Qt.LeftButton and self._site_hit(ev.position()):
+            self._drag = ("site", ev.position(), (self.view.cx_km, self.view.cy_km))
+            self.setCursor(Qt.ClosedHandCursor)
+        elif ev.button() in (Qt.LeftButton, Qt.MiddleButton, Qt.RightButton):
+            self._drag = ("pan", ev.position(), (self.view.cx_km, self.view.cy_km))
+            self.setCursor(Qt.SizeAllCursor)
+
+    def _pos_to_lonlat(self, pos):
+        x, y = self.view.to_world(pos.x(), pos.y())
+        st = self.result.spec.station
+        lon, lat = local_projection(st.lat, st.lon).to_lonlat(x, y)
+        return float(lat), float(lon)
+
+    def mouseMoveEvent(self, ev):  # noqa: N802
+        if self.view is None:
+            return
+        pos = ev.position()
+        if self._drag and self._drag[0] == "pan":
+            start, (cx, cy) = self._drag[1], self._drag[2]
+            self.view.cx_km = cx - (pos.x() - start.x()) * self.view.km_per_unit
+            self.view.cy_km = cy + (pos.y() - start.y()) * self.view.km_per_unit
+            self.update()
+        elif self._drag and self._drag[0] == "site":
+            self._site_offset = self.view.to_world(pos.x(), pos.y())
+            lat, lon = self._pos_to_lonlat(pos)
+            self.siteDragged.emit(lat, lon)
+            self.update()
+        x, y = self.view.to_world(pos.x(), pos.y())
+        self.hovered.emit(float(x), float(y))
+
+    def mouseReleaseEvent(self, ev):  # noqa: N802
+        if self._drag and self._drag[0] == "site":
+            lat, lon = self._pos_to_lonlat(ev.position())
+            self._drag = None
+            self._site_offset = (0.0, 0.0)
+            self.siteDropped.emit(lat, lon)
+        self._drag = None
+        self.unsetCursor()
+        self.update()
+
+    def wheelEvent(self, ev):  # noqa: N802
+        if self.view is None:
+            return
+        factor = 0.8 if ev.angleDelta().y() > 0 else 1.25
+        pos = ev.position()
+        wx, wy = self.view.to_world(pos.x(), pos.y())
+        self.view.km_per_unit *= factor
+        nx, ny = self.view.to_world(pos.x(), pos.y())
+        self.view.cx_km += wx - nx
+        self.view.cy_km += wy - ny
+        self.update()
+
+    def zoom(self, factor: float) -> None:
+        if self.view is not None:
+            self.view.km_per_unit *= factor
+            self.update()
+
+    def resizeEvent(self, ev):  # noqa: N802
+        if self.view is not None:
+            self.view.rect = QRectF(self.rect())
+        super().resizeEvent(ev)
+
+
+def draw_legend_height(result, opts) -> float:
+    """Height the legend needs (rows × line height), to paint its background."""
+    rows = len(result.contours) + 3 + len(result.spec.ground.zones) + 1
+    if getattr(result, "interference", None) is not None:
+        rows += 2
+    return rows * opts.font_pt * 1.6 + 10

@@ -1,0 +1,608 @@
+"""Editors (inputs) and result views. Editors change the study only through the document;
+result views only display a StudyResult."""
+
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QColor
+from PySide6.QtWidgets import (
+    QComboBox,
+    QFileDialog,
+    QFormLayout,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QSpinBox,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
+
+from mwreach.coverage.export import KM_PER_MI
+from mwreach.coverage.ground import GROUND_CLASSES
+from mwreach.coverage.groundwave import mv_m_to_dbu
+
+from .render import LEVEL_COLOURS, conductivity_colour
+
+__all__ = ["StationEditor", "AntennaEditor", "GroundEditor", "LevelsEditor", "NeighboursEditor",
+           "NightEditor", "RadialTable", "ProfilePlot", "PatternPlot", "InterferenceTable"]
+
+ERROR_STYLE = "color: #b00020;"
+
+
+def _number_or_text(text: str):
+    """A number when the text is one, else the text itself (the core then names the field)."""
+    t = text.strip()
+    try:
+        return float(t)
+    except ValueError:
+        return t
+
+
+class _Editor(QWidget):
+    """Base: a message line under the editor; fields keep what the user typed on errors."""
+
+    def __init__(self, document, parent=None):
+        super().__init__(parent)
+        self.document = document
+        self.message = QLabel("")
+        self.message.setWordWrap(True)
+        self.message.setStyleSheet(ERROR_STYLE)
+        self._loading = False
+
+    def apply(self, mutate, field_widget=None) -> bool:
+        if self._loading:
+            return True
+        err = self.document.try_update(mutate)
+        self.message.setText("" if err is None else f"Not applied: {err}")
+        if field_widget is not None:
+            field_widget.setStyleSheet("" if err is None else "border: 1px solid #b00020;")
+        return err is None
+
+
+class StationEditor(_Editor):
+    FIELDS = [("name", "Station name", False), ("lat", "Latitude [deg, WGS84]", True),
+              ("lon", "Longitude [deg, WGS84]", True), ("freq_khz", "Frequency [kHz]", True),
+              ("power_day_kw", "Day power [kW]", True), ("power_night_kw", "Night power [kW]", True)]
+
+    def __init__(self, document, parent=None):
+        super().__init__(document, parent)
+        form = QFormLayout(self)
+        self.edits = {}
+        for key, label, numeric in self.FIELDS:
+            e = QLineEdit()
+            e.setObjectName(f"station_{key}")
+            e.editingFinished.connect(lambda k=key, w=e, n=numeric: self._commit(k, w, n))
+            form.addRow(label, e)
+            self.edits[key] = e
+        self.title = QLineEdit()
+        self.title.editingFinished.connect(self._commit_title)
+        form.addRow("Study title", self.title)
+        form.addRow(self.message)
+
+    def _commit(self, key, widget, numeric):
+        value = _number_or_text(widget.text()) if numeric else widget.text()
+        if self.document.doc.get("station", {}).get(key) == value:
+            return
+        self.apply(lambda d: d.setdefault("station", {}).__setitem__(key, value), widget)
+
+    def _commit_title(self):
+        self.apply(lambda d: d.setdefault("study", {}).__setitem__("title", self.title.text()))
+
+    def refresh(self):
+        self._loading = True
+        st = self.document.doc.get("station", {})
+        for key, e in self.edits.items():
+            if not e.hasFocus() and e.styleSheet() == "":
+                v = st.get(key, "")
+                e.setText(f"{v:.6f}".rstrip("0").rstrip(".") if isinstance(v, float) and key in ("lat", "lon") else str(v))
+        self.title.setText(str(self.document.doc.get("study", {}).get("title", "")))
+        self._loading = False
+
+
+class _TableEditor(_Editor):
+    """A table whose rows become a list of TOML tables. Subclasses give ``COLUMNS``,
+    ``rows_from_doc()`` (rows to show) and ``write_rows(doc, rows)`` (where rows go)."""
+
+    COLUMNS: list[tuple[str, str]] = []
+
+    def __init__(self, document, parent=None):
+        super().__init__(document, parent)
+        lay = QVBoxLayout(self)
+        self.table = QTableWidget(0, len(self.COLUMNS))
+        self.table.setHorizontalHeaderLabels([c[1] for c in self.COLUMNS])
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        self.table.cellChanged.connect(self._changed)
+        lay.addWidget(self.table)
+        buttons = QHBoxLayout()
+        self.add_btn = QPushButton("Add row")
+        self.del_btn = QPushButton("Remove row")
+        self.add_btn.clicked.connect(self._add)
+        self.del_btn.clicked.connect(self._remove)
+        buttons.addWidget(self.add_btn)
+        buttons.addWidget(self.del_btn)
+        buttons.addStretch(1)
+        lay.addLayout(buttons)
+        lay.addWidget(self.message)
+
+    def refresh(self):
+        self._loading = True
+        rows = self.rows_from_doc()
+        self.table.setRowCount(len(rows))
+        for i, r in enumerate(rows):
+            for j, (key, _) in enumerate(self.COLUMNS):
+                v = r.get(key, "")
+                self.table.setItem(i, j, QTableWidgetItem("" if v is None else f"{v:g}" if isinstance(v, float) else str(v)))
+        self._loading = False
+
+    def _table_rows(self) -> list[dict]:
+        out = []
+        for i in range(self.table.rowCount()):
+            row = {}
+            for j, (key, _) in enumerate(self.COLUMNS):
+                item = self.table.item(i, j)
+                text = item.text().strip() if item else ""
+                if text != "":
+                    row[key] = text if key in ("label", "name") else _number_or_text(text)
+            out.append(row)
+        return out
+
+    def _changed(self, *_):
+        if self._loading:
+            return
+        rows = self._table_rows()
+        self.apply(lambda d: self.write_rows(d, rows))
+
+    def _add(self):
+        self._loading = True
+        self.table.insertRow(self.table.rowCount())
+        self._loading = False
+
+    def _remove(self):
+        r = self.table.currentRow()
+        if r >= 0:
+            self.table.removeRow(r)
+            self._changed()
+
+
+class AntennaEditor(_TableEditor):
+    COLUMNS = [("height_deg", "Height [deg]"), ("top_loading_deg", "Top loading [deg]"),
+               ("field_ratio", "Field ratio"), ("phase_deg", "Phase [deg]"),
+               ("spacing_deg", "Spacing [deg]"), ("orientation_deg", "Orientation [deg true]"),
+               ("loss_ohm", "Loss [Ω]")]
+
+    def __init__(self, document, parent=None):
+        super().__init__(document, parent)
+        row = QHBoxLayout()
+        row.addWidget(QLabel("Array rotation [deg]"))
+        self.rotation = QLineEdit()
+        self.rotation.editingFinished.connect(self._rotation)
+        row.addWidget(self.rotation)
+        self.layout().insertLayout(0, row)
+
+    def rows_from_doc(self):
+        spec = self.document.spec
+        out = []
+        for e in spec.station.antenna.elements:
+            out.append({"height_deg": round(e.tower.height_deg, 3),
+                        "top_loading_deg": e.tower.top_loading_deg, "field_ratio": e.field_ratio,
+                        "phase_deg": e.phase_deg, "spacing_deg": e.spacing_deg,
+                        "orientation_deg": e.orientation_deg, "loss_ohm": e.tower.loss_ohm})
+        return out
+
+    def write_rows(self, doc, rows):
+        ant = doc.setdefault("antenna", {})
+        ant["tower"] = rows
+
+    def refresh(self):
+        super().refresh()
+        self.rotation.setText(f"{self.document.spec.station.antenna.rotation_deg:g}")
+
+    def _rotation(self):
+        v = _number_or_text(self.rotation.text())
+        self.apply(lambda d: d.setdefault("antenna", {}).__setitem__("rotation_deg", v),
+                   self.rotation)
+
+
+class LevelsEditor(_TableEditor):
+    COLUMNS = [("field_mv_m", "Level [mV/m]"), ("label", "Label")]
+
+    def rows_from_doc(self):
+        return [{"field_mv_m": lv.field_mv_m, "label": lv.label} for lv in self.document.spec.levels]
+
+    def write_rows(self, doc, rows):
+        doc["contour"] = rows
+
+
+class GroundEditor(_Editor):
+    def __init__(self, document, parent=None):
+        super().__init__(document, parent)
+        form = QFormLayout(self)
+        self.preset = QComboBox()
+        self.preset.addItem("custom (σ, εr below)", "")
+        for name, g in GROUND_CLASSES.items():
+            self.preset.addItem(f"{name}: {g.sigma_ms_m:g} mS/m, εr {g.eps_r:g}", name)
+        self.preset.currentIndexChanged.connect(self._preset)
+        self.sigma = QLineEdit()
+        self.eps = QLineEdit()
+        self.sigma.editingFinished.connect(self._custom)
+        self.eps.editingFinished.connect(self._custom)
+        self.zones_label = QLabel()
+        self.zones_btn = QPushButton("Choose zones file…")
+        self.zones_btn.clicked.connect(self._choose)
+        self.zones = QTableWidget(0, 3)
+        self.zones.setHorizontalHeaderLabels(["Zone (later wins)", "σ [mS/m]", "εr"])
+        self.zones.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        self.zones.setEditTriggers(QTableWidget.NoEditTriggers)
+        form.addRow("Default ground", self.preset)
+        form.addRow("σ [mS/m]", self.sigma)
+        form.addRow("εr", self.eps)
+        form.addRow("Zones file", self.zones_label)
+        form.addRow("", self.zones_btn)
+        form.addRow(self.zones)
+        form.addRow(self.message)
+
+    def refresh(self):
+        self._loading = True
+        g = self.document.doc.get("ground", {})
+        spec = self.document.spec
+        idx = self.preset.findData(g.get("class", ""))
+        self.preset.setCurrentIndex(max(idx, 0))
+        self.sigma.setText(f"{spec.ground.default.sigma_ms_m:g}")
+        self.eps.setText(f"{spec.ground.default.eps_r:g}")
+        self.zones_label.setText(g.get("zones", "(none)"))
+        zs = spec.ground.zones
+        self.zones.setRowCount(len(zs))
+        for i, z in enumerate(zs):
+            for j, v in enumerate((z.name, f"{z.ground.sigma_ms_m:g}", f"{z.ground.eps_r:g}")):
+                item = QTableWidgetItem(v)
+                item.setBackground(conductivity_colour(z.ground.sigma_ms_m))
+                self.zones.setItem(i, j, item)
+        self._loading = False
+
+    def _preset(self):
+        name = self.preset.currentData()
+        if not name:
+            return
+
+        def mutate(d):
+            g = d.setdefault("ground", {})
+            g.pop("sigma_ms_m", None)
+            g.pop("eps_r", None)
+            g["class"] = name
+
+        self.apply(mutate, self.preset)
+
+    def _custom(self):
+        s, e = _number_or_text(self.sigma.text()), _number_or_text(self.eps.text())
+        g = self.document.doc.get("ground", {})
+        if "class" not in g and g.get("sigma_ms_m") == s and g.get("eps_r") == e:
+            return
+
+        def mutate(d):
+            gg = d.setdefault("ground", {})
+            gg.pop("class", None)
+            gg["sigma_ms_m"], gg["eps_r"] = s, e
+
+        self.apply(mutate, self.sigma)
+
+    def _choose(self):
+        path, _ = QFileDialog.getOpenFileName(self, "Conductivity zones", str(self.document.base_dir),
+                                              "GeoJSON (*.geojson *.json)")
+        if path:
+            import os
+
+            rel = os.path.relpath(path, self.document.base_dir)
+            self.apply(lambda d: d.setdefault("ground", {}).__setitem__("zones", rel))
+
+
+class NeighboursEditor(_Editor):
+    COLUMNS = ["Name", "kHz", "Lat", "Lon", "Day kW", "Night kW", "Protected day mV/m",
+               "Protected night mV/m"]
+
+    def __init__(self, document, parent=None):
+        super().__init__(document, parent)
+        lay = QVBoxLayout(self)
+        self.table = QTableWidget(0, len(self.COLUMNS))
+        self.table.setHorizontalHeaderLabels(self.COLUMNS)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        self.table.setEditTriggers(QTableWidget.NoEditTriggers)
+        lay.addWidget(self.table)
+        row = QHBoxLayout()
+        self.source = QLabel()
+        self.import_btn = QPushButton("Import neighbours CSV…")
+        self.import_btn.clicked.connect(self._import)
+        row.addWidget(self.source, 1)
+        row.addWidget(self.import_btn)
+        lay.addLayout(row)
+        lay.addWidget(QLabel("CSV columns: name, lat, lon, freq_khz, power_day_kw, power_night_kw, "
+                             "height_deg | height_m | array, loss_ohm, protected_day_mv_m, "
+                             "protected_night_mv_m"))
+        lay.addWidget(self.message)
+
+    def refresh(self):
+        plan = self.document.spec.interference
+        nbs = plan.neighbours if plan else ()
+        self.table.setRowCount(len(nbs))
+        for i, n in enumerate(nbs):
+            vals = [n.name, f"{n.freq_khz:g}", f"{n.lat:.4f}", f"{n.lon:.4f}", f"{n.power_day_kw:g}",
+                    f"{n.power_night_kw:g}", f"{n.protected_day_mv_m:g}", f"{n.protected_night_mv_m:g}"]
+            for j, v in enumerate(vals):
+                self.table.setItem(i, j, QTableWidgetItem(v))
+        f = plan.neighbours_file if plan else ""
+        self.source.setText(f"CSV file: {f}" if f else "No neighbours CSV file")
+
+    def import_csv(self, path: str) -> bool:
+        import os
+
+        rel = os.path.relpath(path, self.document.base_dir)
+        return self.apply(lambda d: d.setdefault("interference", {}).__setitem__("neighbours", rel))
+
+    def _import(self):
+        path, _ = QFileDialog.getOpenFileName(self, "Neighbours CSV", str(self.document.base_dir),
+                                              "CSV (*.csv)")
+        if path:
+            self.import_csv(path)
+
+
+class NightEditor(_Editor):
+    OFFSETS = ["co_channel", "adjacent_1", "adjacent_2", "adjacent_3"]
+
+    def __init__(self, document, parent=None):
+        super().__init__(document, parent)
+        form = QFormLayout(self)
+        self.method = QComboBox()
+        self.method.addItem("47 CFR 73.190", "cfr")
+        self.method.addItem("ITU-R P.1147", "itu")
+        self.percent = QComboBox()
+        self.percent.addItem("10 % of the time", 10)
+        self.percent.addItem("50 % of the time", 50)
+        self.exclusion = QComboBox()
+        for v, t in ((50, "RSS, 50 % exclusion"), (25, "RSS, 25 % exclusion"), (0, "plain RSS")):
+            self.exclusion.addItem(t, v)
+        self.floor = QLineEdit()
+        for w in (self.method, self.percent, self.exclusion):
+            w.currentIndexChanged.connect(self._night)
+        self.floor.editingFinished.connect(self._night)
+        form.addRow("Sky-wave method", self.method)
+        form.addRow("Interfering sky wave", self.percent)
+        form.addRow("Combination", self.exclusion)
+        form.addRow("Night limit floor [mV/m]", self.floor)
+        self.ratios = QTableWidget(2, 4)
+        self.ratios.setHorizontalHeaderLabels(["co-channel", "±1 channel", "±2", "±3"])
+        self.ratios.setVerticalHeaderLabels(["day D/U [dB]", "night D/U [dB]"])
+        self.ratios.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        self.ratios.cellChanged.connect(self._ratios)
+        form.addRow(QLabel("Protection ratios (empty: none — that offset contributes nothing)"))
+        form.addRow(self.ratios)
+        self.sources = QLabel()
+        self.sources.setWordWrap(True)
+        form.addRow(self.sources)
+        form.addRow(self.message)
+
+    def refresh(self):
+        self._loading = True
+        plan = self.document.spec.interference
+        if plan is None:
+            self.setEnabled(False)
+            self._loading = False
+            return
+        self.setEnabled(True)
+        n = plan.night
+        self.method.setCurrentIndex(self.method.findData(n.method))
+        self.percent.setCurrentIndex(self.percent.findData(n.percent))
+        self.exclusion.setCurrentIndex(self.exclusion.findData(n.exclusion_percent))
+        self.floor.setText(f"{n.floor_mv_m:g}")
+        for r, period in enumerate(("day", "night")):
+            for c in range(4):
+                v = plan.protection.ratios.get((period, c))
+                self.ratios.setItem(r, c, QTableWidgetItem("" if v is None else f"{v[0]:g}"))
+        self.sources.setText("\n".join(
+            f"{row['period']} offset {row['offset_channels']}: {row['source']}"
+            for row in plan.protection.rows() if row["ratio_db"] is not None))
+        self._loading = False
+
+    def _night(self, *_):
+        vals = {"method": self.method.currentData(), "percent": self.percent.currentData(),
+                "exclusion_percent": self.exclusion.currentData(),
+                "floor_mv_m": _number_or_text(self.floor.text())}
+        self.apply(lambda d: d.setdefault("night", {}).update(vals), self.floor)
+
+    def _ratios(self, *_):
+        if self._loading:
+            return
+        table = {}
+        for r, period in enumerate(("day", "night")):
+            for c, name in enumerate(self.OFFSETS):
+                item = self.ratios.item(r, c)
+                t = item.text().strip() if item else ""
+                if t:
+                    table[f"{period}_{name}_db"] = _number_or_text(t)
+
+        def mutate(d):
+            prot = d.setdefault("protection", {})
+            raster = prot.get("raster_khz", 10)
+            prot.clear()
+            prot["raster_khz"] = raster
+            prot.update(table)
+
+        self.apply(mutate)
+
+
+# --- result views ---------------------------------------------------------------------------
+
+class RadialTable(QTableWidget):
+    """Bearing × level distances, in km or mi."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.units = "km"
+        self.result = None
+        self.setEditTriggers(QTableWidget.NoEditTriggers)
+        self.setSortingEnabled(False)
+
+    def show_result(self, result, units: str | None = None):
+        self.result = result
+        self.units = units or self.units
+        f = 1.0 if self.units == "km" else 1 / KM_PER_MI
+        cs = result.contours
+        b = result.radials.bearings_deg
+        self.setColumnCount(len(cs))
+        self.setRowCount(b.size)
+        self.setHorizontalHeaderLabels([f"{c.level_mv_m:g} mV/m [{self.units}]" for c in cs])
+        self.setVerticalHeaderLabels([f"{x:g}°" for x in b])
+        for j, c in enumerate(cs):
+            for i in range(b.size):
+                d = c.first_km[i]
+                text = "n/r" if np.isnan(d) else (f">{result.max_km * f:.1f}" if np.isinf(d)
+                                                   else f"{d * f:.2f}" + ("*" if c.further[i] else ""))
+                self.setItem(i, j, QTableWidgetItem(text))
+
+    def cell_value(self, bearing_deg: float, level_index: int) -> str:
+        b = self.result.radials.bearings_deg
+        i = int(np.flatnonzero(np.isclose(b, bearing_deg))[0])
+        return self.item(i, level_index).text()
+
+
+class ProfilePlot(QWidget):
+    """Field versus distance along one bearing, ground sections shaded, levels drawn."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        lay = QVBoxLayout(self)
+        row = QHBoxLayout()
+        row.addWidget(QLabel("Bearing [deg true]"))
+        self.bearing = QSpinBox()
+        self.bearing.setRange(0, 359)
+        self.bearing.valueChanged.connect(self._draw)
+        row.addWidget(self.bearing)
+        row.addStretch(1)
+        lay.addLayout(row)
+        self.plot = pg.PlotWidget(background="w")
+        self.plot.showGrid(x=True, y=True, alpha=0.3)
+        lay.addWidget(self.plot)
+        self.result = None
+        self.units = "km"
+        self.field_units = "dBu"
+
+    def show_result(self, result, units=None, field_units=None):
+        self.result = result
+        self.units = units or self.units
+        self.field_units = field_units or self.field_units
+        self._draw()
+
+    def _draw(self, *_):
+        self.plot.clear()
+        r = self.result
+        if r is None:
+            return
+        b = r.radials.bearings_deg
+        i = int(np.argmin(np.abs((b - self.bearing.value() + 180) % 360 - 180)))
+        f = 1.0 if self.units == "km" else 1 / KM_PER_MI
+        d = r.radials.dist_km * f
+        e = r.radials.field_dbu[i]
+        for s in r.radials.sections[i]:
+            c = conductivity_colour(s.ground.sigma_ms_m)
+            c.setAlpha(110)
+            reg = pg.LinearRegionItem((s.start_km * f, min(s.end_km, r.radials.dist_km[-1]) * f),
+                                      movable=False, brush=c, pen=pg.mkPen(None))
+            reg.setZValue(-10)
+            self.plot.addItem(reg)
+        if self.field_units == "dBu":
+            self.plot.plot(d, e, pen=pg.mkPen("k", width=2))
+            self.plot.setLabel("left", "field [dBµV/m]")
+        else:
+            self.plot.plot(d, 10 ** (e / 20) / 1e3, pen=pg.mkPen("k", width=2))
+            self.plot.setLogMode(y=True)
+            self.plot.setLabel("left", "field [mV/m]")
+        for k, c in enumerate(r.contours):
+            y = float(mv_m_to_dbu(c.level_mv_m)) if self.field_units == "dBu" else c.level_mv_m
+            line = pg.InfiniteLine(pos=y if self.field_units == "dBu" else np.log10(y), angle=0,
+                                   pen=pg.mkPen(LEVEL_COLOURS[k % len(LEVEL_COLOURS)], width=1.5,
+                                                style=Qt.DashLine),
+                                   label=f"{c.level_mv_m:g} mV/m", labelOpts={"position": 0.9})
+            self.plot.addItem(line)
+        self.plot.setLabel("bottom", f"distance [{self.units}] along {b[i]:g}°")
+
+
+class PatternPlot(QWidget):
+    """Horizontal (polar) and vertical patterns of the antenna, in mV/m at 1 km."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        lay = QHBoxLayout(self)
+        self.polar = pg.PlotWidget(background="w", title="horizontal plane [mV/m at 1 km]")
+        self.polar.setAspectLocked(True)
+        self.polar.hideAxis("left")
+        self.polar.hideAxis("bottom")
+        self.vert = pg.PlotWidget(background="w", title="vertical, toward the maximum")
+        self.vert.setLabel("bottom", "elevation [deg]")
+        self.vert.setLabel("left", "mV/m at 1 km")
+        lay.addWidget(self.polar)
+        lay.addWidget(self.vert)
+        self.values = None
+
+    def show_result(self, result):
+        st = result.spec.station
+        p = result.antenna_summary["power_kw"]
+        az = np.arange(0.0, 361.0)
+        e = st.antenna.field_mv_m(az, 0.0, p)
+        self.values = e[:360]
+        self.polar.clear()
+        r_max = float(e.max()) or 1.0
+        for frac in (0.25, 0.5, 0.75, 1.0):
+            t = np.radians(np.arange(0, 361))
+            self.polar.plot(frac * r_max * np.sin(t), frac * r_max * np.cos(t),
+                            pen=pg.mkPen((180, 180, 180), width=1))
+        for ang in range(0, 360, 30):
+            a = np.radians(ang)
+            self.polar.plot([0, r_max * np.sin(a)], [0, r_max * np.cos(a)],
+                            pen=pg.mkPen((200, 200, 200), width=1))
+            txt = pg.TextItem(f"{ang}°", color=(90, 90, 90), anchor=(0.5, 0.5))
+            txt.setPos(1.1 * r_max * np.sin(a), 1.1 * r_max * np.cos(a))
+            self.polar.addItem(txt)
+        t = np.radians(az)
+        self.polar.plot(e * np.sin(t), e * np.cos(t), pen=pg.mkPen("#b2182b", width=2))
+        el = np.arange(0.0, 90.5, 0.5)
+        az_max = result.antenna_summary["max_azimuth_deg"]
+        self.vert.clear()
+        self.vert.plot(el, st.antenna.field_mv_m(az_max, el, p), pen=pg.mkPen("#2166ac", width=2))
+
+
+class InterferenceTable(QTableWidget):
+    """Every D/U check with its margin; sortable; failures in red."""
+
+    HEAD = ["Check", "Neighbour", "Offset", "Bearing°", "Lat", "Lon", "Wanted dBµV/m",
+            "Unwanted dBµV/m", "Ratio dB", "Margin dB", "Result"]
+
+    def __init__(self, parent=None):
+        super().__init__(0, len(self.HEAD), parent)
+        self.setHorizontalHeaderLabels(self.HEAD)
+        self.setEditTriggers(QTableWidget.NoEditTriggers)
+        self.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeToContents)
+
+    def show_result(self, result):
+        self.setSortingEnabled(False)
+        inter = result.interference
+        rows = inter.rows if inter else ()
+        self.setRowCount(len(rows))
+        for i, r in enumerate(rows):
+            vals = [r.kind, r.neighbour, r.offset_channels, r.bearing_deg, r.lat, r.lon,
+                    r.wanted_dbu, r.unwanted_dbu, r.ratio_db, r.margin_db,
+                    "pass" if r.passed else "FAILS"]
+            for j, v in enumerate(vals):
+                item = QTableWidgetItem()
+                if isinstance(v, (int, float)):
+                    item.setData(Qt.DisplayRole, round(float(v), 4 if j in (4, 5) else 2))
+                else:
+                    item.setText(str(v))
+                if not r.passed:
+                    item.setForeground(QColor("#b00020"))
+                self.setItem(i, j, item)
+        self.setSortingEnabled(True)
+        self.sortItems(9, Qt.AscendingOrder)

@@ -1,0 +1,146 @@
+"""The desktop application, offscreen (pytest-qt)."""
+
+import pathlib
+
+import numpy as np
+import pytest
+
+pytest.importorskip("PySide6")
+from PySide6.QtCore import QPointF, QSettings, Qt  # noqa: E402
+from PySide6.QtTest import QTest  # noqa: E402
+
+from mwreach.coverage.study import Study, load_study  # noqa: E402
+
+pytestmark = pytest.mark.gui
+DEMO = pathlib.Path(__file__).parents[2] / "data" / "demo" / "quellmoor.toml"
+ARTIFACTS = pathlib.Path(__file__).parents[1] / "artifacts"
+
+
+@pytest.fixture
+def window(qtbot, tmp_path, monkeypatch):
+    from mwreach.gui.app import MainWindow
+
+    # closing an edited study would ask; answer "discard" so no modal dialog blocks the tests
+    monkeypatch.setattr("mwreach.gui.app.MainWindow._confirm_discard", lambda self: True)
+    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.IniFormat)
+    win = MainWindow(settings)
+    qtbot.addWidget(win)
+    win.resize(1300, 850)
+    win.show()
+    yield win
+    win.close()
+    win.deleteLater()
+    QTest.qWait(10)
+    import gc
+
+    gc.collect()  # finalise this window's Qt objects here, on the GUI thread
+
+
+def _open_and_wait(qtbot, win, path=DEMO):
+    with qtbot.waitSignal(win.computer.result, timeout=60_000,
+                          check_params_cb=lambda req, res: req.bearings is None):
+        assert win.open_path(str(path))
+    return win.full_result
+
+
+def test_radial_table_matches_study(qtbot, window):
+    res = _open_and_wait(qtbot, window)
+    ref = Study.from_file(DEMO).run(interference=False)
+    for bearing in (0.0, 90.0, 137.5, 200.0):
+        i = int(np.flatnonzero(ref.radials.bearings_deg == bearing)[0])
+        for k, c in enumerate(ref.contours):
+            d = c.first_km[i]
+            expected = f"{d:.2f}" + ("*" if c.further[i] else "")
+            assert window.radial_table.cell_value(bearing, k) == expected
+    assert res.interference is not None
+    assert window.interference_table.rowCount() == len(res.interference.rows)
+
+
+def test_drag_site_moves_contours(qtbot, window):
+    res = _open_and_wait(qtbot, window)
+    m = window.map
+    sx, sy = m.view.to_dev(0.0, 0.0)
+    start = QPointF(float(sx), float(sy)).toPoint()
+    dx_px = 40
+    km = dx_px * m.view.km_per_unit
+    QTest.mousePress(m, Qt.LeftButton, Qt.NoModifier, start)
+    QTest.mouseMove(m, start + QPointF(dx_px / 2, 0).toPoint())
+    with qtbot.waitSignal(window.computer.result, timeout=60_000,
+                          check_params_cb=lambda req, r: req.bearings is None):
+        QTest.mouseMove(m, start + QPointF(dx_px, 0).toPoint())
+        QTest.mouseRelease(m, Qt.LeftButton, Qt.NoModifier, start + QPointF(dx_px, 0).toPoint())
+    new = window.full_result
+    st0, st1 = res.spec.station, new.spec.station
+    from mwreach.coverage.geodesy import inverse
+
+    d, az, _ = inverse(st0.lat, st0.lon, st1.lat, st1.lon)
+    assert float(d) == pytest.approx(km, rel=0.05)  # moved by the dragged distance, due east
+    assert float(az) == pytest.approx(90.0, abs=2.0)
+    assert window.document.dirty
+    # the contours moved: the 5 mV/m distance due west differs
+    i = int(np.flatnonzero(new.radials.bearings_deg == 270.0)[0])
+    assert new.contours[0].first_km[i] != pytest.approx(res.contours[0].first_km[i], abs=0.05)
+
+
+def test_invalid_entry_is_refused_and_kept(qtbot, window):
+    _open_and_wait(qtbot, window)
+    before = window.document.spec
+    edit = window.station_editor.edits["lat"]
+    edit.setText("95")
+    edit.editingFinished.emit()
+    msg = window.station_editor.message.text()
+    assert "lat must be >= -90 and <= 90 (got 95.0)" in msg
+    assert window.document.spec is before  # study unchanged
+    assert edit.text() == "95"  # what the user typed is kept
+    edit.setText("abc")
+    edit.editingFinished.emit()
+    assert "lat must be a number (got 'abc')" in window.station_editor.message.text()
+
+
+def test_save_reopen_compare(qtbot, window, tmp_path):
+    _open_and_wait(qtbot, window)
+    edit = window.station_editor.edits["power_day_kw"]
+    with qtbot.waitSignal(window.computer.result, timeout=60_000,
+                          check_params_cb=lambda req, r: req.bearings is None):
+        edit.setText("2.5")
+        edit.editingFinished.emit()
+    target = tmp_path / "sub" / "copy.toml"
+    target.parent.mkdir()
+    assert window._save_to(str(target))
+    assert not window.document.dirty
+    again = load_study(target)  # relative file names were rewritten for the new folder
+    assert again.station.power_day_kw == 2.5
+    orig = load_study(DEMO)
+    assert again.levels == orig.levels and len(again.ground.zones) == len(orig.ground.zones)
+    assert again.interference.neighbours == orig.interference.neighbours
+
+
+def test_units_are_remembered(qtbot, window, tmp_path):
+    _open_and_wait(qtbot, window)
+    window.set_units("mi")
+    assert window.settings.value("units/distance") == "mi"
+    assert "[mi]" in window.radial_table.horizontalHeaderItem(0).text()
+
+
+def test_screenshot_not_blank(qtbot, window):
+    _open_and_wait(qtbot, window)
+    qtbot.wait(50)
+    img = window.grab().toImage()
+    ARTIFACTS.mkdir(exist_ok=True)
+    img.save(str(ARTIFACTS / "main_window.png"))
+    colours = {img.pixel(x, y) for x in range(0, img.width(), 11) for y in range(0, img.height(), 11)}
+    assert len(colours) > 30
+
+
+def test_worker_error_reaches_the_window(qtbot, window, monkeypatch):
+    _open_and_wait(qtbot, window)
+    from mwreach.gui import worker as wk
+
+    def boom(self, *a, **k):
+        raise ValueError("synthetic failure for the test")
+
+    monkeypatch.setattr(wk.Study, "run", boom)
+    monkeypatch.setattr("mwreach.gui.app.QMessageBox.warning", lambda *a, **k: None)
+    with qtbot.waitSignal(window.computer.error, timeout=30_000):
+        window.computer.submit(window.document.spec)
+    assert "synthetic failure" in window.error_label.text()
