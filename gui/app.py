@@ -109,6 +109,8 @@ class MainWindow(QMainWindow):
         self.results_tabs.addTab(self.profile, "Field along a bearing")
         self.results_tabs.addTab(self.pattern, "Antenna pattern")
         self.results_tabs.addTab(self.interference_table, "Interference checks")
+        self._stale_views: set[int] = set()
+        self.results_tabs.currentChanged.connect(self._refresh_view)
         rdock = QDockWidget("Results", self)
         rdock.setObjectName("results")
         rdock.setWidget(self.results_tabs)
@@ -282,10 +284,24 @@ class MainWindow(QMainWindow):
         if req.bearings is None:
             self._on_idle()
             self.full_result = result
-            self.radial_table.show_result(result, self.units)
-            self.profile.show_result(result, self.units, self.field_units)
-            self.pattern.show_result(result)
-            self.interference_table.show_result(result)
+            self._stale_views = set(range(self.results_tabs.count()))
+            self._refresh_view(self.results_tabs.currentIndex())
+
+    def _refresh_view(self, index: int):
+        """Fill a result view from the latest full result, only when it is shown."""
+        if self.full_result is None or index not in self._stale_views:
+            return
+        self._stale_views.discard(index)
+        r = self.full_result
+        view = self.results_tabs.widget(index)
+        if view is self.radial_table:
+            self.radial_table.show_result(r, self.units)
+        elif view is self.profile:
+            self.profile.show_result(r, self.units, self.field_units)
+        elif view is self.pattern:
+            self.pattern.show_result(r)
+        elif view is self.interference_table:
+            self.interference_table.show_result(r)
 
     def _on_error(self, req, msg):
         self.error_label.setText(msg.splitlines()[0])
@@ -330,14 +346,17 @@ class MainWindow(QMainWindow):
         self.settings.setValue("units/distance", units)
         self.map.set_units(units)
         if self.full_result is not None:
-            self.radial_table.show_result(self.full_result, units)
-            self.profile.show_result(self.full_result, units)
+            self._stale_views |= {self.results_tabs.indexOf(self.radial_table),
+                                  self.results_tabs.indexOf(self.profile)}
+            self._refresh_view(self.results_tabs.currentIndex())
 
     def set_field_units(self, units: str):
         self.field_units = units
         self.settings.setValue("units/field", units)
+        self.profile.field_units = units
         if self.full_result is not None:
-            self.profile.show_result(self.full_result, field_units=units)
+            self._stale_views.add(self.results_tabs.indexOf(self.profile))
+            self._refresh_view(self.results_tabs.currentIndex())
 
     def show_cautions(self):
         QMessageBox.information(self, "Cautions", CAUTIONS)

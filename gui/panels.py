@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import Qt
+from PySide6.QtCore import QAbstractTableModel, QModelIndex, QSortFilterProxyModel, Qt
 from PySide6.QtGui import QColor
 from PySide6.QtWidgets import (
     QComboBox,
@@ -17,6 +17,7 @@ from PySide6.QtWidgets import (
     QLineEdit,
     QPushButton,
     QSpinBox,
+    QTableView,
     QTableWidget,
     QTableWidgetItem,
     QVBoxLayout,
@@ -436,15 +437,76 @@ class NightEditor(_Editor):
 
 # --- result views ---------------------------------------------------------------------------
 
-class RadialTable(QTableWidget):
-    """Bearing × level distances, in km or mi."""
+class RowsModel(QAbstractTableModel):
+    """A read-only table model over Python rows (lazy: Qt asks only for visible cells)."""
 
     def __init__(self, parent=None):
         super().__init__(parent)
+        self.headers: list[str] = []
+        self.row_headers: list[str] | None = None
+        self.rows: list[tuple] = []
+        self.sort_keys: list[tuple] = []
+        self.bad: list[bool] = []
+
+    def set_rows(self, headers, rows, row_headers=None, sort_keys=None, bad=None):
+        self.beginResetModel()
+        self.headers, self.rows, self.row_headers = list(headers), list(rows), row_headers
+        self.sort_keys = list(sort_keys) if sort_keys is not None else list(rows)
+        self.bad = list(bad) if bad is not None else [False] * len(self.rows)
+        self.endResetModel()
+
+    def rowCount(self, parent=QModelIndex()):  # noqa: N802 - Qt API
+        return 0 if parent.isValid() else len(self.rows)
+
+    def columnCount(self, parent=QModelIndex()):  # noqa: N802
+        return 0 if parent.isValid() else len(self.headers)
+
+    def data(self, index, role=Qt.DisplayRole):
+        if not index.isValid():
+            return None
+        if role == Qt.DisplayRole:
+            return self.rows[index.row()][index.column()]
+        if role == Qt.UserRole:
+            return self.sort_keys[index.row()][index.column()]
+        if role == Qt.ForegroundRole and self.bad[index.row()]:
+            return QColor("#b00020")
+        return None
+
+    def headerData(self, section, orientation, role=Qt.DisplayRole):  # noqa: N802
+        if role != Qt.DisplayRole:
+            return None
+        if orientation == Qt.Horizontal:
+            return self.headers[section] if section < len(self.headers) else None
+        if self.row_headers is not None and section < len(self.row_headers):
+            return self.row_headers[section]
+        return str(section + 1)
+
+
+class _RowsView(QTableView):
+    def __init__(self, sortable: bool, parent=None):
+        super().__init__(parent)
+        self.model_ = RowsModel(self)
+        if sortable:
+            self.proxy = QSortFilterProxyModel(self)
+            self.proxy.setSourceModel(self.model_)
+            self.proxy.setSortRole(Qt.UserRole)
+            self.setModel(self.proxy)
+            self.setSortingEnabled(True)
+        else:
+            self.setModel(self.model_)
+        self.setEditTriggers(QTableView.NoEditTriggers)
+
+    def rowCount(self) -> int:  # noqa: N802 - mirrors QTableWidget for callers and tests
+        return self.model_.rowCount()
+
+
+class RadialTable(_RowsView):
+    """Bearing × level distances, in km or mi."""
+
+    def __init__(self, parent=None):
+        super().__init__(False, parent)
         self.units = "km"
         self.result = None
-        self.setEditTriggers(QTableWidget.NoEditTriggers)
-        self.setSortingEnabled(False)
 
     def show_result(self, result, units: str | None = None):
         self.result = result
@@ -452,21 +514,24 @@ class RadialTable(QTableWidget):
         f = 1.0 if self.units == "km" else 1 / KM_PER_MI
         cs = result.contours
         b = result.radials.bearings_deg
-        self.setColumnCount(len(cs))
-        self.setRowCount(b.size)
-        self.setHorizontalHeaderLabels([f"{c.level_mv_m:g} mV/m [{self.units}]" for c in cs])
-        self.setVerticalHeaderLabels([f"{x:g}°" for x in b])
-        for j, c in enumerate(cs):
-            for i in range(b.size):
+        rows = []
+        for i in range(b.size):
+            row = []
+            for c in cs:
                 d = c.first_km[i]
-                text = "n/r" if np.isnan(d) else (f">{result.max_km * f:.1f}" if np.isinf(d)
-                                                   else f"{d * f:.2f}" + ("*" if c.further[i] else ""))
-                self.setItem(i, j, QTableWidgetItem(text))
+                row.append("n/r" if np.isnan(d) else (f">{result.max_km * f:.1f}" if np.isinf(d)
+                           else f"{d * f:.2f}" + ("*" if c.further[i] else "")))
+            rows.append(tuple(row))
+        self.model_.set_rows([f"{c.level_mv_m:g} mV/m [{self.units}]" for c in cs], rows,
+                             [f"{x:g}°" for x in b])
+
+    def header_text(self, column: int) -> str:
+        return self.model_.headers[column]
 
     def cell_value(self, bearing_deg: float, level_index: int) -> str:
         b = self.result.radials.bearings_deg
         i = int(np.flatnonzero(np.isclose(b, bearing_deg))[0])
-        return self.item(i, level_index).text()
+        return self.model_.rows[i][level_index]
 
 
 class ProfilePlot(QWidget):
@@ -574,35 +639,28 @@ class PatternPlot(QWidget):
         self.vert.plot(el, st.antenna.field_mv_m(az_max, el, p), pen=pg.mkPen("#2166ac", width=2))
 
 
-class InterferenceTable(QTableWidget):
-    """Every D/U check with its margin; sortable; failures in red."""
+class InterferenceTable(_RowsView):
+    """Every D/U check with its margin; sortable (worst first); failures in red."""
 
     HEAD = ["Check", "Neighbour", "Offset", "Bearing°", "Lat", "Lon", "Wanted dBµV/m",
             "Unwanted dBµV/m", "Ratio dB", "Margin dB", "Result"]
 
     def __init__(self, parent=None):
-        super().__init__(0, len(self.HEAD), parent)
-        self.setHorizontalHeaderLabels(self.HEAD)
-        self.setEditTriggers(QTableWidget.NoEditTriggers)
-        self.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeToContents)
+        super().__init__(True, parent)
 
     def show_result(self, result):
-        self.setSortingEnabled(False)
         inter = result.interference
-        rows = inter.rows if inter else ()
-        self.setRowCount(len(rows))
-        for i, r in enumerate(rows):
-            vals = [r.kind, r.neighbour, r.offset_channels, r.bearing_deg, r.lat, r.lon,
+        rows, keys, bad = [], [], []
+        for r in (inter.rows if inter else ()):
+            vals = (r.kind, r.neighbour, r.offset_channels, r.bearing_deg, r.lat, r.lon,
                     r.wanted_dbu, r.unwanted_dbu, r.ratio_db, r.margin_db,
-                    "pass" if r.passed else "FAILS"]
-            for j, v in enumerate(vals):
-                item = QTableWidgetItem()
-                if isinstance(v, (int, float)):
-                    item.setData(Qt.DisplayRole, round(float(v), 4 if j in (4, 5) else 2))
-                else:
-                    item.setText(str(v))
-                if not r.passed:
-                    item.setForeground(QColor("#b00020"))
-                self.setItem(i, j, item)
-        self.setSortingEnabled(True)
-        self.sortItems(9, Qt.AscendingOrder)
+                    "pass" if r.passed else "FAILS")
+            keys.append(vals)
+            rows.append(tuple(f"{v:.4f}" if j in (4, 5) else f"{v:.2f}" if isinstance(v, float)
+                              else str(v) for j, v in enumerate(vals)))
+            bad.append(not r.passed)
+        order = sorted(range(len(rows)), key=lambda i: keys[i][9])  # worst margin first
+        self.proxy.sort(-1)  # no re-sort by the proxy on reset: rows arrive sorted
+        self.model_.set_rows(self.HEAD, [rows[i] for i in order],
+                             sort_keys=[keys[i] for i in order], bad=[bad[i] for i in order])
+        self.horizontalHeader().setSortIndicator(9, Qt.AscendingOrder)

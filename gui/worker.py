@@ -64,10 +64,14 @@ class Worker(QObject):
             self.cancelled.emit(req.req_id)
             return
 
+        step = [0]
+
         def tick(done, total):
             if self._stale(req.req_id):
                 raise Cancelled
-            self.progress.emit(req.req_id, done, total)
+            if done * 20 // total > step[0] or done == total:  # about 20 updates per run
+                step[0] = done * 20 // total
+                self.progress.emit(req.req_id, done, total)
 
         try:
             result = Study(req.spec).run(bearings=req.bearings, progress=tick,
@@ -137,7 +141,7 @@ class Computer(QObject):
     def _collect(self):
         if not self._requests:
             gc.enable()
-            gc.collect()
+            gc.collect(1)  # the young generations: cheap; older ones follow automatically
 
     def _on_finished(self, req_id, result):
         req = self._requests.pop(req_id, None)

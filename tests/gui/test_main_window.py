@@ -53,7 +53,10 @@ def test_radial_table_matches_study(qtbot, window):
             expected = f"{d:.2f}" + ("*" if c.further[i] else "")
             assert window.radial_table.cell_value(bearing, k) == expected
     assert res.interference is not None
+    window.results_tabs.setCurrentWidget(window.interference_table)  # filled when shown
     assert window.interference_table.rowCount() == len(res.interference.rows)
+    first = window.interference_table.model().index(0, 9).data()
+    assert float(first) == pytest.approx(min(r.margin_db for r in res.interference.rows), abs=0.01)
 
 
 def test_drag_site_moves_contours(qtbot, window):
@@ -119,7 +122,7 @@ def test_units_are_remembered(qtbot, window, tmp_path):
     _open_and_wait(qtbot, window)
     window.set_units("mi")
     assert window.settings.value("units/distance") == "mi"
-    assert "[mi]" in window.radial_table.horizontalHeaderItem(0).text()
+    assert "[mi]" in window.radial_table.header_text(0)
 
 
 def test_screenshot_not_blank(qtbot, window):
