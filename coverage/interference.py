@@ -25,6 +25,7 @@ from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
 from .mixedpath import path_field_db
 from .skywave import sky_field_dbu, sky_path
+from .station import Station
 from .validate import check_finite, check_keys, where_join
 
 __all__ = [
@@ -155,16 +156,9 @@ class NightSettings:
 
 
 @dataclass(frozen=True)
-class Neighbour:
+class Neighbour(Station):
     """A neighbouring station to protect and to be protected from."""
 
-    name: str
-    lat: float
-    lon: float
-    freq_khz: float
-    power_day_kw: float
-    power_night_kw: float
-    antenna: Array
     protected_day_mv_m: float = 0.5  # daytime protected contour (methods.md §5, US practice)
     protected_night_mv_m: float = 2.0  # night protected service contour (common practice)
     antenna_desc: dict = field(default_factory=dict, compare=False, repr=False)

@@ -30,6 +30,7 @@ from .interference import (
 from .ground import Ground, GroundMap, ground_class, load_zones
 from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ, model
 from .mixedpath import METHODS
+from .station import Station
 from .validate import check_finite, check_keys, where_join
 
 __all__ = [
@@ -68,19 +69,6 @@ class Level:
     @property
     def text(self) -> str:
         return self.label or f"{self.field_mv_m:g} mV/m"
-
-
-@dataclass(frozen=True)
-class Station:
-    """The proposed station: site, frequency, powers and antenna."""
-
-    name: str
-    lat: float
-    lon: float
-    freq_khz: float
-    power_day_kw: float
-    power_night_kw: float
-    antenna: Array
 
 
 @dataclass(frozen=True)

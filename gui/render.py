@@ -149,28 +149,25 @@ def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions):
     font.setPointSizeF(opts.font_pt * 0.85)
     p.setFont(font)
     dec = max(0, -int(math.floor(math.log10(step))) if step < 1 else 0)
-    for la in np.arange(math.floor(lat0 / step) * step, lat1 + step, step):
-        lons = np.linspace(lon0, lon1, 60)
-        x, y = proj.to_xy(lons, np.full(lons.shape, la))
-        p.setPen(pen)
-        p.drawPath(_line_path(np.column_stack([x, y]), view))
-        dx, dy = view.to_dev(x, y)
-        inside = (dy > view.rect.top() + 8) & (dy < view.rect.bottom() - 8)
-        if inside.any():
-            p.setPen(QColor(80, 80, 80))
-            p.drawText(QPointF(view.rect.left() + 2 * opts.line_scale, float(dy[inside][0]) - 2),
-                       f"{abs(la):.{dec}f}°{'N' if la >= 0 else 'S'}")
-    for lo in np.arange(math.floor(lon0 / step) * step, lon1 + step, step):
-        lats = np.linspace(lat0, lat1, 60)
-        x, y = proj.to_xy(np.full(lats.shape, lo), lats)
-        p.setPen(pen)
-        p.drawPath(_line_path(np.column_stack([x, y]), view))
-        dx, dy = view.to_dev(x, y)
-        inside = (dx > view.rect.left() + 30) & (dx < view.rect.right() - 30)
-        if inside.any():
-            p.setPen(QColor(80, 80, 80))
-            p.drawText(QPointF(float(dx[inside][0]) + 2, view.rect.bottom() - 3 * opts.line_scale),
-                       f"{abs(lo):.{dec}f}°{'E' if lo >= 0 else 'W'}")
+    for is_lat, lo, hi, olo, ohi in ((True, lat0, lat1, lon0, lon1), (False, lon0, lon1, lat0, lat1)):
+        for v in np.arange(math.floor(lo / step) * step, hi + step, step):
+            other = np.linspace(olo, ohi, 60)
+            fixed = np.full(other.shape, v)
+            x, y = proj.to_xy(other, fixed) if is_lat else proj.to_xy(fixed, other)
+            p.setPen(pen)
+            p.drawPath(_line_path(np.column_stack([x, y]), view))
+            dx, dy = view.to_dev(x, y)
+            if is_lat:  # labels on the left edge
+                inside = (dy > view.rect.top() + 8) & (dy < view.rect.bottom() - 8)
+                at = QPointF(view.rect.left() + 2 * opts.line_scale, float(dy[inside][0]) - 2) if inside.any() else None
+                text = f"{abs(v):.{dec}f}°{'N' if v >= 0 else 'S'}"
+            else:  # labels along the bottom edge
+                inside = (dx > view.rect.left() + 30) & (dx < view.rect.right() - 30)
+                at = QPointF(float(dx[inside][0]) + 2, view.rect.bottom() - 3 * opts.line_scale) if inside.any() else None
+                text = f"{abs(v):.{dec}f}°{'E' if v >= 0 else 'W'}"
+            if at is not None:
+                p.setPen(QColor(80, 80, 80))
+                p.drawText(at, text)
 
 
 def _draw_scale_bar(p: QPainter, view: View, opts: MapOptions):
@@ -257,9 +254,10 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         p.setPen(QPen(QColor(60, 60, 60), 1.0 * s, Qt.DashLine))
         p.setBrush(QColor(255, 255, 255, 70))
         p.drawPath(_path_from_geom(g, view))
-        c = g.representative_point()
-        cx, cy = view.to_dev(c.x, c.y)
-        _label(p, float(cx), float(cy), spec.community.name, QColor(40, 40, 40), opts)
+        x0, y0, x1, _ = g.bounds  # name under the boundary, clear of the site label above it
+        cx, cy = view.to_dev((x0 + x1) / 2, y0)
+        _label(p, float(cx), float(cy) + opts.font_pt * 1.6 * s, spec.community.name,
+               QColor(40, 40, 40), opts)
 
     if opts.contours:
         n = len(result.contours)
@@ -285,6 +283,24 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         p.setPen(QPen(QColor(NIGHT_COLOUR), 1.4 * s, Qt.DashDotLine))
         p.setBrush(Qt.NoBrush)
         p.drawPath(_path_from_geom(inter.night.polygon_xy, view))
+
+    if opts.neighbours and inter is not None:
+        # neighbours' protected contours, through the check points that lie on them
+        groups: dict = {}
+        for r in inter.rows:
+            if r.kind in ("day caused", "night caused"):
+                groups.setdefault((r.neighbour, r.kind), []).append((r.bearing_deg, r.lat, r.lon))
+        for (name, kind), pts in groups.items():
+            if len(pts) < 3:
+                continue
+            pts.sort()
+            lat = np.array([a for _, a, _ in pts] + [pts[0][1]])
+            lon = np.array([b for _, _, b in pts] + [pts[0][2]])
+            x, y = proj.to_xy(lon, lat)
+            style = Qt.DashLine if kind == "night caused" else Qt.SolidLine
+            p.setPen(QPen(QColor(70, 70, 70, 170), 0.8 * s, style))
+            p.setBrush(Qt.NoBrush)
+            p.drawPath(_line_path(np.column_stack([x, y]), view))
 
     if opts.neighbours and spec.interference is not None:
         font = QFont("DejaVu Sans", 1)
@@ -366,6 +382,11 @@ def draw_legend(p: QPainter, rect: QRectF, result, opts: MapOptions) -> float:
         p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
         p.setPen(Qt.black)
         p.drawText(QPointF(x + 24 * s, y), "night service contour (night limit)")
+        y += line
+        p.setPen(QPen(QColor(70, 70, 70), 1.0 * s))
+        p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
+        p.setPen(Qt.black)
+        p.drawText(QPointF(x + 24 * s, y), "neighbour protected contour (day; night dashed)")
         if any(not r.passed for r in inter.rows):
             y += line
             p.setPen(QPen(QColor(FAIL_COLOUR), 1.6 * s))

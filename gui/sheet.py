@@ -210,7 +210,7 @@ def _page_map(doc: _Doc, result):
     # two maps side by side: the whole study (lowest level) and a detail around the site
     gap = 6 * PT
     w = (map_rect.width() - gap) / 2
-    h = min(w * 1.25, map_rect.height())
+    h = min(w * 1.4, map_rect.height())
     overview = QRectF(map_rect.left(), map_rect.top(), w, h)
     detail = QRectF(map_rect.left() + w + gap, map_rect.top(), w, h)
     detail_level = 1 if len(result.contours) > 2 else 0
