@@ -14,7 +14,7 @@ import numpy as np
 
 from mwreach.coverage.antenna import Array, Tower
 from mwreach.coverage.geodesy import fwd_points
-from mwreach.coverage.interference import Neighbour, run_interference
+from mwreach.coverage.interference import Neighbour, ProtectionTable, run_interference
 from mwreach.coverage.study import load_study
 
 DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
@@ -34,11 +34,14 @@ def main():
                                night=dataclasses.replace(spec.interference.night,
                                                          bearing_step_deg=1.0))
     spec = dataclasses.replace(spec, interference=plan)
-    for label, fn in (("night + day interference, 50 neighbours, 360 bearings",
-                       lambda: run_interference(spec, plan)),):
+    night_only = dataclasses.replace(plan, protection=ProtectionTable(
+        ratios={k: v for k, v in plan.protection.ratios.items() if k[0] == "night"}))
+    for label, p in (("night only (limit, night contour, caused sky wave)", night_only),
+                     ("night and day interference", plan)):
         t0 = time.perf_counter()
-        res = fn()
-        print(f"{label}: {time.perf_counter() - t0:.2f} s ({len(res.rows)} check points)")
+        res = run_interference(spec, p)
+        print(f"{label}, 50 neighbours, 360 bearings: {time.perf_counter() - t0:.2f} s "
+              f"({len(res.rows)} check points)")
     from mwreach.coverage.interference import night_service
 
     t0 = time.perf_counter()

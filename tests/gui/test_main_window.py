@@ -147,3 +147,20 @@ def test_worker_error_reaches_the_window(qtbot, window, monkeypatch):
     with qtbot.waitSignal(window.computer.error, timeout=30_000):
         window.computer.submit(window.document.spec)
     assert "synthetic failure" in window.error_label.text()
+
+
+def test_cli_screenshot(tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    out = tmp_path / "window.png"
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen")
+    proc = subprocess.run([sys.executable, "-m", "mwreach.coverage.cli", "gui", str(DEMO),
+                           "--screenshot", str(out)], env=env, capture_output=True, text=True,
+                          timeout=180)
+    assert proc.returncode == 0, proc.stderr
+    from PySide6.QtGui import QImage
+
+    img = QImage(str(out))
+    assert img.width() > 800 and img.height() > 500
