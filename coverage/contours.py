@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .geodesy import LocalProjection, geodesic_area_km2
-from .ground import GroundMap, Section
+from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
 from .mixedpath import path_field_db
 
@@ -97,7 +97,7 @@ def radial_fields(
     sections = ground_map.radial_sections(lat, lon, bearings, max_km)
     out = np.empty((bearings.size, d.size))
     for g in {s.ground.key: s.ground for secs in sections for s in secs}.values():
-        model(freq_khz, g, earth_k).table  # build each curve once, up front
+        _ = model(freq_khz, g, earth_k).table  # build each curve once, up front
     for i, secs in enumerate(sections):
         out[i] = path_field_db(method, secs, d, freq_khz, earth_k) + mv_m_to_dbu(e1[i])
         if progress is not None:

@@ -15,7 +15,7 @@ import numpy as np
 
 from .study import StudyResult
 
-__all__ = ["KM_PER_MI", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
+__all__ = ["KM_PER_MI", "version", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
            "contours_kml", "atomic_write"]
 
 KM_PER_MI = 1.609344
@@ -50,7 +50,7 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
     spec = result.spec
     st = spec.station
     out = {
-        "mwreach_version": _version(),
+        "mwreach_version": version(),
         "created": result.created,
         "study_file": spec.path,
         "title": spec.title,
@@ -91,11 +91,13 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
     return out
 
 
-def _version() -> str:
-    from importlib.metadata import PackageNotFoundError, version
+def version() -> str:
+    """The installed mwreach version ("unknown" when running from an uninstalled tree)."""
+    from importlib.metadata import PackageNotFoundError
+    from importlib.metadata import version as dist_version
 
     try:
-        return version("mwreach")
+        return dist_version("mwreach")
     except PackageNotFoundError:  # running from a source tree without install
         return "unknown"
 

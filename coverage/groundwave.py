@@ -391,7 +391,7 @@ class GroundWaveModel:
                 continue
             j = int(np.argmax(f_grid < tg))
             out[i] = optimize.brentq(
-                lambda dd: float(self.field_dbu(dd, e1km_mv_m)) - tg,
+                lambda dd, tg=tg: float(self.field_dbu(dd, e1km_mv_m)) - tg,
                 grid[j - 1],
                 grid[j],
                 xtol=1e-6,

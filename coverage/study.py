@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .antenna import Array, array_from_table, array_to_table
+from .antenna import array_from_table, array_to_table
 from .contours import LevelContour, RadialFields, level_contour, radial_fields
 from .geodesy import check_site, local_projection
 from .interference import (
@@ -442,7 +442,7 @@ class StudyResult:
     interference: InterferenceResult | None = None
 
     def level_rows(self) -> list[dict]:
-        """One summary row per level (distances over the regular bearings)."""
+        """One summary row per level (distance statistics over all computed bearings)."""
         rows = []
         for c in self.contours:
             finite = c.first_km[np.isfinite(c.first_km)]

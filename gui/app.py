@@ -362,10 +362,10 @@ class MainWindow(QMainWindow):
         QMessageBox.information(self, "Cautions", CAUTIONS)
 
     def show_about(self):
-        from mwreach.coverage.export import _version
+        from mwreach.coverage.export import version
 
         QMessageBox.about(self, "About mwreach",
-                          f"mwreach {_version()}\nMedium-wave coverage and interference "
+                          f"mwreach {version()}\nMedium-wave coverage and interference "
                           "estimates.\n\n" + CAUTIONS)
 
 

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
+from PySide6.QtGui import QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
 
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.geodesy import local_projection
@@ -290,7 +290,7 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         for r in inter.rows:
             if r.kind in ("day caused", "night caused"):
                 groups.setdefault((r.neighbour, r.kind), []).append((r.bearing_deg, r.lat, r.lon))
-        for (name, kind), pts in groups.items():
+        for (_name, kind), pts in groups.items():
             if len(pts) < 3:
                 continue
             pts.sort()

@@ -13,7 +13,7 @@ import numpy as np
 from PySide6.QtCore import QMarginsF, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QPageLayout, QPageSize, QPainter, QPdfWriter, QPen
 
-from mwreach.coverage.export import KM_PER_MI, _version
+from mwreach.coverage.export import KM_PER_MI, version
 from mwreach.coverage.geodesy import dms
 from mwreach.coverage.interference import describe_max_power
 
@@ -102,7 +102,7 @@ class _Doc:
         self.writer.setPageLayout(QPageLayout(size, orient, QMarginsF(12, 12, 12, 12),
                                               QPageLayout.Millimeter))
         self.writer.setTitle(title)
-        self.writer.setCreator(f"mwreach {_version()}")
+        self.writer.setCreator(f"mwreach {version()}")
         self.painter = QPainter(self.writer)
         r = self.writer.pageLayout().paintRectPixels(DPI)
         self.page = QRectF(0, 0, r.width(), r.height())
@@ -127,7 +127,7 @@ class _Doc:
         r = QRectF(self.page.left(), self.page.bottom() - 12 * PT, self.page.width(), 12 * PT)
         self.painter.setPen(QPen(QColor(120, 120, 120), 0.5 * PT))
         self.painter.drawLine(QPointF(r.left(), r.top()), QPointF(r.right(), r.top()))
-        self.text(r.adjusted(0, 2 * PT, 0, 0), f"{title} — mwreach {_version()} — planning "
+        self.text(r.adjusted(0, 2 * PT, 0, 0), f"{title} — mwreach {version()} — planning "
                   "estimate, see cautions", 7, flags=Qt.AlignLeft | Qt.AlignVCenter)
         self.text(r.adjusted(0, 2 * PT, 0, 0), f"Page {n} of {total}", 7,
                   flags=Qt.AlignRight | Qt.AlignVCenter)
@@ -166,7 +166,7 @@ def _title_block(doc: _Doc, rect: QRectF, result) -> None:
         f"Site (WGS84): {st.lat:.5f}, {st.lon:.5f}",
         f"{dms(st.lat, 'N', 'S')}, {dms(st.lon, 'E', 'W')}",
         f"Study date: {result.created}",
-        f"mwreach {_version()}; file {pathlib.Path(spec.path).name}",
+        f"mwreach {version()}; file {pathlib.Path(spec.path).name}",
     ]
     col = inner.adjusted(0, h + 2 * PT, 0, 0)
     half = col.width() / 2
@@ -340,7 +340,7 @@ def _page_night(doc: _Doc, result):
                 f"{row['lat']:.3f}, {row['lon']:.3f}"]
         x = page.left()
         doc.font(7.5, not row["passed"])
-        for (name, w), v in zip(cols, vals):
+        for (_name, w), v in zip(cols, vals):
             p.setPen(QColor("#d7191c") if not row["passed"] else Qt.black)
             p.drawText(QRectF(x, y, w * page.width(), 10 * PT), Qt.AlignLeft | Qt.AlignVCenter, v)
             x += w * page.width()

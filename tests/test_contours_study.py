@@ -3,7 +3,6 @@
 import csv
 import json
 import pathlib
-import shutil
 
 import numpy as np
 import pytest
@@ -112,11 +111,9 @@ def test_bearings_include_extra_ones():
     assert 137.5 in spec.bearings and spec.bearings.size == 361
 
 
-def test_spec_round_trip(tmp_path):
+def test_spec_round_trip(demo_copy):
     spec = load_study(DEMO)
-    for name in ("zones.geojson", "community.geojson", "neighbours.csv", "varnholt_array.toml"):
-        shutil.copy(DEMO.parent / name, tmp_path / name)
-    f = tmp_path / "copy.toml"
+    f = demo_copy / "copy.toml"
     f.write_text(spec_to_toml(spec))
     again = load_study(f)
     assert again.station.lat == spec.station.lat and again.levels == spec.levels
@@ -150,18 +147,15 @@ def _study_text(**replace):
         ("title =", "title = = ", r"bad.toml: .*line 5"),
     ],
 )
-def test_study_errors_name_key_and_file(tmp_path, old, new, needle):
-    for name in ("zones.geojson", "community.geojson", "neighbours.csv", "varnholt_array.toml"):
-        shutil.copy(DEMO.parent / name, tmp_path / name)
-    f = tmp_path / "bad.toml"
+def test_study_errors_name_key_and_file(demo_copy, old, new, needle):
+    f = demo_copy / "bad.toml"
     f.write_text(_study_text(**{old: new}))
     with pytest.raises(ValueError, match=needle):
         load_study(f)
 
 
-def test_cli_run_writes_outputs(tmp_path, capsys):
-    assert cli.main(["run", str(DEMO), "--out", str(tmp_path)]) == 0
-    text = capsys.readouterr().out
+def test_cli_run_writes_outputs(demo_run):
+    tmp_path, text = demo_run
     assert "0.5 mV/m protected" in text and "licensed engineer" in text
     summary = json.loads((tmp_path / "summary.json").read_text())
     assert summary["station"]["freq_khz"] == 1390.0

@@ -4,12 +4,10 @@ import csv
 import dataclasses
 import json
 import pathlib
-import shutil
 
 import numpy as np
 import pytest
 
-from mwreach.coverage import cli
 from mwreach.coverage.antenna import Array, Tower
 from mwreach.coverage.ground import GroundMap, ground_class
 from mwreach.coverage.interference import (
@@ -139,9 +137,8 @@ def test_neighbours_csv_errors(tmp_path):
         read_neighbours_csv(f)
 
 
-def test_demo_night_outputs(tmp_path, capsys):
-    assert cli.main(["run", str(DEMO), "--out", str(tmp_path)]) == 0
-    text = capsys.readouterr().out
+def test_demo_night_outputs(demo_run):
+    tmp_path, text = demo_run
     assert "Maximum night power" in text and "Thistlebury Radio" in text
     night = json.loads((tmp_path / "night.json").read_text())
     assert len(night["bearings"]) == 72
@@ -158,11 +155,9 @@ def test_demo_night_outputs(tmp_path, capsys):
     assert gj["features"][-1]["properties"]["kind"] == "night service"
 
 
-def test_study_interference_errors(tmp_path):
-    for name in ("zones.geojson", "community.geojson", "neighbours.csv", "varnholt_array.toml"):
-        shutil.copy(DEMO.parent / name, tmp_path / name)
+def test_study_interference_errors(demo_copy):
     text = DEMO.read_text()
-    bad = tmp_path / "bad.toml"
+    bad = demo_copy / "bad.toml"
     bad.write_text(text.replace('method = "cfr"', 'method = "guess"'))
     with pytest.raises(ValueError, match=r"method must be 'cfr' or 'itu' .*\[night\] of .*bad.toml"):
         load_study(bad)

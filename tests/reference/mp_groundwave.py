@@ -46,7 +46,7 @@ def _roots(q, n, steps=16):
             qq = q * i / steps
             # first-order predictor from the Riccati equation dt/dq = 1/(t − q²)
             t = t + (q / steps) / (t - qq**2)
-            t = mp.findroot(lambda tt: g(tt, qq), t)
+            t = mp.findroot(lambda tt, qq=qq: g(tt, qq), t)
         roots.append(t)
     return roots
 
