@@ -13,7 +13,7 @@ from xml.sax.saxutils import escape
 
 import numpy as np
 
-from .study import StudyResult
+from .study import StudyResult, spec_to_doc
 
 __all__ = ["KM_PER_MI", "version", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
            "contours_kml", "atomic_write"]
@@ -79,6 +79,7 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
             "radial_length_km": result.max_km,
         },
         "community": spec.community.name if spec.community else None,
+        "inputs": spec_to_doc(spec),
         "levels": [{k: (_num(v) if not isinstance(v, str) else v) for k, v in row.items()}
                    for row in result.level_rows()],
         "elapsed_s": result.elapsed_s,
@@ -164,19 +165,28 @@ def _kml_rings(geom) -> str:
     return "<MultiGeometry>" + "".join(out) + "</MultiGeometry>"
 
 
+#: Line colours of the contours in KML (aabbggrr), strongest level first.
+KML_COLOURS = ["ff2b18b2", "ff1482e0", "ff37781b", "ffac6621", "ff832a76", "ff4d4d4d"]
+
+
 def contours_kml(geojson: dict, name: str) -> str:
-    """KML 2.2 document with one Placemark per GeoJSON feature."""
-    marks = []
+    """KML 2.2 document with one Placemark per GeoJSON feature, outlines coloured by level."""
     from shapely.geometry import shape
 
-    for f in geojson["features"]:
+    styles, marks = [], []
+    for i, f in enumerate(geojson["features"]):
         p = f["properties"]
+        night = p.get("kind") == "night service"
+        colour = "ff202020" if night else KML_COLOURS[i % len(KML_COLOURS)]
+        styles.append(f'<Style id="s{i}"><LineStyle><color>{colour}</color><width>2</width>'
+                      "</LineStyle><PolyStyle><fill>0</fill></PolyStyle></Style>")
         title = f"{p.get('label') or p.get('level')} ({p.get('kind', '')})"
-        marks.append(f"<Placemark><name>{escape(str(title))}</name>"
+        marks.append(f"<Placemark><name>{escape(str(title))}</name><styleUrl>#s{i}</styleUrl>"
                      f"<description>{escape(json.dumps(p, ensure_ascii=False))}</description>"
                      f"{_kml_rings(shape(f['geometry']))}</Placemark>")
     return ('<?xml version="1.0" encoding="UTF-8"?>\n<kml xmlns="http://www.opengis.net/kml/2.2">'
-            f"<Document><name>{escape(name)}</name>" + "".join(marks) + "</Document></kml>\n")
+            f"<Document><name>{escape(name)}</name>" + "".join(styles) + "".join(marks)
+            + "</Document></kml>\n")
 
 
 def interference_summary(result: StudyResult) -> dict:

@@ -132,6 +132,8 @@ class _TableEditor(_Editor):
         lay.addWidget(self.message)
 
     def refresh(self):
+        if self.message.text():
+            return  # a refused edit is pending: keep what the user typed in the table
         self._loading = True
         rows = self.rows_from_doc()
         self.table.setRowCount(len(rows))
@@ -149,7 +151,7 @@ class _TableEditor(_Editor):
                 item = self.table.item(i, j)
                 text = item.text().strip() if item else ""
                 if text != "":
-                    row[key] = text if key in ("label", "name") else _number_or_text(text)
+                    row[key] = text if key in ("label", "name", "array") else _number_or_text(text)
             out.append(row)
         return out
 
@@ -202,7 +204,8 @@ class AntennaEditor(_TableEditor):
 
     def refresh(self):
         super().refresh()
-        self.rotation.setText(f"{self.document.spec.station.antenna.rotation_deg:g}")
+        if not self.rotation.styleSheet():
+            self.rotation.setText(f"{self.document.spec.station.antenna.rotation_deg:g}")
 
     def _rotation(self):
         v = _number_or_text(self.rotation.text())
@@ -254,8 +257,9 @@ class GroundEditor(_Editor):
         spec = self.document.spec
         idx = self.preset.findData(g.get("class", ""))
         self.preset.setCurrentIndex(max(idx, 0))
-        self.sigma.setText(f"{spec.ground.default.sigma_ms_m:g}")
-        self.eps.setText(f"{spec.ground.default.eps_r:g}")
+        if not self.sigma.styleSheet():  # keep a refused entry for the user to correct
+            self.sigma.setText(f"{spec.ground.default.sigma_ms_m:g}")
+            self.eps.setText(f"{spec.ground.default.eps_r:g}")
         self.zones_label.setText(g.get("zones", "(none)"))
         zs = spec.ground.zones
         self.zones.setRowCount(len(zs))
@@ -302,41 +306,62 @@ class GroundEditor(_Editor):
             self.apply(lambda d: d.setdefault("ground", {}).__setitem__("zones", rel))
 
 
-class NeighboursEditor(_Editor):
-    COLUMNS = ["Name", "kHz", "Lat", "Lon", "Day kW", "Night kW", "Protected day mV/m",
-               "Protected night mV/m"]
+class NeighboursEditor(_TableEditor):
+    """The study's own ``[[neighbour]]`` tables (editable) and the CSV file's (listed)."""
+
+    COLUMNS = [("name", "Name"), ("lat", "Lat"), ("lon", "Lon"), ("freq_khz", "kHz"),
+               ("power_day_kw", "Day kW"), ("power_night_kw", "Night kW"),
+               ("height_deg", "Height [deg]"), ("array", "Array file"), ("loss_ohm", "Loss [Ω]"),
+               ("protected_day_mv_m", "Protected day mV/m"),
+               ("protected_night_mv_m", "Protected night mV/m")]
 
     def __init__(self, document, parent=None):
         super().__init__(document, parent)
-        lay = QVBoxLayout(self)
-        self.table = QTableWidget(0, len(self.COLUMNS))
-        self.table.setHorizontalHeaderLabels(self.COLUMNS)
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
-        self.table.setEditTriggers(QTableWidget.NoEditTriggers)
-        lay.addWidget(self.table)
-        row = QHBoxLayout()
-        self.source = QLabel()
+        lay = self.layout()
+        lay.insertWidget(0, QLabel("Neighbours in the study file (edit a cell; a row is used once "
+                                   "it is complete):"))
+        self.csv_label = QLabel()
+        self.csv_table = QTableWidget(0, 6)
+        self.csv_table.setHorizontalHeaderLabels(["Name", "kHz", "Lat", "Lon", "Day kW", "Night kW"])
+        self.csv_table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        self.csv_table.setEditTriggers(QTableWidget.NoEditTriggers)
         self.import_btn = QPushButton("Import neighbours CSV…")
         self.import_btn.clicked.connect(self._import)
-        row.addWidget(self.source, 1)
+        row = QHBoxLayout()
+        row.addWidget(self.csv_label, 1)
         row.addWidget(self.import_btn)
         lay.addLayout(row)
+        lay.addWidget(self.csv_table)
         lay.addWidget(QLabel("CSV columns: name, lat, lon, freq_khz, power_day_kw, power_night_kw, "
                              "height_deg | height_m | array, loss_ohm, protected_day_mv_m, "
                              "protected_night_mv_m"))
-        lay.addWidget(self.message)
+
+    def rows_from_doc(self):
+        return [dict(t) for t in self.document.doc.get("neighbour", [])]
+
+    def write_rows(self, doc, rows):
+        rows = [r for r in rows if r]  # a fresh empty row is not a neighbour yet
+        if rows:
+            doc["neighbour"] = rows
+        else:
+            doc.pop("neighbour", None)
 
     def refresh(self):
+        super().refresh()
+        self._refresh_csv()
+
+    def _refresh_csv(self):
         plan = self.document.spec.interference
-        nbs = plan.neighbours if plan else ()
-        self.table.setRowCount(len(nbs))
-        for i, n in enumerate(nbs):
+        own = {t.get("name") for t in self.document.doc.get("neighbour", [])}
+        listed = [n for n in (plan.neighbours if plan else ()) if n.name not in own]
+        self.csv_table.setRowCount(len(listed))
+        for i, n in enumerate(listed):
             vals = [n.name, f"{n.freq_khz:g}", f"{n.lat:.4f}", f"{n.lon:.4f}", f"{n.power_day_kw:g}",
-                    f"{n.power_night_kw:g}", f"{n.protected_day_mv_m:g}", f"{n.protected_night_mv_m:g}"]
+                    f"{n.power_night_kw:g}"]
             for j, v in enumerate(vals):
-                self.table.setItem(i, j, QTableWidgetItem(v))
+                self.csv_table.setItem(i, j, QTableWidgetItem(v))
         f = plan.neighbours_file if plan else ""
-        self.source.setText(f"CSV file: {f}" if f else "No neighbours CSV file")
+        self.csv_label.setText(f"From CSV file {f}:" if f else "No neighbours CSV file")
 
     def import_csv(self, path: str) -> bool:
         import os
@@ -398,7 +423,8 @@ class NightEditor(_Editor):
         self.method.setCurrentIndex(self.method.findData(n.method))
         self.percent.setCurrentIndex(self.percent.findData(n.percent))
         self.exclusion.setCurrentIndex(self.exclusion.findData(n.exclusion_percent))
-        self.floor.setText(f"{n.floor_mv_m:g}")
+        if not self.floor.styleSheet():  # keep a refused entry for the user to correct
+            self.floor.setText(f"{n.floor_mv_m:g}")
         for r, period in enumerate(("day", "night")):
             for c in range(4):
                 v = plan.protection.ratios.get((period, c))

@@ -164,3 +164,43 @@ def test_cli_screenshot(tmp_path):
 
     img = QImage(str(out))
     assert img.width() > 800 and img.height() > 500
+
+
+def test_neighbour_table_edit_and_csv_import(qtbot, window, demo_copy):
+    _open_and_wait(qtbot, window)
+    ed = window.neighbours_editor
+    n_before = len(window.document.spec.interference.neighbours)
+    # a new row is refused until complete, and what was typed stays
+    ed._add()
+    row = ed.table.rowCount() - 1
+    from PySide6.QtWidgets import QTableWidgetItem
+
+    ed.table.setItem(row, 0, QTableWidgetItem("Test Neighbour"))
+    assert "missing key 'lat'" in ed.message.text()
+    assert ed.table.item(row, 0).text() == "Test Neighbour"
+    for col, v in ((1, "39.0"), (2, "-48.0"), (3, "1390"), (4, "1"), (6, "90")):
+        ed.table.setItem(row, col, QTableWidgetItem(v))
+    assert ed.message.text() == ""
+    names = [n.name for n in window.document.spec.interference.neighbours]
+    assert "Test Neighbour" in names and len(names) == n_before + 1
+    # importing another CSV replaces the file's neighbours
+    csv = demo_copy / "other.csv"
+    csv.write_text("name,lat,lon,freq_khz,power_day_kw,height_deg\nFar Away,45,-40,1390,1,90\n")
+    assert ed.import_csv(str(csv))
+    names = [n.name for n in window.document.spec.interference.neighbours]
+    assert "Far Away" in names and "Sennick Coast AM" not in names
+
+
+def test_refused_table_edit_survives_other_edits(qtbot, window):
+    _open_and_wait(qtbot, window)
+    from PySide6.QtWidgets import QTableWidgetItem
+
+    lv = window.levels_editor
+    lv.table.setItem(0, 0, QTableWidgetItem("-5"))
+    assert "field_mv_m must be" in lv.message.text()
+    # a valid edit elsewhere refreshes the editors; the refused cell keeps what was typed
+    edit = window.station_editor.edits["power_night_kw"]
+    edit.setText("0.3")
+    edit.editingFinished.emit()
+    assert window.document.spec.station.power_night_kw == 0.3
+    assert lv.table.item(0, 0).text() == "-5"
