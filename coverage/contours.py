@@ -246,16 +246,20 @@ def level_contour(
     return LevelContour(float(level_mv_m), label, first, further, poly, poly_ll, area, share)
 
 
-def field_raster(radials: RadialFields, extent_km: float, n: int = 201):
+def field_raster(radials: RadialFields, extent_km: float, n: int = 201, centre_km=(0.0, 0.0),
+                 half_km: float | None = None):
     """Field [dBµV/m] on a regular (x, y) grid [km] in the site's local projection.
 
+    The grid spans ±``extent_km`` around the site (or ±``half_km`` around ``centre_km``).
     Bilinear interpolation of the radial fields in (bearing, distance); NaN inside one
     wavelength and beyond the radials. Returns (x_km (n,), y_km (n,), field (n, n) [y, x]).
     """
     from scipy.interpolate import RegularGridInterpolator
 
-    x = np.linspace(-extent_km, extent_km, n)
-    xx, yy = np.meshgrid(x, x)
+    h = extent_km if half_km is None else half_km
+    x = np.linspace(centre_km[0] - h, centre_km[0] + h, n)
+    y = np.linspace(centre_km[1] - h, centre_km[1] + h, n)
+    xx, yy = np.meshgrid(x, y)
     dist = np.hypot(xx, yy)
     brg = np.mod(np.degrees(np.arctan2(xx, yy)), 360.0)
     b = radials.bearings_deg
@@ -266,4 +270,4 @@ def field_raster(radials: RadialFields, extent_km: float, n: int = 201):
     interp = RegularGridInterpolator((b_ext, radials.dist_km), f_ext, bounds_error=False,
                                      fill_value=np.nan)
     vals = interp(np.column_stack([brg.ravel(), dist.ravel()])).reshape(xx.shape)
-    return x, x, vals
+    return x, y, vals

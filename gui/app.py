@@ -146,6 +146,10 @@ class MainWindow(QMainWindow):
         v.addSeparator()
         self.act_km = self._action(v, "Distances in km", lambda: self.set_units("km"))
         self.act_mi = self._action(v, "Distances in mi", lambda: self.set_units("mi"))
+        self.act_shade = self._action(v, "Field shading on the map", self.toggle_shading)
+        self.act_shade.setCheckable(True)
+        self.act_shade.setChecked(self.settings.value("view/shading", "false") == "true")
+        self.map.options.field_shading = self.act_shade.isChecked()
         self.act_dbu = self._action(v, "Fields in dBµV/m", lambda: self.set_field_units("dBu"))
         self.act_mvm = self._action(v, "Fields in mV/m", lambda: self.set_field_units("mV/m"))
         h = mb.addMenu("&Help")
@@ -357,6 +361,12 @@ class MainWindow(QMainWindow):
         if self.full_result is not None:
             self._stale_views.add(self.results_tabs.indexOf(self.profile))
             self._refresh_view(self.results_tabs.currentIndex())
+
+    def toggle_shading(self):
+        on = self.act_shade.isChecked()
+        self.settings.setValue("view/shading", "true" if on else "false")
+        self.map.options.field_shading = on
+        self.map.update()
 
     def show_cautions(self):
         QMessageBox.information(self, "Cautions", CAUTIONS)

@@ -76,6 +76,7 @@ class MapOptions:
     legend: bool = True
     scale_bar: bool = True
     north_arrow: bool = True
+    field_shading: bool = False  # translucent field raster under the contours
     font_pt: float = 8.0
     line_scale: float = 1.0  # device units per point
     distance_units: str = "km"
@@ -149,6 +150,7 @@ def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions):
     font.setPointSizeF(opts.font_pt * 0.85)
     p.setFont(font)
     dec = max(0, -int(math.floor(math.log10(step))) if step < 1 else 0)
+    p.setBrush(Qt.NoBrush)  # graticule lines are open paths: never fill them
     for is_lat, lo, hi, olo, ohi in ((True, lat0, lat1, lon0, lon1), (False, lon0, lon1, lat0, lat1)):
         for v in np.arange(math.floor(lo / step) * step, hi + step, step):
             other = np.linspace(olo, ohi, 60)
@@ -168,6 +170,33 @@ def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions):
             if at is not None:
                 p.setPen(QColor(80, 80, 80))
                 p.drawText(at, text)
+
+
+#: Field shading: dBµV/m range and colours (weak → strong), drawn translucent.
+SHADE_DBU = (30.0, 100.0)
+
+
+def _draw_field(p: QPainter, view: View, result):
+    """Field raster (contours.field_raster) over the visible extent, as a translucent image."""
+    from PySide6.QtGui import QImage
+
+    from mwreach.coverage.contours import field_raster
+
+    n = 160
+    x0, y0, x1, y1 = view.world_extent()
+    half = max(x1 - x0, y1 - y0) / 2
+    cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+    xs, ys, f = field_raster(result.radials, 1.0, n, centre_km=(cx, cy), half_km=half)
+    t = np.clip((f - SHADE_DBU[0]) / (SHADE_DBU[1] - SHADE_DBU[0]), 0, 1)
+    r = (255 * t).astype(np.uint8)
+    g = (255 * (1 - np.abs(2 * t - 1))).astype(np.uint8)
+    b = (255 * (1 - t)).astype(np.uint8)
+    a = np.where(np.isfinite(f), 90, 0).astype(np.uint8)
+    rgba = np.ascontiguousarray(np.dstack([r, g, b, a])[::-1])  # image rows run north → south
+    img = QImage(rgba.data, n, n, 4 * n, QImage.Format_RGBA8888).copy()
+    dx0, dy0 = view.to_dev(cx - half, cy + half)
+    dx1, dy1 = view.to_dev(cx + half, cy - half)
+    p.drawImage(QRectF(float(dx0), float(dy0), float(dx1 - dx0), float(dy1 - dy0)), img)
 
 
 def _draw_scale_bar(p: QPainter, view: View, opts: MapOptions):
@@ -245,6 +274,9 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
             p.setPen(QPen(QColor(90, 90, 90, 120), 0.4 * s))
             p.setBrush(conductivity_colour(z.ground.sigma_ms_m))
             p.drawPath(_path_from_geom(geom, view))
+
+    if opts.field_shading:
+        _draw_field(p, view, result)
 
     if opts.graticule:
         _draw_graticule(p, view, proj, opts)
