@@ -193,3 +193,40 @@ def test_directional_antenna_shapes_contours():
     c = res.contours[1].first_km
     assert c[0] > 1.1 * c[9]  # main lobe north (3 dB above east) reaches further than east
     assert np.isnan(c[18])  # the null due south: 2 mV/m is not reached even at one wavelength
+
+
+MINIMAL = """
+[station]
+name = "Minimal"
+lat = 10.0
+lon = 20.0
+freq_khz = 1000
+power_day_kw = 1
+
+[antenna]
+[[antenna.tower]]
+height_deg = 90
+
+[ground]
+class = "land"
+
+[[contour]]
+field_mv_m = 1.0
+"""
+
+
+def test_minimal_study_runs(tmp_path, capsys):
+    f = tmp_path / "min.toml"
+    f.write_text(MINIMAL)
+    assert cli.main(["run", str(f), "--out", str(tmp_path / "o")]) == 0
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text())
+    (lv,) = summary["levels"]
+    # homogeneous land, λ/4 tower, 1 kW: the contour is a circle at the homogeneous distance
+    d = gw.distance_to_field_km(1000.0, ground_class("land"), 1.0,
+                                e1km_mv_m=summary["antenna"]["rms_mv_m"])
+    assert lv["min_km"] == pytest.approx(d, abs=0.01) and lv["max_km"] == pytest.approx(d, abs=0.01)
+    assert lv["community_share"] is None
+    assert not (tmp_path / "o" / "night.json").exists()
+    f.write_text(MINIMAL.replace('class = "land"\n', ""))
+    assert cli.main(["run", str(f), "--out", str(tmp_path / "o")]) == 2
+    assert "give class, or both sigma_ms_m and eps_r" in capsys.readouterr().err

@@ -109,3 +109,21 @@ def test_cli_sheet(tmp_path, capsys):
     reader = PdfReader(str(out))
     box = reader.pages[0].mediabox
     assert float(box.width) == pytest.approx(792, abs=1) and float(box.height) == pytest.approx(612, abs=1)
+
+
+def test_long_radial_table_flows_onto_more_pages(demo_result, tmp_path):
+    import dataclasses
+
+    from mwreach.gui.qt import ensure_app
+    from mwreach.gui.sheet import write_sheet
+
+    ensure_app()
+    spec = dataclasses.replace(demo_result.spec, output=dict(demo_result.spec.output,
+                                                            table_step_deg=2.0))
+    res = dataclasses.replace(demo_result, spec=spec)
+    path = tmp_path / "long.pdf"
+    pages = write_sheet(res, path)
+    text = _pages_text(path)
+    assert pages == len(text) >= 4
+    assert "continued, 2 of" in text[2]
+    assert "358° " in " ".join(text)  # the last 2° bearing made it onto a page
