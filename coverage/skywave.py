@@ -54,6 +54,7 @@ ITU_CONSTANTS = {
     "k0": (3.2, "basic loss factor k = k0 + k1·f^0.4·tan²(Φ + 3°) (from memory)"),
     "k1": (0.19, "see k0 (from memory)"),
     "phi_offset_deg": (3.0, "see k0 (from memory)"),
+    "phi_cap_deg": (60.0, "|Φ| above 60° is evaluated at 60° in k, as in 47 CFR 73.190 (from memory)"),
     "A_region_1_3": (107.0, "constant A, Regions 1 and 3 (from memory)"),
     "A_region_2": (110.0, "constant A, Region 2 (from memory)"),
     "b_north_america": (4.0, "solar-activity factor b (from memory)"),
@@ -165,7 +166,8 @@ def itu_field_dbu(
     c.m.f. of 300 V (V = 0 dB).
 
     E = V + G_S − L_p + A − 20·log10 p − k_R·p/1000 − L_t, p = sqrt(d² + 40 000),
-    k = 3.2 + 0.19·f^0.4·tan²(Φ + 3°), k_R = k + b·R/100, L_t = 0 at six hours after sunset.
+    k = 3.2 + 0.19·f^0.4·tan²(Φ + 3°) with |Φ| ≤ 60°, k_R = k + b·R/100, L_t = 0 at six hours
+    after sunset.
 
     Parameters
     ----------
@@ -192,12 +194,13 @@ def itu_field_dbu(
         raise ValueError(f"solar must be one of {', '.join(SOLAR_B)} (got {solar!r})")
     check_finite("sunspot", sunspot, 0.0, 400.0)
     p = slant_km(dist_km)
-    phi = np.asarray(phi_deg, dtype=float)
+    phi_raw = np.asarray(phi_deg, dtype=float)
+    phi = np.clip(phi_raw, -_c("phi_cap_deg"), _c("phi_cap_deg"))
     k = _c("k0") + _c("k1") * float(freq_khz) ** 0.4 * np.tan(np.radians(phi + _c("phi_offset_deg"))) ** 2
     k_r = k + _c(SOLAR_B[solar]) * sunspot / 100.0
     a_const = _c("A_region_2") if region == 2 else _c("A_region_1_3")
     e = sea_gain_db - lp_db + a_const - 20 * np.log10(p) - k_r * p / 1000.0  # Eq. (1), V = 0
-    return e + (ten_percent_excess_db(phi) if percent == 10 else 0.0)
+    return e + (ten_percent_excess_db(phi_raw) if percent == 10 else 0.0)
 
 
 def _dip_deg(lat_deg, lon_deg):

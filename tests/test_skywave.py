@@ -118,3 +118,9 @@ def test_cli_sky_json(capsys):
     assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40.1", "-90",
                      "--method", "itu"]) == 2
     assert "outside the ITU-R P.1147" in capsys.readouterr().err
+
+
+def test_itu_latitude_cap():
+    # ITU_CONSTANTS["phi_cap_deg"] (from memory): k is evaluated at 60° above 60°
+    assert float(sw.itu_field_dbu(1500.0, 1000.0, 75.0)) == pytest.approx(
+        float(sw.itu_field_dbu(1500.0, 1000.0, 60.0)))
