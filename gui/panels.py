@@ -525,6 +525,15 @@ class _RowsView(QTableView):
     def rowCount(self) -> int:  # noqa: N802 - mirrors QTableWidget for callers and tests
         return self.model_.rowCount()
 
+    def fit_columns(self) -> None:
+        """Column widths from the header texts and the first rows (cheap, unlike resizing to
+        every cell)."""
+        fm = self.fontMetrics()
+        sample = self.model_.rows[:50]
+        for j, head in enumerate(self.model_.headers):
+            texts = [head] + [str(r[j]) for r in sample]
+            self.setColumnWidth(j, max(fm.horizontalAdvance(t) for t in texts) + 28)
+
 
 class RadialTable(_RowsView):
     """Bearing × level distances, in km or mi."""
@@ -550,6 +559,7 @@ class RadialTable(_RowsView):
             rows.append(tuple(row))
         self.model_.set_rows([f"{c.level_mv_m:g} mV/m [{self.units}]" for c in cs], rows,
                              [f"{x:g}°" for x in b])
+        self.fit_columns()
 
     def header_text(self, column: int) -> str:
         return self.model_.headers[column]
@@ -613,10 +623,12 @@ class ProfilePlot(QWidget):
             self.plot.setLabel("left", "field [mV/m]")
         for k, c in enumerate(r.contours):
             y = float(mv_m_to_dbu(c.level_mv_m)) if self.field_units == "dBu" else c.level_mv_m
+            colour = LEVEL_COLOURS[k % len(LEVEL_COLOURS)]
             line = pg.InfiniteLine(pos=y if self.field_units == "dBu" else np.log10(y), angle=0,
-                                   pen=pg.mkPen(LEVEL_COLOURS[k % len(LEVEL_COLOURS)], width=1.5,
-                                                style=Qt.DashLine),
-                                   label=f"{c.level_mv_m:g} mV/m", labelOpts={"position": 0.9})
+                                   pen=pg.mkPen(colour, width=1.5, style=Qt.DashLine),
+                                   label=f"{c.level_mv_m:g} mV/m",
+                                   labelOpts={"position": 0.55 + 0.12 * k, "color": colour,
+                                              "fill": (255, 255, 255, 200)})
             self.plot.addItem(line)
         self.plot.setLabel("bottom", f"distance [{self.units}] along {b[i]:g}°")
 
@@ -682,11 +694,13 @@ class InterferenceTable(_RowsView):
                     r.wanted_dbu, r.unwanted_dbu, r.ratio_db, r.margin_db,
                     "pass" if r.passed else "FAILS")
             keys.append(vals)
-            rows.append(tuple(f"{v:.4f}" if j in (4, 5) else f"{v:.2f}" if isinstance(v, float)
-                              else str(v) for j, v in enumerate(vals)))
+            rows.append(tuple(f"{v:.4f}" if j in (4, 5) else f"{v:g}" if j == 3 else
+                              f"{v:.2f}" if isinstance(v, float) else str(v)
+                              for j, v in enumerate(vals)))
             bad.append(not r.passed)
         order = sorted(range(len(rows)), key=lambda i: keys[i][9])  # worst margin first
         self.proxy.sort(-1)  # no re-sort by the proxy on reset: rows arrive sorted
         self.model_.set_rows(self.HEAD, [rows[i] for i in order],
                              sort_keys=[keys[i] for i in order], bad=[bad[i] for i in order])
         self.horizontalHeader().setSortIndicator(9, Qt.AscendingOrder)
+        self.fit_columns()
