@@ -24,6 +24,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from mwreach.coverage.antenna import height_m, quarter_wave_m
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
@@ -181,6 +182,9 @@ class AntennaEditor(_TableEditor):
 
     def __init__(self, document, parent=None):
         super().__init__(document, parent)
+        self.heights = QLabel()
+        self.heights.setWordWrap(True)
+        self.layout().insertWidget(2, self.heights)
         row = QHBoxLayout()
         row.addWidget(QLabel("Array rotation [deg]"))
         self.rotation = QLineEdit()
@@ -206,6 +210,12 @@ class AntennaEditor(_TableEditor):
         super().refresh()
         if not self.rotation.styleSheet():
             self.rotation.setText(f"{self.document.spec.station.antenna.rotation_deg:g}")
+        st = self.document.spec.station
+        phys = ", ".join(f"{float(height_m(e.tower.height_deg, st.freq_khz)):.1f} m"
+                         for e in st.antenna.elements)
+        self.heights.setText(f"Physical heights at {st.freq_khz:g} kHz: {phys} (a quarter wave is "
+                             f"{float(quarter_wave_m(st.freq_khz)):.1f} m). Heights are entered in "
+                             "electrical degrees here; study files may also give height_m.")
 
     def _rotation(self):
         v = _number_or_text(self.rotation.text())

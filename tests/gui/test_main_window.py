@@ -204,3 +204,22 @@ def test_refused_table_edit_survives_other_edits(qtbot, window):
     edit.editingFinished.emit()
     assert window.document.spec.station.power_night_kw == 0.3
     assert lv.table.item(0, 0).text() == "-5"
+
+
+def test_cancel_stops_a_run(qtbot, window):
+    _open_and_wait(qtbot, window)
+    got = []
+    window.computer.result.connect(lambda req, res: got.append(req))
+    with qtbot.waitSignal(window.computer.idle, timeout=30_000):
+        window.computer.submit(window.document.spec)
+        window.computer.cancel()
+    qtbot.wait(200)
+    assert got == []  # the cancelled run delivered nothing
+    assert not window.progress.isVisible()
+
+
+def test_antenna_editor_shows_physical_height(qtbot, window):
+    _open_and_wait(qtbot, window)
+    # the demo tower is 62.0 m (study file height_m); a quarter wave at 1390 kHz is 53.9 m
+    text = window.antenna_editor.heights.text()
+    assert "62.0 m" in text and "53.9 m" in text

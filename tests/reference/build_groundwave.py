@@ -1,6 +1,6 @@
 """Regenerate ``groundwave_mpmath.json``: independent mpmath ground-wave values at 30 digits.
 
-Run by hand (takes several minutes on 2 cores):  python tests/reference/build_groundwave.py
+Run by hand (takes about ten minutes on 2 cores):  python tests/reference/build_groundwave.py
 Each case is (frequency kHz, σ mS/m, εr, distance km); K = 4/3, 300 mV/m at 1 km.
 Long distances use the residue series; short ones (x < 0.03) the Norton flat-earth form,
 where the earth's curvature changes the field by less than 0.01 dB.
@@ -24,6 +24,8 @@ SERIES_CASES = [
     (1000, 3, 22, 50), (1000, 3, 22, 300), (1000, 5000, 70, 1000), (1000, 10, 30, 300),
     (1000, 1, 15, 200),
     (1700, 0.1, 3, 60), (1700, 0.1, 3, 200), (1700, 30, 40, 1000), (1700, 5000, 70, 2000),
+    # the ends of the method's range (ITU-R P.368: 10 kHz to 30 MHz)
+    (10, 3, 22, 1000), (10, 5000, 70, 3000), (10000, 30, 40, 60), (30000, 5000, 70, 100),
 ]
 FLAT_CASES = [(1000, 3, 22, 1), (540, 5000, 70, 2), (1700, 0.1, 3, 3), (150, 1, 15, 5)]
 
