@@ -42,12 +42,12 @@ __all__ = [
 ]
 
 ORDINALS = ("co_channel", "adjacent_1", "adjacent_2", "adjacent_3")
-_P73_37 = "47 CFR 73.37 / 73.182 (methods.md §5)"
+_P73_37 = "47 CFR 73.37 / 73.182"
 DEFAULT_RATIOS = {
     ("day", 0): (26.0, f"co-channel 26 dB: {_P73_37}; Rio 1981 plan"),
-    ("day", 1): (6.0, "first adjacent 6 dB: 47 CFR 73.37 / 73.183(c) (methods.md §5)"),
+    ("day", 1): (6.0, "first adjacent 6 dB: 47 CFR 73.37 / 73.183(c)"),
     ("night", 0): (26.0, f"co-channel 26 dB: {_P73_37}; Rio 1981 plan"),
-    ("night", 1): (6.0, "first adjacent 6 dB: 47 CFR 73.37 / 73.183(c) (methods.md §5)"),
+    ("night", 1): (6.0, "first adjacent 6 dB: 47 CFR 73.37 / 73.183(c)"),
 }
 
 
