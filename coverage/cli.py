@@ -90,6 +90,8 @@ def _load_toml(path: str) -> dict:
             return tomllib.load(fh)
     except tomllib.TOMLDecodeError as exc:
         raise ValueError(f"{path}: {exc}") from None
+    except UnicodeDecodeError as exc:
+        raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
 
 
 def _cmd_antenna(args) -> int:

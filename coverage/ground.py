@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .validate import check_finite, check_keys
+from .validate import check_finite, check_keys, read_json
 
 __all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap", "load_zones"]
 
@@ -249,22 +249,20 @@ def load_zones(path, default: Ground) -> GroundMap:
     ``conductivity_ms_m`` and ``permittivity`` (a ``name`` and ``note`` are optional).
     Errors name the file, the feature and the property.
     """
-    import json
     import pathlib
 
     import shapely
     from shapely.geometry import shape
 
     path = pathlib.Path(path)
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise ValueError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}): "
-                         f"{exc.msg}") from None
+    data = read_json(path)
     if not isinstance(data, dict) or data.get("type") != "FeatureCollection":
         raise ValueError(f"{path}: expected a GeoJSON FeatureCollection")
+    features = data.get("features", [])
+    if not isinstance(features, list):
+        raise ValueError(f"{path}: 'features' must be a list of GeoJSON Features")
     zones = []
-    for i, feat in enumerate(data.get("features", []), 1):
+    for i, feat in enumerate(features, 1):
         where = f"feature {i} of {path}"
         if not isinstance(feat, dict) or feat.get("type") != "Feature":
             raise ValueError(f"{where}: expected a GeoJSON Feature")

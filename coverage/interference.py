@@ -26,7 +26,7 @@ from .groundwave import model, mv_m_to_dbu
 from .mixedpath import path_field_db
 from .skywave import sky_field_dbu, sky_path
 from .station import Station
-from .validate import check_finite, check_keys, where_join
+from .validate import check_finite, check_keys, read_text, where_join
 
 __all__ = [
     "Neighbour",
@@ -217,9 +217,11 @@ def read_neighbours_csv(path) -> list[Neighbour]:
     """Neighbours from a CSV file with a header row of :data:`NEIGHBOUR_KEYS` columns
     (``name``, ``lat``, ``lon``, ``freq_khz``, ``power_day_kw`` required; empty cells take the
     defaults). Errors name the file, the line and the column."""
+    import io
+
     path = pathlib.Path(path)
     out = []
-    with open(path, newline="", encoding="utf-8") as fh:
+    with io.StringIO(read_text(path), newline="") as fh:
         reader = csv.DictReader(fh)
         if reader.fieldnames is None:
             raise ValueError(f"{path}: empty file; expected a header row "

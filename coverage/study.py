@@ -31,7 +31,7 @@ from .ground import Ground, GroundMap, ground_class, load_zones
 from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ, model
 from .mixedpath import METHODS
 from .station import Station
-from .validate import check_finite, check_keys, where_join
+from .validate import check_finite, check_keys, read_json, where_join
 
 __all__ = [
     "Level",
@@ -118,18 +118,13 @@ class StudySpec:
 
 def read_boundary(path: pathlib.Path):
     """Read a community boundary (GeoJSON Polygon/MultiPolygon, Feature or FeatureCollection)."""
-    import json
-
     import shapely
     from shapely.geometry import shape
 
-    try:
-        data = json.loads(pathlib.Path(path).read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise ValueError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}): "
-                         f"{exc.msg}") from None
+    data = read_json(path)
     if isinstance(data, dict) and data.get("type") == "FeatureCollection":
-        geoms = [f.get("geometry") for f in data.get("features", []) if isinstance(f, dict)]
+        feats = data.get("features", [])
+        geoms = [f.get("geometry") for f in feats if isinstance(f, dict)] if isinstance(feats, list) else []
     elif isinstance(data, dict) and data.get("type") == "Feature":
         geoms = [data.get("geometry")]
     else:
@@ -325,6 +320,8 @@ def load_study(path) -> StudySpec:
             doc = tomllib.load(fh)
     except tomllib.TOMLDecodeError as exc:
         raise ValueError(f"{path}: {exc}") from None
+    except UnicodeDecodeError as exc:
+        raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
     return parse_study(doc, path)
 
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Mapping
 
-__all__ = ["check_finite", "check_keys", "where_join"]
+__all__ = ["check_finite", "check_keys", "where_join", "read_json", "read_text"]
 
 
 def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_open=False):
@@ -49,3 +49,24 @@ def check_keys(table: Mapping, allowed: Iterable[str], where: str, required: Ite
 def where_join(*parts: str) -> str:
     """``where_join("[station]", "demo.toml")`` → ``"[station] of demo.toml"``."""
     return " of ".join(p for p in parts if p)
+
+
+def read_text(path) -> str:
+    """A UTF-8 text file's contents; a file that is not UTF-8 text gets an error naming it."""
+    import pathlib
+
+    try:
+        return pathlib.Path(path).read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
+
+
+def read_json(path):
+    """Parse a JSON/GeoJSON file; syntax errors name the file, line and column."""
+    import json
+
+    try:
+        return json.loads(read_text(path))
+    except json.JSONDecodeError as exc:
+        raise ValueError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}): "
+                         f"{exc.msg}") from None

@@ -70,6 +70,8 @@ class StudyDocument(QObject):
                 doc = tomllib.load(fh)
             except tomllib.TOMLDecodeError as exc:
                 raise ValueError(f"{path}: {exc}") from None
+            except UnicodeDecodeError as exc:
+                raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
         self.path, self.base_dir = path, path.parent
         self.spec = self._validate(doc)
         self.doc = doc

@@ -230,3 +230,10 @@ def test_minimal_study_runs(tmp_path, capsys):
     f.write_text(MINIMAL.replace('class = "land"\n', ""))
     assert cli.main(["run", str(f), "--out", str(tmp_path / "o")]) == 2
     assert "give class, or both sigma_ms_m and eps_r" in capsys.readouterr().err
+
+
+def test_binary_study_file_is_named(tmp_path, capsys):
+    f = tmp_path / "b.toml"
+    f.write_bytes(b"[station]\nname = \"\xff\"\n")
+    assert cli.main(["run", str(f), "--out", str(tmp_path / "o")]) == 2
+    assert "b.toml: not UTF-8 text" in capsys.readouterr().err

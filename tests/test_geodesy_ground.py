@@ -138,3 +138,19 @@ def test_local_projection_equals_proj_aeqd():
     xr, yr = t.transform(lon, lat)
     np.testing.assert_allclose(x, xr, atol=1e-6)  # km: 1 mm
     np.testing.assert_allclose(y, yr, atol=1e-6)
+
+
+def test_binary_and_odd_files_are_named(tmp_path):
+    from mwreach.coverage.interference import read_neighbours_csv
+
+    f = tmp_path / "z.geojson"
+    f.write_bytes(b"\xff\xfe\x00garbage")
+    with pytest.raises(ValueError, match=r"z.geojson: not UTF-8 text"):
+        load_zones(f, ground_class("land"))
+    f.write_text('{"type": "FeatureCollection", "features": 3}')
+    with pytest.raises(ValueError, match=r"'features' must be a list"):
+        load_zones(f, ground_class("land"))
+    c = tmp_path / "n.csv"
+    c.write_bytes(b"name,lat\n\xff\n")
+    with pytest.raises(ValueError, match=r"n.csv: not UTF-8 text"):
+        read_neighbours_csv(c)
