@@ -19,6 +19,7 @@ __all__ = [
     "RadialFields",
     "LevelContour",
     "distance_grid",
+    "radial_length_km",
     "radial_fields",
     "crossings",
     "level_contour",
@@ -50,6 +51,22 @@ class RadialFields:
     def field_at(self, bearing_index: int, dist_km):
         """Field [dBµV/m] along one radial, interpolated in distance."""
         return np.interp(dist_km, self.dist_km, self.field_dbu[bearing_index])
+
+
+#: Longest radial computed [km].
+MAX_RADIAL_KM = 2000.0
+
+
+def radial_length_km(freq_khz: float, ground_map: GroundMap, level_mv_m: float,
+                     e1km_max_mv_m: float, earth_k: float = 4 / 3, min_km: float = 10.0) -> float:
+    """How far radials must run to reach ``level_mv_m``: its distance on the best ground of the
+    map with the strongest radiation, plus 20 %, within ``min_km`` .. 2000 km."""
+    best = max(ground_map.grounds, key=lambda g: g.sigma_ms_m)
+    d = model(freq_khz, best, earth_k).distance_to_field_km(level_mv_m, e1km_max_mv_m,
+                                                            max_km=MAX_RADIAL_KM)
+    if not np.isfinite(d):
+        return MAX_RADIAL_KM
+    return float(np.clip(1.2 * d, min_km, MAX_RADIAL_KM))
 
 
 def distance_grid(freq_khz: float, max_km: float, step_km: float) -> np.ndarray:

@@ -228,13 +228,14 @@ class GroundWaveModel:
         return int(max(8, np.ceil((alpha**1.5 / (3 * np.pi / 8) + 1) / 4) + 2))
 
     # --- the two branches -----------------------------------------------------------------
-    def _series(self, x):
-        """Residue series W(x, q) (without spherical spreading) for x ≥ X_CROSSOVER."""
+    def _series(self, x, roots=None):
+        """Residue series W(x, q) (without spherical spreading) for x ≥ X_CROSSOVER, with the
+        cached roots unless others are given."""
         x = np.asarray(x, dtype=float)
         out = np.empty(x.shape, dtype=complex)
         if x.size == 0:
             return out
-        t = self.roots
+        t = self.roots if roots is None else roots
         denom = t - self.q**2
         # decay of term s relative to the first: exp(−(√3/2)(|t_s| − |t_1|)·x)
         decay = np.sqrt(3) / 2 * (np.abs(t) - np.abs(t[0]))
@@ -289,11 +290,12 @@ class GroundWaveModel:
         """Residue series W(x, q) at any distance with x ≥ X_CROSSOVER/4 (for tests)."""
         d = self._check_distance(dist_km)
         x = self.km_to_x(d)
-        if np.any(x < X_CROSSOVER):
+        roots = None
+        if np.any(x < X_CROSSOVER):  # more roots for this call only; the cache is left alone
             n = self._terms_needed(float(x.min()))
             if n > self.roots.size:
-                self.roots = residue_roots(self.q, n)
-        return self._series(x)
+                roots = residue_roots(self.q, n)
+        return self._series(x, roots)
 
     def _check_distance(self, dist_km):
         d = np.asarray(dist_km, dtype=float)
@@ -377,25 +379,27 @@ class GroundWaveModel:
         levels = np.atleast_1d(np.asarray(level_mv_m, dtype=float))
         if np.any(~np.isfinite(levels)) or np.any(levels <= 0):
             raise ValueError(f"level_mv_m must be > 0 and finite (got {level_mv_m!r})")
-        d_lo = self.wavelength_km
-        grid = np.geomspace(d_lo, max_km, 400)
-        f_grid = self.field_dbu(grid, e1km_mv_m)
-        target = mv_m_to_dbu(levels)
+        lam = self.wavelength_km
+        rel = mv_m_to_dbu(levels) - mv_m_to_dbu(e1km_mv_m)  # curve value [dB re E at 1 km]
         out = np.empty(levels.shape)
-        for i, tg in enumerate(target):
-            if tg > f_grid[0]:
+        for i, tg in enumerate(rel):
+            if tg > float(self.curve_db(lam)):
                 out[i] = np.nan
                 continue
-            if tg < f_grid[-1]:
+            if tg < float(self.curve_db(max_km)):
                 out[i] = np.inf
                 continue
-            j = int(np.argmax(f_grid < tg))
-            out[i] = optimize.brentq(
-                lambda dd, tg=tg: float(self.field_dbu(dd, e1km_mv_m)) - tg,
-                grid[j - 1],
-                grid[j],
-                xtol=1e-6,
-            )
+            # the cached table is within 0.001 dB: bracket its answer by ±1 % and polish on
+            # the direct evaluation
+            d0 = float(self.distance_for_curve_db(tg))
+            lo, hi = max(lam, 0.99 * d0), min(max_km, 1.01 * d0)
+
+            def f(dd, tg=tg):
+                return float(self.field_dbu(dd, 1.0)) - float(mv_m_to_dbu(1.0)) - tg
+
+            if f(lo) * f(hi) > 0:  # table and direct evaluation disagree at the bracket ends
+                lo, hi = lam, max_km
+            out[i] = optimize.brentq(f, lo, hi, xtol=1e-6)
         return out.reshape(np.shape(level_mv_m)) if np.ndim(level_mv_m) else float(out[0])
 
 

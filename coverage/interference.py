@@ -19,7 +19,13 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .antenna import Array, Element, Tower, array_from_table
-from .contours import level_contour, radial_fields
+from .contours import (
+    contour_geometry,
+    first_crossings,
+    level_contour,
+    radial_fields,
+    radial_length_km,
+)
 from .geodesy import check_site, fwd_points, inverse, local_projection
 from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
@@ -308,10 +314,7 @@ def protected_contour_points(freq_khz, ground: GroundMap, lat, lon, array: Array
     bearings = np.asarray(bearings, dtype=float)
     e1 = array.field_mv_m(bearings, 0.0, power_kw)
     if max_km is None:
-        best = max(ground.grounds, key=lambda g: g.sigma_ms_m)
-        d = model(freq_khz, best, earth_k).distance_to_field_km(level_mv_m, float(e1.max()),
-                                                                max_km=2000.0)
-        max_km = float(np.clip(1.2 * d, 10.0, 2000.0)) if np.isfinite(d) else 2000.0
+        max_km = radial_length_km(freq_khz, ground, level_mv_m, float(e1.max()), earth_k)
     rad = radial_fields(freq_khz, ground, lat, lon, bearings, e1, max_km, step_km, method, earth_k)
     c = level_contour(rad, level_mv_m, "", local_projection(float(lat), float(lon)))
     dist = np.where(np.isinf(c.first_km), max_km, c.first_km)
@@ -435,7 +438,7 @@ def describe_max_power(period: str, mp: dict | None) -> str:
             f"kW), limited by {where}")
 
 
-def _limit_at(points_lat, points_lon, plan: InterferencePlan, station, interferers):
+def _limit_at(points_lat, points_lon, plan: InterferencePlan, interferers):
     """Night limit [dBµV/m] at points: RSS of (ratio × 10 % sky wave) of the interferers."""
     n_pts = np.size(points_lat)
     if not interferers:
@@ -458,30 +461,23 @@ def _limit_at(points_lat, points_lon, plan: InterferencePlan, station, interfere
 
 def night_service(spec, plan: InterferencePlan, interferers) -> NightResult:
     """Night limit per bearing and the night service contour (iterated to the contour)."""
-    from .contours import contour_geometry
-
     st = spec.station
     p = st.power_night_kw
     bearings = np.arange(0.0, 360.0 - 1e-9, plan.night.bearing_step_deg)
     e1 = st.antenna.field_mv_m(bearings, 0.0, p)
-    floor = plan.night.floor_mv_m
-    best = max(spec.ground.grounds, key=lambda g: g.sigma_ms_m)
-    d_max = model(st.freq_khz, best, spec.earth_k).distance_to_field_km(floor, float(e1.max()),
-                                                                          max_km=2000.0)
-    max_km = float(np.clip(1.2 * d_max, 10.0, 2000.0)) if np.isfinite(d_max) else 2000.0
+    max_km = radial_length_km(st.freq_khz, spec.ground, plan.night.floor_mv_m, float(e1.max()),
+                              spec.earth_k)
     rad = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, bearings, e1, max_km,
                         max(spec.step_km, 0.25), spec.mixed_path, spec.earth_k)
-    from .contours import first_crossings
-
     limit, used = _limit_at(np.full(bearings.shape, st.lat), np.full(bearings.shape, st.lon),
-                            plan, st, interferers)
+                            plan, interferers)
     first = np.full(bearings.shape, np.nan)
     further = [[] for _ in bearings]
     for _ in range(plan.night.iterations):
         first, further = first_crossings(rad, limit)
         reach = np.where(np.isnan(first), 0.0, np.where(np.isinf(first), max_km, first))
         plat, plon = fwd_points(st.lat, st.lon, bearings, reach)
-        limit, used = _limit_at(plat, plon, plan, st, interferers)
+        limit, used = _limit_at(plat, plon, plan, interferers)
     first, further = first_crossings(rad, limit)
     proj = local_projection(st.lat, st.lon)
     poly, poly_ll, area, _ = contour_geometry(bearings, first, further, max_km, proj)

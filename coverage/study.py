@@ -16,7 +16,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .antenna import array_from_table, array_to_table
-from .contours import LevelContour, RadialFields, level_contour, radial_fields
+from .contours import (
+    MAX_RADIAL_KM,
+    LevelContour,
+    RadialFields,
+    level_contour,
+    radial_fields,
+    radial_length_km,
+)
 from .geodesy import check_site, local_projection
 from .interference import (
     InterferencePlan,
@@ -28,7 +35,7 @@ from .interference import (
     run_interference,
 )
 from .ground import Ground, GroundMap, ground_class, load_zones
-from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ, model
+from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ
 from .mixedpath import METHODS
 from .station import Station
 from .validate import check_finite, check_keys, read_json, where_join
@@ -56,7 +63,7 @@ GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones")
 CONTOUR_KEYS = ("field_mv_m", "label")
 COMMUNITY_KEYS = ("name", "boundary")
 OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg")
-MAX_RANGE_KM = 2000.0
+MAX_RANGE_KM = MAX_RADIAL_KM
 
 
 @dataclass(frozen=True)
@@ -479,14 +486,9 @@ class Study:
         spec = self.spec
         if spec.max_km:
             return spec.max_km
-        best = max(spec.ground.grounds, key=lambda g: g.sigma_ms_m)
         lowest = min(lv.field_mv_m for lv in spec.levels)
-        d = model(spec.station.freq_khz, best, spec.earth_k).distance_to_field_km(
-            lowest, e1km_mv_m=e1km_max_mv_m, max_km=MAX_RANGE_KM
-        )
-        if not np.isfinite(d):
-            return MAX_RANGE_KM
-        return float(np.clip(1.2 * d, 20.0, MAX_RANGE_KM))
+        return radial_length_km(spec.station.freq_khz, spec.ground, lowest, e1km_max_mv_m,
+                                spec.earth_k, min_km=20.0)
 
     def run(self, bearings=None, power_kw: float | None = None, progress=None,
             interference: bool = True) -> StudyResult:

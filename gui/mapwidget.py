@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from PySide6.QtCore import QPointF, QRectF, Qt, Signal
-from PySide6.QtGui import QPainter
+from PySide6.QtGui import QColor, QPainter
 from PySide6.QtWidgets import QWidget
 
 from mwreach.coverage.geodesy import local_projection
@@ -74,12 +74,8 @@ class MapWidget(QWidget):
             x, y = self.view.to_dev(*self._site_offset)
             p.setPen(Qt.red)
             p.drawEllipse(QPointF(float(x), float(y)), 7, 7)
-        legend = QRectF(self.width() - 290, 40, 280, 260)
-        p.setOpacity(0.92)
-        p.fillRect(QRectF(legend.left() - 6, legend.top() - 4, legend.width() + 12,
-                          draw_legend_height(self.result, self.options)), Qt.white)
-        p.setOpacity(1.0)
-        draw_legend(p, legend, self.result, self.options)
+        legend = QRectF(self.width() - 290, 64, 280, 260)  # below the north arrow
+        draw_legend(p, legend, self.result, self.options, background=QColor(255, 255, 255, 235))
         p.end()
 
     # --- interaction ------------------------------------------------------------------------
@@ -154,10 +150,3 @@ class MapWidget(QWidget):
             self.view.rect = QRectF(self.rect())
         super().resizeEvent(ev)
 
-
-def draw_legend_height(result, opts) -> float:
-    """Height the legend needs (rows × line height), to paint its background."""
-    rows = len(result.contours) + 3 + len(result.spec.ground.zones) + 1
-    if getattr(result, "interference", None) is not None:
-        rows += 2
-    return rows * opts.font_pt * 1.6 + 10

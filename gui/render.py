@@ -383,60 +383,67 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     p.restore()
 
 
-def draw_legend(p: QPainter, rect: QRectF, result, opts: MapOptions) -> float:
-    """Contour and conductivity legend in ``rect``; returns the height used."""
+def _legend_entries(result, s: float) -> list[tuple]:
+    """What the legend shows, in order: ("head", text), ("line", pen, text),
+    ("cross", text), ("swatch", colour, text) or ("gap",)."""
+    out: list[tuple] = [("head", "Contours (day ground wave)")]
+    for i, c in enumerate(result.contours):
+        base = f"{c.level_mv_m:g} mV/m"
+        text = c.label if c.label.startswith(base) else f"{base} ({c.label})" if c.label else base
+        out.append(("line", QPen(QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)]), 2.0 * s), text))
+    inter = getattr(result, "interference", None)
+    if inter is not None and inter.night is not None:
+        out.append(("line", QPen(QColor(NIGHT_COLOUR), 1.6 * s, Qt.DashDotLine),
+                    "night service contour (night limit)"))
+        out.append(("line", QPen(QColor(70, 70, 70), 1.0 * s),
+                    "neighbour protected contour (day; night dashed)"))
+        if any(not r.passed for r in inter.rows):
+            out.append(("cross", "protection fails (D/U below ratio)"))
+    out += [("gap",), ("head", "Ground conductivity")]
+    out += [("swatch", colour, text) for colour, text in zone_legend_rows(result.spec)]
+    return out
+
+
+def draw_legend(p: QPainter, rect: QRectF, result, opts: MapOptions,
+                background: QColor | None = None) -> float:
+    """Contour and conductivity legend in ``rect``; returns the height used. With
+    ``background``, the area it covers is filled first."""
     s = opts.line_scale
     font = QFont("DejaVu Sans", 1)
     font.setPointSizeF(opts.font_pt * 0.9)
-    p.setFont(font)
-    fm = p.fontMetrics()
-    line = fm.height() * 1.15
-    y = rect.top() + line
-    x = rect.left()
     bold = QFont(font)
     bold.setBold(True)
-    p.setFont(bold)
-    p.setPen(Qt.black)
-    p.drawText(QPointF(x, y), "Contours (day ground wave)")
     p.setFont(font)
-    for i, c in enumerate(result.contours):
-        y += line
-        p.setPen(QPen(QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)]), 2.0 * s))
-        p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
-        p.setPen(Qt.black)
-        base = f"{c.level_mv_m:g} mV/m"
-        text = c.label if c.label.startswith(base) else f"{base} ({c.label})" if c.label else base
-        p.drawText(QPointF(x + 24 * s, y), text)
-    inter = getattr(result, "interference", None)
-    if inter is not None and inter.night is not None:
-        y += line
-        p.setPen(QPen(QColor(NIGHT_COLOUR), 1.6 * s, Qt.DashDotLine))
-        p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
-        p.setPen(Qt.black)
-        p.drawText(QPointF(x + 24 * s, y), "night service contour (night limit)")
-        y += line
-        p.setPen(QPen(QColor(70, 70, 70), 1.0 * s))
-        p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
-        p.setPen(Qt.black)
-        p.drawText(QPointF(x + 24 * s, y), "neighbour protected contour (day; night dashed)")
-        if any(not r.passed for r in inter.rows):
-            y += line
+    line = p.fontMetrics().height() * 1.15
+    entries = _legend_entries(result, s)
+    height = sum(0.4 * line if e[0] == "gap" else line for e in entries) + line * 0.5
+    if background is not None:
+        p.fillRect(QRectF(rect.left() - 6 * s, rect.top() - 4 * s, rect.width() + 12 * s,
+                          height + 8 * s), background)
+    x, y = rect.left(), rect.top()
+    for e in entries:
+        kind = e[0]
+        y += 0.4 * line if kind == "gap" else line
+        if kind == "gap":
+            continue
+        if kind == "head":
+            p.setFont(bold)
+            p.setPen(Qt.black)
+            p.drawText(QPointF(x, y), e[1])
+            p.setFont(font)
+            continue
+        if kind == "line":
+            p.setPen(e[1])
+            p.drawLine(QPointF(x, y - line / 3), QPointF(x + 18 * s, y - line / 3))
+        elif kind == "cross":
             p.setPen(QPen(QColor(FAIL_COLOUR), 1.6 * s))
-            cx = x + 9 * s
-            cy = y - line / 3
+            cx, cy = x + 9 * s, y - line / 3
             p.drawLine(QPointF(cx - 3 * s, cy - 3 * s), QPointF(cx + 3 * s, cy + 3 * s))
             p.drawLine(QPointF(cx - 3 * s, cy + 3 * s), QPointF(cx + 3 * s, cy - 3 * s))
-            p.setPen(Qt.black)
-            p.drawText(QPointF(x + 24 * s, y), "protection fails (D/U below ratio)")
-    y += line * 1.4
-    p.setFont(bold)
-    p.drawText(QPointF(x, y), "Ground conductivity")
-    p.setFont(font)
-    for colour, text in zone_legend_rows(result.spec):
-        y += line
-        p.setPen(QPen(QColor(90, 90, 90), 0.5 * s))
-        p.setBrush(colour)
-        p.drawRect(QRectF(x, y - line * 0.7, 18 * s, line * 0.6))
+        elif kind == "swatch":
+            p.setPen(QPen(QColor(90, 90, 90), 0.5 * s))
+            p.setBrush(e[1])
+            p.drawRect(QRectF(x, y - line * 0.7, 18 * s, line * 0.6))
         p.setPen(Qt.black)
-        p.drawText(QPointF(x + 24 * s, y), text)
-    return y - rect.top() + line * 0.5
+        p.drawText(QPointF(x + 24 * s, y), e[-1])
+    return height
