@@ -15,7 +15,7 @@ import numpy as np
 from mwreach.coverage.antenna import Array, Tower
 from mwreach.coverage.geodesy import fwd_points
 from mwreach.coverage.interference import Neighbour, ProtectionTable, run_interference
-from mwreach.coverage.study import load_study
+from mwreach.coverage.inputs import load_study
 
 DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
 

@@ -20,7 +20,7 @@ from functools import cached_property
 import numpy as np
 from scipy import special
 
-from .validate import check_finite, check_keys, where_join
+from .validate import check_finite
 from .groundwave import C0
 
 __all__ = [
@@ -32,8 +32,6 @@ __all__ = [
     "electrical_deg",
     "height_m",
     "quarter_wave_m",
-    "array_from_table",
-    "array_to_table",
 ]
 
 ETA0 = 376.730313  # impedance of free space [Ω]
@@ -295,76 +293,3 @@ class Array:
             "min_mv_m": float(e[i_min]),
             "min_azimuth_deg": float(az[i_min]),
         }
-
-
-TOWER_KEYS = (
-    "height_deg", "height_m", "top_loading_deg", "loss_ohm", "efficiency",
-    "field_ratio", "phase_deg", "spacing_deg", "orientation_deg",
-)
-
-
-def array_from_table(table: dict, freq_khz: float, where: str) -> Array:
-    """Build an :class:`Array` from the TOML antenna table of a study or array file.
-
-    ``table`` holds ``rotation_deg`` (optional) and a list ``tower`` of tables with the keys of
-    :data:`TOWER_KEYS`; a tower needs ``height_deg`` or ``height_m``. Errors name the tower,
-    the key and ``where``.
-    """
-    check_keys(table, ("rotation_deg", "tower"), where, required=("tower",))
-    towers = table["tower"]
-    if not isinstance(towers, list) or not towers:
-        raise ValueError(f"'tower' must be a non-empty list of [[tower]] tables in {where}")
-    if len(towers) > MAX_TOWERS:
-        raise ValueError(f"an array must have 1 to {MAX_TOWERS} towers (got {len(towers)}) "
-                         f"in {where}")
-    elements = []
-    for i, t in enumerate(towers, 1):
-        tw = where_join(f"tower {i}", where)
-        if not isinstance(t, dict):
-            raise ValueError(f"tower {i} must be a table in {where}")
-        check_keys(t, TOWER_KEYS, tw)
-        try:
-            if ("height_deg" in t) == ("height_m" in t):
-                raise ValueError("give exactly one of height_deg or height_m")
-            common = dict(
-                top_loading_deg=t.get("top_loading_deg", 0.0),
-                loss_ohm=t.get("loss_ohm", 0.0),
-                efficiency=t.get("efficiency"),
-            )
-            tower = (
-                Tower(t["height_deg"], **common)
-                if "height_deg" in t
-                else Tower.from_height_m(t["height_m"], freq_khz, **common)
-            )
-            elements.append(
-                Element(
-                    tower,
-                    field_ratio=t.get("field_ratio", 1.0),
-                    phase_deg=t.get("phase_deg", 0.0),
-                    spacing_deg=t.get("spacing_deg", 0.0),
-                    orientation_deg=t.get("orientation_deg", 0.0),
-                )
-            )
-        except ValueError as exc:
-            raise ValueError(f"{exc} in {tw}") from None
-    try:
-        return Array(tuple(elements), rotation_deg=table.get("rotation_deg", 0.0))
-    except ValueError as exc:
-        raise ValueError(f"{exc} in {where}") from None
-
-
-def array_to_table(array: Array) -> dict:
-    """Inverse of :func:`array_from_table` (electrical heights), for saving studies."""
-    towers = []
-    for e in array.elements:
-        t = {"height_deg": e.tower.height_deg, "field_ratio": e.field_ratio,
-             "phase_deg": e.phase_deg, "spacing_deg": e.spacing_deg,
-             "orientation_deg": e.orientation_deg}
-        if e.tower.top_loading_deg:
-            t["top_loading_deg"] = e.tower.top_loading_deg
-        if e.tower.efficiency is not None:
-            t["efficiency"] = e.tower.efficiency
-        else:
-            t["loss_ohm"] = e.tower.loss_ohm
-        towers.append(t)
-    return {"rotation_deg": array.rotation_deg, "tower": towers}

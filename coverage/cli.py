@@ -12,7 +12,9 @@ import sys
 
 import numpy as np
 
-__all__ = ["main"]
+from .validate import check_finite
+
+__all__ = ["main", "EXIT_BAD_INPUT", "EXIT_VIOLATION"]
 
 
 class UsageError(Exception):
@@ -20,28 +22,33 @@ class UsageError(Exception):
 
 
 def _ground_from_args(args):
-    from .ground import Ground, ground_class
+    from .ground import SIGMA_RANGE_MS_M, EPS_R_RANGE, Ground, ground_class
 
     if args.ground:
         if args.sigma_ms_m is not None or args.eps_r is not None:
             raise UsageError("give either --ground or --sigma-ms-m/--eps-r, not both")
-        return ground_class(args.ground)
+        return ground_class(args.ground.lower())
     if args.sigma_ms_m is None or args.eps_r is None:
         raise UsageError("give --ground NAME or both --sigma-ms-m and --eps-r")
-    return Ground(args.sigma_ms_m, args.eps_r)
+    return Ground(check_finite("--sigma-ms-m", args.sigma_ms_m, *SIGMA_RANGE_MS_M),
+                  check_finite("--eps-r", args.eps_r, *EPS_R_RANGE))
+
+
+def _freq(args, low_high=None):
+    from .groundwave import FREQ_RANGE_KHZ
+
+    return check_finite("--freq-khz", args.freq_khz, *(low_high or FREQ_RANGE_KHZ))
 
 
 def _cmd_field(args) -> int:
     from . import groundwave as gw
 
     ground = _ground_from_args(args)
-    m = gw.model(args.freq_khz, ground, args.earth_k)
-    km = np.asarray(args.km, dtype=float)
-    if np.any(km <= 0):
-        raise UsageError(f"--km values must be > 0 (got {args.km})")
-    e1 = args.e1km_mv_m
-    if not (np.isfinite(e1) and e1 > 0):
-        raise UsageError(f"--e1km-mv-m must be > 0 (got {e1})")
+    freq = _freq(args)
+    earth_k = check_finite("--earth-k", args.earth_k, *gw.EARTH_K_RANGE)
+    km = np.array([check_finite("--km", d, 0.0, 20_000.0, low_open=True) for d in args.km])
+    e1 = check_finite("--e1km-mv-m", args.e1km_mv_m, 0.0, 1e6, low_open=True)
+    m = gw.model(freq, ground, earth_k)
     att = m.attenuation(km)
     fld = e1 / km * np.abs(att)
     rows = [
@@ -81,36 +88,33 @@ def _cmd_field(args) -> int:
     return 0
 
 
-def _load_toml(path: str) -> dict:
-    """Read a TOML file; parse errors keep tomllib's line and column and name the file."""
-    import tomllib
-
-    try:
-        with open(path, "rb") as fh:
-            return tomllib.load(fh)
-    except tomllib.TOMLDecodeError as exc:
-        raise ValueError(f"{path}: {exc}") from None
-    except UnicodeDecodeError as exc:
-        raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
-
-
 def _cmd_antenna(args) -> int:
-    from .antenna import Array, Tower, array_from_table, height_m
+    from .antenna import HEIGHT_RANGE_DEG, Array, Tower, height_m
+    from .inputs import array_from_table, read_toml
 
+    freq = _freq(args)
+    power = check_finite("--power-kw", args.power_kw, 0.0, 1e4, low_open=True)
     if args.array:
         if args.height_deg is not None or args.height_m is not None:
             raise UsageError("give --array FILE or a single tower's height, not both")
-        array = array_from_table(_load_toml(args.array), args.freq_khz, args.array)
+        array = array_from_table(read_toml(args.array, "array file"), freq, args.array)
     else:
         if (args.height_deg is None) == (args.height_m is None):
             raise UsageError("give exactly one of --height-deg, --height-m or --array")
-        loss = dict(loss_ohm=args.loss_ohm or 0.0, efficiency=args.efficiency)
-        tower = (
-            Tower(args.height_deg, **loss)
-            if args.height_deg is not None
-            else Tower.from_height_m(args.height_m, args.freq_khz, **loss)
-        )
+        if args.loss_ohm is not None and args.efficiency is not None:
+            raise UsageError("give --loss-ohm or --efficiency, not both")
+        loss = dict(
+            loss_ohm=0.0 if args.loss_ohm is None else check_finite("--loss-ohm", args.loss_ohm,
+                                                                    0.0, 1e4),
+            efficiency=None if args.efficiency is None else check_finite(
+                "--efficiency", args.efficiency, 0.0, 1.0, low_open=True))
+        if args.height_deg is not None:
+            tower = Tower(check_finite("--height-deg", args.height_deg, *HEIGHT_RANGE_DEG), **loss)
+        else:
+            tower = Tower.from_height_m(check_finite("--height-m", args.height_m, 0.0, 1000.0,
+                                                     low_open=True), freq, **loss)
         array = Array.single(tower)
+    args.freq_khz, args.power_kw = freq, power
     summ = array.horizontal_summary(args.power_kw)
     pattern = array.field_mv_m(np.arange(360.0), 0.0, args.power_kw)
     single = len(array.elements) == 1
@@ -173,7 +177,12 @@ def _cmd_run(args) -> int:
     from .export import write_outputs
     from .study import Study
 
+    from .export import OUTPUT_NAMES
+    from .safefiles import refuse_overwriting_inputs, writable_folder
+
     study = Study.from_file(args.study)
+    refuse_overwriting_inputs(args.out, OUTPUT_NAMES, study.spec.input_files)
+    writable_folder(args.out)  # fail before the computation, not after it
     result = study.run(progress=_Progress("day ground wave"))
     files = write_outputs(result, args.out)
     st = result.spec.station
@@ -183,6 +192,8 @@ def _cmd_run(args) -> int:
           f"site {st.lat:.5f}, {st.lon:.5f}")
     for a, b in result.spec.ground.overlaps:
         print(f"note: ground zones '{a}' and '{b}' overlap; '{b}' (later) is used there")
+    for note in result.spec.input_notes:
+        print(f"note: {note}")
     print(f"{'contour':<24} {'min km':>8} {'mean km':>8} {'max km':>8} {'area km²':>10} "
           f"{'community':>9}")
     for row in result.level_rows():
@@ -199,6 +210,12 @@ def _cmd_run(args) -> int:
           + ", ".join(str(f) for f in files))
     print("Planning estimate only: filings must follow local rules and be checked by a "
           "licensed engineer.")
+    if args.fail_on_violation and result.interference is not None:
+        failed = [r for r in result.interference.neighbour_summary() if not r["passed"]]
+        if failed:
+            print(f"mwreach run: {len(failed)} protection check(s) fail "
+                  f"(--fail-on-violation): exit status 3", file=sys.stderr)
+            return EXIT_VIOLATION
     return 0
 
 
@@ -206,11 +223,15 @@ def _print_interference(result) -> None:
     inter = result.interference
     n = inter.night
     method = "47 CFR 73.190" if inter.settings.method == "cfr" else "ITU-R P.1147"
-    print(f"Night ({method}, {inter.settings.percent} % sky wave, "
-          f"RSS {inter.settings.exclusion_percent} % exclusion), {n.power_kw:g} kW:")
-    print(f"  night limit {n.limit_mv_m.min():.2f}–{n.limit_mv_m.max():.2f} mV/m; night service "
-          f"contour {np.nanmin(n.contour_km):.1f}–{np.nanmax(n.contour_km):.1f} km, "
-          f"{n.area_km2:.0f} km²")
+    if n is not None:
+        print(f"Night ({method}, {inter.settings.percent} % sky wave, "
+              f"RSS {inter.settings.exclusion_percent} % exclusion), {n.power_kw:g} kW:")
+        reach = n.contour_km[np.isfinite(n.contour_km)]
+        span = f"{reach.min():.1f}–{reach.max():.1f} km" if reach.size else "not reached"
+        print(f"  night limit {n.limit_mv_m.min():.2f}–{n.limit_mv_m.max():.2f} mV/m; night "
+              f"service contour {span}, {n.area_km2:.0f} km²")
+    if not inter.rows:
+        print("  no neighbour with a protection ratio: no D/U checks")
     print(f"  {'neighbour':<20} {'check':<13} {'offset':>6} {'D/U dB':>7} {'worst margin':>13}")
     for row in inter.neighbour_summary():
         flag = "" if row["passed"] else "  FAILS"
@@ -225,17 +246,27 @@ def _print_interference(result) -> None:
 
 
 def _cmd_sky(args) -> int:
-    from .skywave import sky_field_dbu, sky_path
+    from .geodesy import check_site
+    from .skywave import METHOD_DISTANCE_KM, METHOD_FREQ_KHZ, sky_field_dbu, sky_path
 
+    method = args.method
+    freq = _freq(args, METHOD_FREQ_KHZ[method])
+    tx = check_site(*args.from_, where="--from", names=("--from LAT", "--from LON"))
+    rx = check_site(*args.to, where="--to", names=("--to LAT", "--to LON"))
     if args.hops is not None and args.hops < 1:
         raise UsageError(f"--hops must be >= 1 (got {args.hops})")
-    path = sky_path(args.from_[0], args.from_[1], args.to[0], args.to[1], hops=args.hops,
-                    height_km=args.height_km)
+    height = check_finite("--height-km", args.height_km, 50.0, 500.0)
+    path = sky_path(tx[0], tx[1], rx[0], rx[1], hops=args.hops, height_km=height)
+    lo, hi = METHOD_DISTANCE_KM[method]
+    d = float(path.distance_km)
+    if not lo <= d <= hi:
+        raise UsageError(f"the path is {d:.1f} km long; the {_method_name(method)} method covers "
+                         f"{lo:g}–{hi:g} km")
     ref = 100.0 if args.method == "cfr" else 300.0
-    e = ref if args.e1km_mv_m is None else args.e1km_mv_m
-    if not (np.isfinite(e) and e > 0):
-        raise UsageError(f"--e1km-mv-m must be > 0 (got {e})")
-    kw = dict(freq_khz=args.freq_khz, tx=tuple(args.from_), rx=tuple(args.to))
+    e = ref if args.e1km_mv_m is None else check_finite("--e1km-mv-m", args.e1km_mv_m, 0.0, 1e6,
+                                                        low_open=True)
+    args.freq_khz = freq
+    kw = dict(freq_khz=freq, tx=tx, rx=rx)
     f50 = float(sky_field_dbu(path, e, args.method, 50, **kw))
     f10 = float(sky_field_dbu(path, e, args.method, 10, **kw))
     out = {
@@ -251,7 +282,7 @@ def _cmd_sky(args) -> int:
     if args.json:
         print(json.dumps(out, indent=1))
         return 0
-    name = "47 CFR 73.190" if args.method == "cfr" else "ITU-R P.1147"
+    name = _method_name(args.method)
     print(f"Sky wave ({name}), {args.freq_khz:g} kHz, {e:g} mV/m at 1 km toward the receiver")
     print(f"  distance {out['distance_km']:.1f} km, slant {out['slant_km']:.1f} km, "
           f"azimuth {out['azimuth_deg']:.1f}°, {out['hops']} hop(s), departure "
@@ -266,68 +297,137 @@ def _cmd_sky(args) -> int:
 def _cmd_sheet(args) -> int:
     from .study import Study
 
+    import pathlib
+
+    from .safefiles import refuse_overwriting_inputs, writable_folder
+
+    out = pathlib.Path(args.out)
     study = Study.from_file(args.study)
+    if out.is_dir():
+        raise UsageError(f"--out {out}: is a folder; give a PDF file name")
+    refuse_overwriting_inputs(out.parent, [out.name], study.spec.input_files)
+    writable_folder(out.parent)  # fail before the computation, not after it
     result = study.run(progress=_Progress("computing"))
     from mwreach.gui.qt import ensure_app  # Qt only for this command
 
     ensure_app()
     from mwreach.gui.sheet import write_sheet
 
-    pages = write_sheet(result, args.output, args.paper, args.orientation)
-    print(f"wrote {args.output} ({pages} pages)")
+    pages = write_sheet(result, out, args.paper, args.orientation)
+    print(f"wrote {out} ({pages} pages)")
     return 0
 
 
 def _cmd_gui(args) -> int:
+    if args.screenshot:
+        # batch use never waits for a person: check the study before any window opens
+        from .inputs import load_study
+        from .safefiles import writable_folder
+        import pathlib
+
+        if args.study:
+            load_study(args.study)
+        shot = pathlib.Path(args.screenshot)
+        if shot.is_dir():
+            raise UsageError(f"--screenshot {shot}: is a folder; give a PNG file name")
+        writable_folder(shot.parent)
     from mwreach.gui.app import run_gui  # Qt only for this command
 
     return run_gui(args.study, screenshot=args.screenshot)
 
 
-def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
-        prog="mwreach",
-        description="Medium-wave coverage and interference estimates (planning estimates only; "
-        "filings must be checked by a licensed engineer under local rules).",
-    )
-    sub = p.add_subparsers(dest="command", required=True)
+class _HelpFormatter(argparse.HelpFormatter):
+    """Shows each option's default where it has one."""
 
-    f = sub.add_parser("field", help="ground-wave field over a smooth homogeneous earth")
+    def _get_help_string(self, action):
+        text = action.help or ""
+        if (action.default not in (None, False, argparse.SUPPRESS) and "%(default)" not in text
+                and "default" not in text and action.option_strings):
+            text += " (default: %(default)s)"
+        return text
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors: ``mwreach run: error: …`` and exit status 2."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: error: {message} (see {self.prog} --help)\n")
+
+
+def _choices(*options):
+    """An argparse type that takes ``options`` in any letter case and returns the spelling."""
+    lookup = {o.lower(): o for o in options}
+
+    def convert(text: str) -> str:
+        try:
+            return lookup[text.lower()]
+        except KeyError:
+            raise argparse.ArgumentTypeError(
+                f"invalid choice {text!r} (choose from {', '.join(options)})") from None
+
+    convert.__name__ = "choice"
+    return convert
+
+
+def _method_name(method: str) -> str:
+    return "47 CFR 73.190" if method == "cfr" else "ITU-R P.1147"
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from .export import version
+
+    p = _Parser(
+        prog="mwreach", formatter_class=_HelpFormatter,
+        description="Medium-wave coverage and interference estimates (planning estimates only; "
+        "filings must be checked by a licensed engineer under local rules). Exit status: 0 done, "
+        "2 bad input, 3 a protection check fails (run --fail-on-violation).",
+    )
+    p.add_argument("--version", action="version", version=f"mwreach {version()}")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    fmt = dict(formatter_class=_HelpFormatter)
+
+    f = sub.add_parser("field", help="ground-wave field over a smooth homogeneous earth", **fmt)
     f.add_argument("--freq-khz", type=float, required=True, help="frequency [kHz], 10–30000")
     f.add_argument("--sigma-ms-m", type=float, help="ground conductivity [mS/m]")
     f.add_argument("--eps-r", type=float, help="relative permittivity")
     f.add_argument("--ground", help="ITU-R P.368 ground class name instead of σ/εr")
     f.add_argument("--km", type=float, nargs="+", required=True, help="distances [km]")
     f.add_argument("--e1km-mv-m", type=float, default=300.0,
-                   help="unattenuated field at 1 km [mV/m] (default 300: 1 kW, short monopole)")
-    f.add_argument("--earth-k", type=float, default=4.0 / 3.0,
-                   help="effective earth-radius factor (default 4/3)")
+                   help="unattenuated field at 1 km [mV/m] (300: 1 kW, short monopole)")
+    f.add_argument("--earth-k", type=float, default=round(4.0 / 3.0, 4),
+                   help="effective earth-radius factor")
     f.add_argument("--json", action="store_true", help="print JSON instead of a table")
     f.set_defaults(func=_cmd_field)
 
-    a = sub.add_parser("antenna", help="tower or directional-array field at 1 km")
+    a = sub.add_parser("antenna", help="tower or directional-array field at 1 km", **fmt)
     a.add_argument("--freq-khz", type=float, required=True, help="frequency [kHz]")
     a.add_argument("--height-deg", type=float, help="electrical height of a single tower [deg]")
     a.add_argument("--height-m", type=float, help="physical height of a single tower [m]")
     a.add_argument("--power-kw", type=float, default=1.0, help="power into the antenna [kW]")
-    a.add_argument("--loss-ohm", type=float, help="loss resistance at the current loop [Ω]")
+    a.add_argument("--loss-ohm", type=float,
+                   help="loss resistance at the current loop (base if shorter than 90°) [Ω]; "
+                        "default 0")
     a.add_argument("--efficiency", type=float, help="radiation efficiency (0–1]")
     a.add_argument("--array", help="TOML file with rotation_deg and [[tower]] tables")
     a.add_argument("--json", action="store_true", help="print JSON instead of text")
     a.set_defaults(func=_cmd_antenna)
 
-    r = sub.add_parser("run", help="run a study file: contours, tables, GeoJSON, KML")
+    r = sub.add_parser("run", help="run a study file: contours, tables, GeoJSON, KML", **fmt)
     r.add_argument("study", help="study file (TOML)")
-    r.add_argument("--out", required=True, help="output folder (created if missing)")
+    r.add_argument("-o", "--out", required=True,
+                   help="output folder (created if missing; never a file the study reads)")
+    r.add_argument("--fail-on-violation", action="store_true",
+                   help="exit with status 3 when any protection check fails")
     r.set_defaults(func=_cmd_run)
 
-    k = sub.add_parser("sky", help="night-time sky wave on one path")
-    k.add_argument("--freq-khz", type=float, required=True, help="frequency [kHz]")
+    k = sub.add_parser("sky", help="night-time sky wave on one path", **fmt)
+    k.add_argument("--freq-khz", type=float, required=True,
+                   help="frequency [kHz]: 535–1705 for cfr, 150–1700 for itu")
     k.add_argument("--from", dest="from_", type=float, nargs=2, required=True,
                    metavar=("LAT", "LON"), help="transmitter [deg]")
     k.add_argument("--to", type=float, nargs=2, required=True, metavar=("LAT", "LON"),
                    help="receiver [deg]")
-    k.add_argument("--method", choices=("cfr", "itu"), default="cfr",
+    k.add_argument("--method", type=_choices("cfr", "itu"), default="cfr",
                    help="47 CFR 73.190 (cfr) or ITU-R P.1147 (itu)")
     k.add_argument("--e1km-mv-m", type=float,
                    help="radiation toward the receiver at the departure angle [mV/m at 1 km] "
@@ -337,20 +437,27 @@ def build_parser() -> argparse.ArgumentParser:
     k.add_argument("--json", action="store_true", help="print JSON instead of text")
     k.set_defaults(func=_cmd_sky)
 
-    sh = sub.add_parser("sheet", help="contour sheet (PDF) for permit paperwork")
+    sh = sub.add_parser("sheet", help="contour sheet (PDF) for permit paperwork", **fmt)
     sh.add_argument("study", help="study file (TOML)")
-    sh.add_argument("-o", "--output", required=True, help="PDF file to write")
-    sh.add_argument("--paper", choices=("A4", "Letter"), help="paper size (default: study file)")
-    sh.add_argument("--orientation", choices=("portrait", "landscape"),
-                    help="page orientation (default: study file)")
+    sh.add_argument("-o", "--out", "--output", dest="out", required=True,
+                    help="PDF file to write")
+    sh.add_argument("--paper", type=_choices("A4", "Letter"),
+                    help="paper size (default: [output] paper of the study, else A4)")
+    sh.add_argument("--orientation", type=_choices("portrait", "landscape"),
+                    help="page orientation (default: [output] orientation of the study, "
+                         "else portrait)")
     sh.set_defaults(func=_cmd_sheet)
 
-    g = sub.add_parser("gui", help="the desktop application")
-    g.add_argument("study", nargs="?", help="study file to open")
+    g = sub.add_parser("gui", help="the desktop application", **fmt)
+    g.add_argument("study", nargs="?", help="study file to open (default: the demo, unsaved)")
     g.add_argument("--screenshot", help="open, compute, save a PNG of the window and exit")
     g.set_defaults(func=_cmd_gui)
 
     return p
+
+
+EXIT_BAD_INPUT = 2
+EXIT_VIOLATION = 3
 
 
 def main(argv=None) -> int:
@@ -361,10 +468,15 @@ def main(argv=None) -> int:
     except BrokenPipeError:  # output piped into e.g. `head`
         sys.stderr.close()
         return 0
-    except (UsageError, ValueError, FileNotFoundError, IsADirectoryError) as exc:
+    except KeyboardInterrupt:
+        print(f"mwreach {args.command}: interrupted; nothing was replaced", file=sys.stderr)
+        return 130
+    except (UsageError, ValueError, OSError) as exc:
         msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        if isinstance(exc, OSError) and exc.filename and str(exc.filename) not in msg:
+            msg = f"{exc.filename}: {exc.strerror or msg}"
         print(f"mwreach {args.command}: error: {msg}", file=sys.stderr)
-        return 2
+        return EXIT_BAD_INPUT
 
 
 if __name__ == "__main__":  # pragma: no cover

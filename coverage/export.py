@@ -6,35 +6,23 @@ import csv
 import io
 import json
 import math
-import os
 import pathlib
-import tempfile
 from xml.sax.saxutils import escape
 
 import numpy as np
 
-from .study import StudyResult, spec_to_doc
+from .inputs import spec_to_doc
+from .safefiles import atomic_write, write_set
+from .study import StudyResult
 
 __all__ = ["KM_PER_MI", "version", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
            "contours_kml", "atomic_write"]
 
 KM_PER_MI = 1.609344
-
-
-def atomic_write(path: pathlib.Path, text: str) -> None:
-    """Write a text file through a temporary file and a rename, so it is never half-written."""
-    path = pathlib.Path(path)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; give the file normal permissions
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        pathlib.Path(tmp).unlink(missing_ok=True)
-        raise
+#: Every file a run may write; a new run replaces the whole set (a file the new run does not
+#: produce, such as night.json after the night part was removed, goes too).
+OUTPUT_NAMES = ("summary.json", "radials.csv", "contours.geojson", "contours.kml", "night.json",
+                "interference.csv")
 
 
 def _num(v):
@@ -68,6 +56,7 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
             "zones_file": spec.zones_path or None,
             "overlaps_later_wins": [list(p) for p in spec.ground.overlaps],
         },
+        "input_notes": list(spec.input_notes),
         "method": {
             "ground_wave": "smooth earth: Sommerfeld-Norton flat earth with curvature correction "
                            "below x = 0.1, Van der Pol-Bremmer/Wait residue series beyond "
@@ -210,6 +199,11 @@ def night_json(result: StudyResult) -> dict:
     inter = result.interference
     n = inter.night
     s = inter.settings
+    skipped = [dict(x) for x in inter.skipped]
+    if n is None:
+        return {"station": result.spec.station.name, "power_night_kw": 0.0,
+                "method": None, "area_km2": None, "bearings": [], "skipped": skipped,
+                "notes": list(inter.notes)}
     return {
         "station": result.spec.station.name,
         "power_night_kw": n.power_kw,
@@ -223,6 +217,8 @@ def night_json(result: StudyResult) -> dict:
             for b, lim, db, d, used in zip(n.bearings_deg, n.limit_mv_m, n.limit_dbu,
                                            n.contour_km, n.contributors)
         ],
+        "skipped": skipped,
+        "notes": list(inter.notes),
     }
 
 
@@ -263,7 +259,6 @@ def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_featur
     """Write summary.json, radials.csv, contours.geojson and contours.kml into ``out_dir``,
     and night.json and interference.csv when the study ran the night/interference work."""
     out = pathlib.Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
     extra_summary = dict(extra_summary or {}) | interference_summary(result)
     extra_features = list(extra_features)
     extra_files = dict(extra_files or {})
@@ -283,8 +278,4 @@ def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_featur
         "contours.kml": contours_kml(gj, result.spec.title),
     }
     files.update(extra_files or {})
-    written = []
-    for name, text in files.items():
-        atomic_write(out / name, text)
-        written.append(out / name)
-    return written
+    return write_set(out, files, known_names=OUTPUT_NAMES, inputs=result.spec.input_files)

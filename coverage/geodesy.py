@@ -29,11 +29,14 @@ __all__ = [
 GEOD = Geod(ellps="WGS84")
 
 
-def check_site(lat_deg, lon_deg, where: str = ""):
-    """Validate a site: latitude −90..90, longitude −180..360; returns floats."""
+def check_site(lat_deg, lon_deg, where: str = "", names=("lat", "lon")):
+    """Validate a site: latitude −90..90, longitude −180..360; returns floats.
+
+    ``names`` are the field names used in messages (``("--from LAT", "--from LON")`` …).
+    """
     return (
-        check_finite("lat", lat_deg, -90.0, 90.0, where=where),
-        check_finite("lon", lon_deg, -180.0, 360.0, where=where),
+        check_finite(names[0], lat_deg, -90.0, 90.0, where=where),
+        check_finite(names[1], lon_deg, -180.0, 360.0, where=where),
     )
 
 

@@ -1,6 +1,7 @@
 """Ground electrical constants: the `Ground` record and the ITU-R P.368 ground classes.
 
-Conductivity zones read from GeoJSON live in :mod:`mwreach.coverage.zones`.
+Conductivity zones (:class:`GroundMap`) are read from GeoJSON by
+:func:`mwreach.coverage.inputs.load_zones`.
 """
 
 from __future__ import annotations
@@ -10,9 +11,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .validate import check_finite, check_keys, read_json
+from .validate import check_finite
 
-__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap", "load_zones"]
+__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap"]
 
 # Validity window of the ground-wave method (ITU-R P.368 covers 10 kHz to 30 MHz).
 SIGMA_RANGE_MS_M = (1e-4, 1e7)  # from very dry ice to (practically) a perfect conductor
@@ -96,9 +97,6 @@ def ground_class(name: str, *, where: str = "") -> Ground:
 
 
 # --- conductivity zones --------------------------------------------------------------------
-
-ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note")
-
 
 @dataclass(frozen=True)
 class Zone:
@@ -240,53 +238,3 @@ class GroundMap:
                     secs.append(Section(a, e, g))
             out.append(secs)
         return out
-
-
-def load_zones(path, default: Ground) -> GroundMap:
-    """Read conductivity zones from a GeoJSON FeatureCollection.
-
-    Each feature: a Polygon or MultiPolygon (lon/lat, WGS84) with properties
-    ``conductivity_ms_m`` and ``permittivity`` (a ``name`` and ``note`` are optional).
-    Errors name the file, the feature and the property.
-    """
-    import pathlib
-
-    import shapely
-    from shapely.geometry import shape
-
-    path = pathlib.Path(path)
-    data = read_json(path)
-    if not isinstance(data, dict) or data.get("type") != "FeatureCollection":
-        raise ValueError(f"{path}: expected a GeoJSON FeatureCollection")
-    features = data.get("features", [])
-    if not isinstance(features, list):
-        raise ValueError(f"{path}: 'features' must be a list of GeoJSON Features")
-    zones = []
-    for i, feat in enumerate(features, 1):
-        where = f"feature {i} of {path}"
-        if not isinstance(feat, dict) or feat.get("type") != "Feature":
-            raise ValueError(f"{where}: expected a GeoJSON Feature")
-        props = feat.get("properties") or {}
-        check_keys(props, ZONE_PROPERTIES, f"properties of {where}",
-                   required=("conductivity_ms_m", "permittivity"))
-        name = str(props.get("name") or f"zone {i}")
-        try:
-            ground = Ground(props["conductivity_ms_m"], props["permittivity"], name=name,
-                            source=str(path.name))
-        except ValueError as exc:
-            raise ValueError(f"{exc} ({where})") from None
-        geom_json = feat.get("geometry") or {}
-        if geom_json.get("type") not in ("Polygon", "MultiPolygon"):
-            raise ValueError(f"{where}: geometry must be Polygon or MultiPolygon "
-                             f"(got {geom_json.get('type')!r})")
-        try:
-            geom = shape(geom_json)
-        except Exception as exc:  # shapely raises several types for malformed coordinates
-            raise ValueError(f"{where}: malformed coordinates ({exc})") from None
-        if not geom.is_valid:
-            geom = shapely.make_valid(geom)
-        b = geom.bounds
-        if not (-180 <= b[0] and b[2] <= 360 and -90 <= b[1] and b[3] <= 90):
-            raise ValueError(f"{where}: coordinates must be lon/lat degrees (bounds {b})")
-        zones.append(Zone(name, ground, geom))
-    return GroundMap(default, zones, source=str(path))

@@ -12,13 +12,11 @@ ITU-R BS.560).
 
 from __future__ import annotations
 
-import csv
-import pathlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 
 import numpy as np
 
-from .antenna import Array, Element, Tower, array_from_table
+from .antenna import Array
 from .contours import (
     contour_geometry,
     first_crossings,
@@ -30,9 +28,8 @@ from .geodesy import check_site, fwd_points, inverse, local_projection
 from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
 from .mixedpath import path_field_db
-from .skywave import sky_field_dbu, sky_path
+from .skywave import METHOD_DISTANCE_KM, SkyPath, in_method_range, sky_field_dbu, sky_path
 from .station import Station
-from .validate import check_finite, check_keys, read_text, where_join
 
 __all__ = [
     "Neighbour",
@@ -42,8 +39,6 @@ __all__ = [
     "rss",
     "point_ground_dbu",
     "protected_contour_points",
-    "read_neighbours_csv",
-    "neighbour_from_table",
     "describe_max_power",
 ]
 
@@ -72,25 +67,6 @@ class ProtectionTable:
         if offset is None:
             return None
         return self.ratios.get((period, abs(int(offset))))
-
-    @classmethod
-    def from_table(cls, table: dict, where: str) -> ProtectionTable:
-        """``[protection]``: raster_khz and ``day_co_channel_db``, ``night_adjacent_1_db`` …"""
-        keys = ["raster_khz"] + [f"{p}_{o}_db" for p in ("day", "night") for o in ORDINALS]
-        check_keys(table, keys, where)
-        raster = check_finite("raster_khz", table.get("raster_khz", 10.0), 1.0, 100.0, where=where)
-        if raster not in (9.0, 10.0):
-            raise ValueError(f"raster_khz must be 9 or 10 (got {raster:g}) in {where}")
-        ratios = dict(DEFAULT_RATIOS)
-        for p in ("day", "night"):
-            for i, o in enumerate(ORDINALS):
-                k = f"{p}_{o}_db"
-                if k in table:
-                    v = check_finite(k, table[k], -60.0, 60.0, where=where)
-                    default = DEFAULT_RATIOS.get((p, i))
-                    same = default is not None and default[0] == v
-                    ratios[(p, i)] = (v, default[1] if same else f"set in the study file ({k})")
-        return cls(raster, ratios)
 
     def rows(self) -> list[dict]:
         """Table rows for reports: period, offset, ratio (None if undefined), source."""
@@ -122,37 +98,6 @@ class NightSettings:
     KEYS = ("method", "percent", "exclusion_percent", "layer_height_km", "itu_region", "solar",
             "sunspot", "floor_mv_m", "bearing_step_deg")
 
-    @classmethod
-    def from_table(cls, t: dict, where: str) -> NightSettings:
-        check_keys(t, cls.KEYS, where)
-        method = t.get("method", "cfr")
-        if method not in ("cfr", "itu"):
-            raise ValueError(f"method must be 'cfr' or 'itu' (got {method!r}) in {where}")
-        percent = t.get("percent", 10)
-        if percent not in (10, 50):
-            raise ValueError(f"percent must be 10 or 50 (got {percent!r}) in {where}")
-        excl = t.get("exclusion_percent", 50)
-        if excl not in (0, 25, 50):
-            raise ValueError(f"exclusion_percent must be 0, 25 or 50 (got {excl!r}) in {where}")
-        region = t.get("itu_region", 2)
-        if region not in (1, 2, 3):
-            raise ValueError(f"itu_region must be 1, 2 or 3 (got {region!r}) in {where}")
-        solar = t.get("solar", "elsewhere")
-        if solar not in ("north-america", "europe-australia", "elsewhere"):
-            raise ValueError(f"solar must be north-america, europe-australia or elsewhere "
-                             f"(got {solar!r}) in {where}")
-        return cls(
-            method=method, percent=int(percent), exclusion_percent=int(excl),
-            layer_height_km=check_finite("layer_height_km", t.get("layer_height_km", 100.0),
-                                         50.0, 500.0, where=where),
-            itu_region=int(region), solar=solar,
-            sunspot=check_finite("sunspot", t.get("sunspot", 0.0), 0.0, 400.0, where=where),
-            floor_mv_m=check_finite("floor_mv_m", t.get("floor_mv_m", 0.5), 0.01, 100.0,
-                                    where=where),
-            bearing_step_deg=check_finite("bearing_step_deg", t.get("bearing_step_deg", 5.0),
-                                          1.0, 45.0, where=where),
-        )
-
     def to_table(self) -> dict:
         return {k: getattr(self, k) for k in self.KEYS}
 
@@ -168,85 +113,6 @@ class Neighbour(Station):
     protected_day_mv_m: float = 0.5  # daytime protected contour (methods.md §5, US practice)
     protected_night_mv_m: float = 2.0  # night protected service contour (common practice)
     antenna_desc: dict = field(default_factory=dict, compare=False, repr=False)
-
-
-NEIGHBOUR_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw",
-                  "height_deg", "height_m", "loss_ohm", "array", "protected_day_mv_m",
-                  "protected_night_mv_m")
-
-
-def neighbour_from_table(t: dict, where: str, base: pathlib.Path) -> Neighbour:
-    """A neighbour from a ``[[neighbour]]`` table or a CSV row (strings allowed)."""
-    check_keys(t, NEIGHBOUR_KEYS, where, required=("name", "lat", "lon", "freq_khz",
-                                                   "power_day_kw"))
-    lat, lon = check_site(t["lat"], t["lon"], where=where)
-    freq = check_finite("freq_khz", t["freq_khz"], 150.0, 30_000.0, where=where)
-    p_day = check_finite("power_day_kw", t["power_day_kw"], 0.0, 1e4, where=where, low_open=True)
-    p_night = check_finite("power_night_kw", t.get("power_night_kw", p_day), 0.0, 1e4, where=where)
-    given = [k for k in ("height_deg", "height_m", "array") if t.get(k) not in (None, "")]
-    if len(given) != 1:
-        raise ValueError(f"give exactly one of height_deg, height_m or array in {where}")
-    desc = {k: t[k] for k in ("height_deg", "height_m", "loss_ohm", "array") if t.get(k) not in (None, "")}
-    if given[0] == "array":
-        import tomllib
-
-        apath = base / str(t["array"])
-        try:
-            with open(apath, "rb") as fh:
-                table = tomllib.load(fh)
-        except FileNotFoundError:
-            raise ValueError(f"array file {str(apath)!r} not found in {where}") from None
-        except tomllib.TOMLDecodeError as exc:
-            raise ValueError(f"{apath}: {exc}") from None
-        antenna = array_from_table(table, freq, str(apath))
-    else:
-        loss = check_finite("loss_ohm", t.get("loss_ohm", 0.0) or 0.0, 0.0, 1e4, where=where)
-        try:
-            tower = (Tower(float(t["height_deg"]), loss_ohm=loss) if given[0] == "height_deg"
-                     else Tower.from_height_m(float(t["height_m"]), freq, loss_ohm=loss))
-        except ValueError as exc:
-            raise ValueError(f"{exc} in {where}") from None
-        antenna = Array((Element(tower),))
-    return Neighbour(
-        name=str(t["name"]), lat=lat, lon=lon, freq_khz=freq, power_day_kw=p_day,
-        power_night_kw=p_night, antenna=antenna,
-        protected_day_mv_m=check_finite("protected_day_mv_m", t.get("protected_day_mv_m", 0.5) or 0.5,
-                                        0.01, 100.0, where=where),
-        protected_night_mv_m=check_finite("protected_night_mv_m",
-                                          t.get("protected_night_mv_m", 2.0) or 2.0,
-                                          0.01, 100.0, where=where),
-        antenna_desc=desc,
-    )
-
-
-def read_neighbours_csv(path) -> list[Neighbour]:
-    """Neighbours from a CSV file with a header row of :data:`NEIGHBOUR_KEYS` columns
-    (``name``, ``lat``, ``lon``, ``freq_khz``, ``power_day_kw`` required; empty cells take the
-    defaults). Errors name the file, the line and the column."""
-    import io
-
-    path = pathlib.Path(path)
-    out = []
-    with io.StringIO(read_text(path), newline="") as fh:
-        reader = csv.DictReader(fh)
-        if reader.fieldnames is None:
-            raise ValueError(f"{path}: empty file; expected a header row "
-                             f"({', '.join(NEIGHBOUR_KEYS)})")
-        for row in reader:
-            where = f"line {reader.line_num} of {path}"
-            if None in row:
-                raise ValueError(f"{where}: more cells than header columns")
-            clean = {k.strip(): (v.strip() if isinstance(v, str) else v) for k, v in row.items()
-                     if v is not None and str(v).strip() != ""}
-            for k in ("lat", "lon", "freq_khz", "power_day_kw", "power_night_kw", "height_deg",
-                      "height_m", "loss_ohm", "protected_day_mv_m", "protected_night_mv_m"):
-                if k in clean:
-                    try:
-                        clean[k] = float(clean[k])
-                    except ValueError:
-                        raise ValueError(f"{k} must be a number (got {clean[k]!r}) in {where}") from None
-            out.append(neighbour_from_table(clean, where, path.parent))
-    return out
 
 
 def channel_offset(freq_khz: float, other_khz: float, raster_khz: float):
@@ -324,21 +190,28 @@ def protected_contour_points(freq_khz, ground: GroundMap, lat, lon, array: Array
 
 
 def sky_dbu_from(tx_lat, tx_lon, freq_khz, array: Array, power_kw: float, pts_lat, pts_lon,
-                 night: NightSettings, where: str = ""):
+                 night: NightSettings):
     """10 % (or 50 %) sky wave [dBµV/m] of a transmitter at the points, with its antenna's
-    radiation toward each point at the departure angle."""
+    radiation toward each point at the departure angle.
+
+    Points whose path lies outside the method's distance range get NaN (the caller skips them
+    and says so); a transmitter with no night power gives −inf (no sky wave).
+    """
+    pts_lat = np.atleast_1d(np.asarray(pts_lat, float))
+    pts_lon = np.atleast_1d(np.asarray(pts_lon, float))
+    out = np.full(pts_lat.shape, np.nan)
+    if power_kw <= 0:
+        return np.full(pts_lat.shape, -np.inf)
     path = sky_path(tx_lat, tx_lon, pts_lat, pts_lon, height_km=night.layer_height_km)
-    e_dep = array.field_mv_m(path.azimuth_deg, path.departure_deg, power_kw)
-    try:
-        return sky_field_dbu(path, e_dep, night.method, night.percent, freq_khz=freq_khz,
-                             tx=(tx_lat, tx_lon), rx=(pts_lat, pts_lon), **(
-                                 night.itu_kwargs if night.method == "itu" else {}))
-    except ValueError as exc:
-        raise ValueError(f"{exc} ({where})" if where else str(exc)) from None
-
-
-def where_neighbour(n: Neighbour, source: str) -> str:
-    return where_join(f"neighbour {n.name!r}", source)
+    ok = in_method_range(path.distance_km, night.method)
+    if not ok.any():
+        return out
+    sub = SkyPath(*(np.asarray(getattr(path, f.name))[ok] for f in fields(SkyPath)))
+    e_dep = array.field_mv_m(sub.azimuth_deg, sub.departure_deg, power_kw)
+    out[ok] = sky_field_dbu(sub, e_dep, night.method, night.percent, freq_khz=freq_khz,
+                            tx=(tx_lat, tx_lon), rx=(pts_lat[ok], pts_lon[ok]),
+                            **(night.itu_kwargs if night.method == "itu" else {}))
+    return out
 
 
 # --- the analysis ----------------------------------------------------------------------------
@@ -407,6 +280,7 @@ class InterferenceResult:
     notes: tuple[str, ...]
     protection: ProtectionTable
     settings: NightSettings
+    skipped: tuple = ()  # checks left out because a path is outside the method's range
 
     def worst(self, kind: str | None = None, neighbour: str | None = None):
         rows = [r for r in self.rows if (kind is None or r.kind == kind)
@@ -438,16 +312,23 @@ def describe_max_power(period: str, mp: dict | None) -> str:
             f"kW), limited by {where}")
 
 
-def _limit_at(points_lat, points_lon, plan: InterferencePlan, interferers):
-    """Night limit [dBµV/m] at points: RSS of (ratio × 10 % sky wave) of the interferers."""
+def _limit_at(points_lat, points_lon, plan: InterferencePlan, interferers, skipped=None):
+    """Night limit [dBµV/m] at points: RSS of (ratio × 10 % sky wave) of the interferers.
+
+    An interferer whose path to a point lies outside the sky-wave method's range contributes
+    nothing there; its name goes into ``skipped``.
+    """
     n_pts = np.size(points_lat)
     if not interferers:
         return np.full(n_pts, float(mv_m_to_dbu(plan.night.floor_mv_m))), [[] for _ in range(n_pts)]
     prods = []
     for n, ratio in interferers:
         u = sky_dbu_from(n.lat, n.lon, n.freq_khz, n.antenna, n.power_night_kw, points_lat,
-                         points_lon, plan.night, where_neighbour(n, "night received"))
-        prods.append(10 ** ((u + ratio) / 20.0))  # µV/m, ratio × field
+                         points_lon, plan.night)
+        if np.isnan(u).any() and skipped is not None:
+            skipped.add(n.name)
+        with np.errstate(over="ignore"):
+            prods.append(np.nan_to_num(10 ** ((u + ratio) / 20.0), nan=0.0))  # µV/m
     prods = np.array(prods)  # (n_interferers, n_pts)
     limits = np.empty(n_pts)
     used_names = []
@@ -459,7 +340,7 @@ def _limit_at(points_lat, points_lon, plan: InterferencePlan, interferers):
     return limits, used_names
 
 
-def night_service(spec, plan: InterferencePlan, interferers) -> NightResult:
+def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> NightResult:
     """Night limit per bearing and the night service contour (iterated to the contour)."""
     st = spec.station
     p = st.power_night_kw
@@ -470,14 +351,14 @@ def night_service(spec, plan: InterferencePlan, interferers) -> NightResult:
     rad = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, bearings, e1, max_km,
                         max(spec.step_km, 0.25), spec.mixed_path, spec.earth_k)
     limit, used = _limit_at(np.full(bearings.shape, st.lat), np.full(bearings.shape, st.lon),
-                            plan, interferers)
+                            plan, interferers, skipped)
     first = np.full(bearings.shape, np.nan)
     further = [[] for _ in bearings]
     for _ in range(plan.night.iterations):
         first, further = first_crossings(rad, limit)
         reach = np.where(np.isnan(first), 0.0, np.where(np.isinf(first), max_km, first))
         plat, plon = fwd_points(st.lat, st.lon, bearings, reach)
-        limit, used = _limit_at(plat, plon, plan, interferers)
+        limit, used = _limit_at(plat, plon, plan, interferers, skipped)
     first, further = first_crossings(rad, limit)
     proj = local_projection(st.lat, st.lon)
     poly, poly_ll, area, _ = contour_geometry(bearings, first, further, max_km, proj)
@@ -503,7 +384,9 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
             continue
         if rd is not None:
             day_ok.append((n, off, rd[0]))
-        if rn is not None:
+        if rn is not None and n.power_night_kw <= 0:
+            notes.append(f"{n.name} has no night power (daytime only): no night checks")
+        elif rn is not None:
             night_ok.append((n, off, rn[0]))
 
     rows: list[MarginRow] = []
@@ -535,19 +418,35 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                      if np.isfinite(x)]
 
     night = None
-    if night_ok or plan.neighbours:
+    skipped: list[dict] = []
+    if st.power_night_kw <= 0:
+        notes.append(f"{st.name} has no night power (daytime only): no night service contour "
+                     "and no night interference caused")
+    else:
         interferers = [(n, ratio) for n, _, ratio in night_ok]
-        night = night_service(spec, plan, interferers)
+        out_of_range: set = set()
+        night = night_service(spec, plan, interferers, out_of_range)
+        lo, hi = METHOD_DISTANCE_KM[plan.night.method]
+        for name in sorted(out_of_range):
+            skipped.append({"neighbour": name, "check": "night received",
+                            "reason": f"sky-wave path outside {lo:g}–{hi:g} km"})
         for n, off, ratio in night_ok:
             nb, _, nlat, nlon = protected_contour_points(
                 n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_night_kw,
                 n.protected_night_mv_m, brg, step_km=0.5, **common)
             u = sky_dbu_from(st.lat, st.lon, st.freq_khz, st.antenna, st.power_night_kw, nlat,
-                             nlon, plan.night, where_neighbour(n, "night caused"))
+                             nlon, plan.night)
+            if np.isnan(u).any():
+                skipped.append({"neighbour": n.name, "check": "night caused",
+                                "reason": f"sky-wave path outside {lo:g}–{hi:g} km at "
+                                          f"{int(np.isnan(u).sum())} of {u.size} points"})
             wanted = float(mv_m_to_dbu(n.protected_night_mv_m))
             rows += [MarginRow("night caused", n.name, off, ratio, float(b), float(a), float(o),
                                wanted, float(x)) for b, a, o, x in zip(nb, nlat, nlon, u)
                      if np.isfinite(x)]
+        for sk in skipped:
+            notes.append(f"{sk['neighbour']}: {sk['check']} skipped where the "
+                         f"{sk['reason']} (the method does not cover it)")
 
     max_power = {}
     for period, kind, p0 in (("day", "day caused", st.power_day_kw),
@@ -562,4 +461,5 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                              "current_power_kw": p0, "limiting_neighbour": w.neighbour,
                              "limiting_lat": w.lat, "limiting_lon": w.lon,
                              "margin_db_now": w.margin_db}
-    return InterferenceResult(tuple(rows), night, max_power, tuple(notes), prot, plan.night)
+    return InterferenceResult(tuple(rows), night, max_power, tuple(notes), prot, plan.night,
+                              tuple(skipped))

@@ -38,6 +38,9 @@ __all__ = [
     "sky_path",
     "sky_field_dbu",
     "coupling_loss_db",
+    "in_method_range",
+    "METHOD_FREQ_KHZ",
+    "METHOD_DISTANCE_KM",
 ]
 
 POLE_LAT_DEG = 78.5  # geomagnetic dipole pole used by 47 CFR 73.190 and ITU-R P.1147
@@ -47,6 +50,11 @@ EARTH_RADIUS_SKY_KM = 6370.0  # radius of the departure-angle geometry (methods.
 CFR_RANGE_KM = (0.0, 4000.0)  # 47 CFR 73.190 curves to about 4000 km (from memory)
 ITU_RANGE_KM = (50.0, 12_000.0)  # ITU-R P.1147 scope [pub]
 ITU_FREQ_RANGE_KHZ = (150.0, 1700.0)
+#: 47 CFR 73.190 is the US rule for the AM broadcast band, 535–1705 kHz (47 CFR 73.14 defines
+#: the band's channels, 540–1700 kHz); outside it the formula is not used.
+CFR_FREQ_RANGE_KHZ = (535.0, 1705.0)
+METHOD_FREQ_KHZ = {"cfr": CFR_FREQ_RANGE_KHZ, "itu": ITU_FREQ_RANGE_KHZ}
+METHOD_DISTANCE_KM = {"cfr": CFR_RANGE_KM, "itu": ITU_RANGE_KM}
 
 #: ITU-R P.1147 constants recalled from memory (methods.md §4 tags them [mem]); kept here in
 #: one place so that they can be corrected against the published text.
@@ -129,6 +137,13 @@ def _check_range(d, rng, method):
         bad = d[(~np.isfinite(d)) | (d < rng[0]) | (d > rng[1])][0]
         raise ValueError(f"distance {bad:g} km is outside the {method} sky-wave range "
                          f"{rng[0]:g}–{rng[1]:g} km")
+
+
+def in_method_range(dist_km, method: str):
+    """True where a path length [km] lies within the method's distance range."""
+    lo, hi = METHOD_DISTANCE_KM[method]
+    d = np.asarray(dist_km, dtype=float)
+    return np.isfinite(d) & (d >= lo) & (d <= hi)
 
 
 def cfr_field_dbu(dist_km, phi_deg, percent: int = 50):

@@ -1,15 +1,25 @@
-"""Checks of user-supplied values with messages that name the field, the value and the range."""
+"""Checks of single values with messages that name the field, the value and the range.
+
+Files and tables are read in :mod:`mwreach.coverage.inputs`; this module only checks values, so
+that the physics records (``Ground``, ``Tower`` …) can check their own arguments.
+"""
 
 from __future__ import annotations
 
+import datetime as _dt
 import math
 from collections.abc import Iterable, Mapping
 
-__all__ = ["check_finite", "check_keys", "where_join", "read_json", "read_text"]
+import numpy as np
+
+__all__ = ["check_finite", "check_keys", "where_join"]
 
 
 def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_open=False):
     """Return ``float(value)`` or raise a ValueError naming the field, the value and the range.
+
+    Only real numbers are accepted: a boolean (TOML ``true``) or a string (``"1390"``) is
+    refused rather than converted, so that a typing slip never becomes a silent 1 or 1390.
 
     Parameters
     ----------
@@ -19,6 +29,17 @@ def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_
     where : where the value came from (``"[ground] of demo.toml"``), appended to the message
     """
     suffix = f" in {where}" if where else ""
+    if isinstance(value, (bool, np.bool_)):
+        raise ValueError(f"{name} must be a number (got {'true' if value else 'false'}){suffix}")
+    if isinstance(value, str):
+        try:
+            float(value)
+            hint = ": write it without quotes"
+        except ValueError:
+            hint = ""
+        raise ValueError(f"{name} must be a number (got {value!r}{hint}){suffix}")
+    if isinstance(value, (_dt.date, _dt.time)):
+        raise ValueError(f"{name} must be a number (got the date/time {value.isoformat()}){suffix}")
     try:
         v = float(value)
     except (TypeError, ValueError):
@@ -36,7 +57,7 @@ def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_
 
 
 def check_keys(table: Mapping, allowed: Iterable[str], where: str, required: Iterable[str] = ()):
-    """Refuse unknown and missing keys of a TOML table; the message lists the valid keys."""
+    """Refuse unknown and missing keys of a table; the message lists the valid keys."""
     allowed = list(allowed)
     for key in table:
         if key not in allowed:
@@ -49,24 +70,3 @@ def check_keys(table: Mapping, allowed: Iterable[str], where: str, required: Ite
 def where_join(*parts: str) -> str:
     """``where_join("[station]", "demo.toml")`` → ``"[station] of demo.toml"``."""
     return " of ".join(p for p in parts if p)
-
-
-def read_text(path) -> str:
-    """A UTF-8 text file's contents; a file that is not UTF-8 text gets an error naming it."""
-    import pathlib
-
-    try:
-        return pathlib.Path(path).read_text(encoding="utf-8")
-    except UnicodeDecodeError as exc:
-        raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
-
-
-def read_json(path):
-    """Parse a JSON/GeoJSON file; syntax errors name the file, line and column."""
-    import json
-
-    try:
-        return json.loads(read_text(path))
-    except json.JSONDecodeError as exc:
-        raise ValueError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}): "
-                         f"{exc.msg}") from None

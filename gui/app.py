@@ -250,15 +250,27 @@ class MainWindow(QMainWindow):
         if path:
             from .sheet import write_sheet
 
-            write_sheet(self.full_result, path)
+            try:
+                write_sheet(self.full_result, path)
+            except (ValueError, OSError) as exc:
+                QMessageBox.warning(self, "Cannot write the contour sheet", str(exc))
+                return False
+            return True
+        return False
 
     def export_files(self, folder=None):
         if self.full_result is None:
-            return
+            return False
         if not folder:
             folder = QFileDialog.getExistingDirectory(self, "Export to folder")
         if folder:
-            write_outputs(self.full_result, folder)
+            try:
+                write_outputs(self.full_result, folder)
+            except (ValueError, OSError) as exc:
+                QMessageBox.warning(self, "Cannot export", str(exc))
+                return False
+            return True
+        return False
 
     def closeEvent(self, ev):  # noqa: N802
         if not self._confirm_discard():
@@ -382,8 +394,23 @@ class MainWindow(QMainWindow):
 def run_gui(study=None, screenshot=None) -> int:
     """Start the application; with ``screenshot`` compute, save a PNG of the window and exit."""
     app = ensure_app(gui=True)
-    win = MainWindow()
-    if study:
+    settings = None
+    if screenshot:
+        # a batch picture must not touch the user's settings (recent files, units)
+        import tempfile
+
+        tmp_settings = tempfile.NamedTemporaryFile(prefix="mwreach-settings-", suffix=".ini",
+                                                   delete=False)
+        tmp_settings.close()
+        settings = QSettings(tmp_settings.name, QSettings.IniFormat)
+    win = MainWindow(settings)
+    if study and screenshot:
+        try:  # no dialog in batch use: the error goes to stderr
+            win.document.load(study)
+        except (ValueError, OSError) as exc:
+            print(f"mwreach gui: error: {str(exc).splitlines()[0]}", file=sys.stderr)
+            return 2
+    elif study:
         if not win.open_path(study):
             return 2
     elif screenshot:
@@ -399,8 +426,12 @@ def run_gui(study=None, screenshot=None) -> int:
             win.map.fit()
             app.processEvents()
             ok = win.grab().save(str(screenshot))
-            print(f"wrote {screenshot}" if ok else f"could not write {screenshot}")
-            status["rc"] = 0 if ok else 1
+            if ok:
+                print(f"wrote {screenshot}")
+            else:
+                print(f"mwreach gui: error: {screenshot}: cannot write the picture",
+                      file=sys.stderr)
+            status["rc"] = 0 if ok else 2
             app.quit()
 
         def failed(req, msg):
@@ -415,6 +446,7 @@ def run_gui(study=None, screenshot=None) -> int:
         win.computer.shutdown()
         win.deleteLater()
         app.processEvents()
+        pathlib.Path(settings.fileName()).unlink(missing_ok=True)
         return status["rc"]
     rc = app.exec()
     return int(rc)

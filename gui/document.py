@@ -5,12 +5,12 @@ from __future__ import annotations
 import copy
 import os
 import pathlib
-import tomllib
 
 from PySide6.QtCore import QObject, Signal
 
-from mwreach.coverage.export import atomic_write
-from mwreach.coverage.study import StudySpec, dump_toml, parse_study
+from mwreach.coverage.inputs import check_round_trip, dump_toml, load_study_doc, parse_study
+from mwreach.coverage.safefiles import atomic_write
+from mwreach.coverage.study import StudySpec
 
 __all__ = ["StudyDocument", "DEMO_PATH"]
 
@@ -65,26 +65,17 @@ class StudyDocument(QObject):
 
     def load(self, path) -> None:
         path = pathlib.Path(path).resolve()
-        with open(path, "rb") as fh:
-            try:
-                doc = tomllib.load(fh)
-            except tomllib.TOMLDecodeError as exc:
-                raise ValueError(f"{path}: {exc}") from None
-            except UnicodeDecodeError as exc:
-                raise ValueError(f"{path}: not UTF-8 text (byte {exc.start})") from None
+        doc, spec = load_study_doc(path)
         self.path, self.base_dir = path, path.parent
-        self.spec = self._validate(doc)
-        self.doc = doc
+        self.spec, self.doc = spec, doc
         self._set_dirty(False)
         self.pathChanged.emit(str(path))
         self.changed.emit()
 
     def new_from_demo(self) -> None:
-        with open(DEMO_PATH, "rb") as fh:
-            doc = tomllib.load(fh)
+        doc, spec = load_study_doc(DEMO_PATH)
         self.path, self.base_dir = None, DEMO_PATH.parent
-        self.spec = self._validate(doc)
-        self.doc = doc
+        self.spec, self.doc = spec, doc
         self._set_dirty(True)
         self.pathChanged.emit("")
         self.changed.emit()
@@ -111,7 +102,9 @@ class StudyDocument(QObject):
         self.changed.emit()
 
     def save(self, path=None) -> pathlib.Path:
-        """Write the study (atomically). Saving into another folder rewrites relative file names."""
+        """Write the study. The text is read back by the study parser before it replaces the old
+        file: if it would not open again as the same study, the old file stays and ValueError
+        says why. Saving into another folder rewrites relative file names."""
         target = pathlib.Path(path).resolve() if path else self.path
         if target is None:
             raise ValueError("choose a file name to save the study")
@@ -120,7 +113,12 @@ class StudyDocument(QObject):
             for table, key in _relative_paths(doc):
                 absolute = (self.base_dir / table[key]).resolve()
                 table[key] = os.path.relpath(absolute, target.parent)
-        atomic_write(target, dump_toml(doc))
+        try:
+            text = dump_toml(doc)
+        except (TypeError, ValueError) as exc:
+            raise ValueError(f"{target}: not saved ({exc})") from None
+        atomic_write(target, text,
+                     check=lambda data: check_round_trip(doc, data.decode("utf-8"), target))
         self.doc, self.path, self.base_dir = doc, target, target.parent
         self.spec = self._validate(doc)
         self._set_dirty(False)

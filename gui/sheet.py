@@ -94,8 +94,8 @@ def sheet_rows(result) -> list[dict]:
 
 
 class _Doc:
-    def __init__(self, path: pathlib.Path, paper: str, orientation: str, title: str):
-        self.writer = QPdfWriter(str(path))
+    def __init__(self, device, paper: str, orientation: str, title: str):
+        self.writer = QPdfWriter(device)
         self.writer.setResolution(DPI)
         size = QPageSize(QPageSize.A4 if paper == "A4" else QPageSize.Letter)
         orient = QPageLayout.Portrait if orientation == "portrait" else QPageLayout.Landscape
@@ -371,9 +371,17 @@ def write_sheet(result, path, paper: str | None = None, orientation: str | None 
         raise ValueError(f"paper must be 'A4' or 'Letter' (got {paper!r})")
     if orientation not in ("portrait", "landscape"):
         raise ValueError(f"orientation must be 'portrait' or 'landscape' (got {orientation!r})")
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.tmp")
-    doc = _Doc(tmp, paper, orientation, result.spec.title)
+    from PySide6.QtCore import QBuffer, QByteArray, QIODevice
+
+    from mwreach.coverage.safefiles import atomic_write, writable_folder
+
+    if path.is_dir():
+        raise ValueError(f"{path}: is a folder; give a file name for the sheet")
+    writable_folder(path.parent)  # fail before drawing, in one line
+    data = QByteArray()
+    buf = QBuffer(data)
+    buf.open(QIODevice.WriteOnly)
+    doc = _Doc(buf, paper, orientation, result.spec.title)
     pages = [lambda: _page_map(doc, result)] + _table_pages(doc, result)
     if result.interference is not None and result.interference.night is not None:
         pages.append(lambda: _page_night(doc, result))
@@ -385,5 +393,12 @@ def write_sheet(result, path, paper: str | None = None, orientation: str | None 
             doc.footer(i, len(pages), result.spec.station.name)
     finally:
         doc.painter.end()
-    tmp.replace(path)  # atomic: a crash never leaves a half-written sheet under the real name
+        buf.close()
+
+    def check(pdf: bytes):
+        if not (pdf.startswith(b"%PDF-") and b"%%EOF" in pdf[-1024:]):
+            raise ValueError(f"{path}: not saved; the PDF read back incomplete")
+
+    # the sheet is drawn in memory and written in one step: a failure keeps the old sheet
+    atomic_write(path, bytes(data.data()), check=check)
     return len(pages)

@@ -11,11 +11,10 @@ from mwreach.coverage.antenna import (
     Array,
     Element,
     Tower,
-    array_from_table,
-    array_to_table,
     electrical_deg,
     quarter_wave_m,
 )
+from mwreach.coverage.inputs import array_from_table, array_to_table
 
 
 def test_short_monopole_gives_300_mv_m_for_1_kw():
@@ -212,4 +211,4 @@ def test_cli_antenna_json(capsys):
     assert len(out["pattern_mv_m"]) == 360
     assert out["radiation_resistance_ohm"] == pytest.approx(36.5, rel=0.005)  # Kraus, from memory
     assert cli.main(["antenna", "--freq-khz", "1000", "--height-deg", "-1"]) == 2
-    assert "height_deg" in capsys.readouterr().err
+    assert "--height-deg" in capsys.readouterr().err

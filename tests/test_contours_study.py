@@ -13,7 +13,8 @@ from mwreach.coverage import groundwave as gw
 from mwreach.coverage.antenna import Array, Tower
 from mwreach.coverage.contours import crossings, field_raster, level_contour, radial_fields
 from mwreach.coverage.ground import GroundMap, Zone, ground_class
-from mwreach.coverage.study import Study, load_study, spec_to_toml
+from mwreach.coverage.inputs import load_study, spec_to_toml
+from mwreach.coverage.study import Study
 
 DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
 LAT, LON = 38.4, -46.2
@@ -138,7 +139,7 @@ def _study_text(**replace):
     [
         ("lat = 38.40", "lat = 138.4", r"lat must be >= -90 and <= 90 \(got 138.4\) in \[station\] of .*bad.toml"),
         ("power_day_kw = 1.0", "power_day_kw = -1.0", r"power_day_kw must be > 0 .*\[station\]"),
-        ("mixed_path = \"millington\"", "mixed_path = \"avg\"", "mixed_path must be one of millington, kirke"),
+        ("mixed_path = \"millington\"", "mixed_path = \"avg\"", "mixed_path must be one of 'millington', 'kirke'"),
         ("[output]", "[output]\ncolour = 1", r"unknown key 'colour' in \[output\] of .*bad.toml; valid keys"),
         ("field_mv_m = 5.0", "field_mv_m = nan", r"field_mv_m must be a finite number .*\[\[contour\]\] 1"),
         ("zones = \"zones.geojson\"", "zones = \"missing.geojson\"", "zones file .*missing.geojson.* not found"),

@@ -8,7 +8,8 @@ from pyproj import Geod
 from shapely.geometry import Polygon, box
 
 from mwreach.coverage import geodesy
-from mwreach.coverage.ground import Ground, GroundMap, Zone, ground_class, load_zones
+from mwreach.coverage.ground import Ground, GroundMap, Zone, ground_class
+from mwreach.coverage.inputs import load_zones
 
 LAT, LON = 38.4, -46.2
 
@@ -111,7 +112,7 @@ def test_zone_file_errors(tmp_path):
     feat = {"type": "Feature", "properties": {"conductivity_ms_m": -1, "permittivity": 10},
             "geometry": {"type": "Polygon", "coordinates": [[[0, 0], [1, 0], [1, 1], [0, 0]]]}}
     fc = {"type": "FeatureCollection", "features": [feat]}
-    with pytest.raises(ValueError, match=r"sigma_ms_m must be .*got -1.*feature 1 of .*z.geojson"):
+    with pytest.raises(ValueError, match=r"conductivity_ms_m must be .*got -1.*feature 1 of .*z.geojson"):
         load_zones(_write(tmp_path, fc), land)
     feat["properties"] = {"conductivity_ms_m": 3, "permittivity": 10, "colour": "red"}
     with pytest.raises(ValueError, match="unknown key 'colour' in properties of feature 1"):
@@ -141,7 +142,7 @@ def test_local_projection_equals_proj_aeqd():
 
 
 def test_binary_and_odd_files_are_named(tmp_path):
-    from mwreach.coverage.interference import read_neighbours_csv
+    from mwreach.coverage.inputs import read_neighbours_csv
 
     f = tmp_path / "z.geojson"
     f.write_bytes(b"\xff\xfe\x00garbage")

@@ -215,4 +215,4 @@ def test_cli_field_json_and_errors(capsys):
     assert cli.main(["field", "--freq-khz", "1000", "--sigma-ms-m", "nan", "--eps-r", "15",
                      "--km", "10"]) == 2
     err = capsys.readouterr().err
-    assert "sigma_ms_m" in err and err.count("\n") == 1
+    assert "--sigma-ms-m" in err and err.count("\n") == 1

@@ -117,7 +117,7 @@ def test_cli_sky_json(capsys):
     assert out["field_50_dbu"] == pytest.approx(expected, abs=1e-9)
     assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40.1", "-90",
                      "--method", "itu"]) == 2
-    assert "outside the ITU-R P.1147" in capsys.readouterr().err
+    assert "the ITU-R P.1147 method covers 50–12000 km" in capsys.readouterr().err
 
 
 def test_itu_latitude_cap():

@@ -9,7 +9,8 @@ pytest.importorskip("PySide6")
 from PySide6.QtCore import QPointF, QSettings, Qt  # noqa: E402
 from PySide6.QtTest import QTest  # noqa: E402
 
-from mwreach.coverage.study import Study, load_study  # noqa: E402
+from mwreach.coverage.inputs import load_study  # noqa: E402
+from mwreach.coverage.study import Study  # noqa: E402
 
 pytestmark = pytest.mark.gui
 DEMO = pathlib.Path(__file__).parents[2] / "data" / "demo" / "quellmoor.toml"

@@ -1,0 +1,870 @@
+"""Every file the tool reads, and every key of every table, checked in one place.
+
+Study files (TOML), array files (TOML), conductivity zones and community boundaries (GeoJSON) and
+neighbour lists (CSV) are read here and nowhere else. The physics modules take plain records
+(:class:`~.ground.Ground`, :class:`~.antenna.Array`, :class:`~.interference.Neighbour` …) and
+never open a file.
+
+Rules that hold for every input:
+
+- A mistake raises ``ValueError`` with one line that names the file, the table (or line and
+  column) and the key, the bad value and what is valid.
+- Numbers must be numbers: TOML booleans and quoted strings are refused, not converted. CSV
+  cells are text by nature and are converted here, with the line and column in any error.
+- A UTF-8 byte-order mark (as spreadsheets write) is accepted; text that is not UTF-8 is refused
+  with the file's name; a folder given where a file is expected is named as a folder.
+- Geometry that had to be repaired (self-intersections) is used repaired and reported in the
+  study's notes; an empty geometry or a coordinate that is not a finite lon/lat is an error.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as _dt
+import io
+import json
+import math
+import pathlib
+import tomllib
+
+import numpy as np
+
+from .validate import check_finite, check_keys, where_join
+
+__all__ = [
+    "read_text",
+    "read_toml",
+    "read_json",
+    "read_csv",
+    "file_key",
+    "text_value",
+    "choice",
+    "load_zones",
+    "read_boundary",
+    "array_from_table",
+    "array_to_table",
+    "neighbour_from_table",
+    "read_neighbours_csv",
+    "protection_from_table",
+    "night_from_table",
+    "parse_study",
+    "load_study",
+    "load_study_doc",
+    "dump_toml",
+    "spec_to_doc",
+    "spec_to_toml",
+    "check_round_trip",
+]
+
+
+# --- plain files -----------------------------------------------------------------------------
+
+def _existing_file(path, what: str = "file") -> pathlib.Path:
+    path = pathlib.Path(path)
+    if path.is_dir():
+        raise ValueError(f"{path}: is a folder; expected a {what}")
+    if not path.exists():
+        raise ValueError(f"{path}: {what} not found")
+    return path
+
+
+def read_text(path, what: str = "file") -> str:
+    """A UTF-8 text file's contents (a leading byte-order mark is dropped).
+
+    Errors name the file: not found, a folder, not UTF-8 text, unreadable.
+    """
+    path = _existing_file(path, what)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise ValueError(f"{path}: cannot read ({exc.strerror})") from None
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise ValueError(f"{path}: not UTF-8 text (byte {exc.start}); save it as UTF-8") from None
+
+
+def read_toml(path, what: str = "TOML file") -> dict:
+    """Parse a TOML file; syntax errors keep tomllib's line and column and name the file."""
+    text = read_text(path, what)
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ValueError(f"{path}: {exc}") from None
+
+
+def read_json(path, what: str = "GeoJSON file"):
+    """Parse a JSON/GeoJSON file; syntax errors name the file, line and column."""
+    text = read_text(path, what)
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise ValueError(f"{path}: not valid JSON (line {exc.lineno}, column {exc.colno}): "
+                         f"{exc.msg}") from None
+    except RecursionError:
+        raise ValueError(f"{path}: JSON nested too deeply") from None
+
+
+def read_csv(path, columns, required=()) -> list[tuple[str, dict]]:
+    """Rows of a CSV file with a header row: a list of (``"line N of FILE"``, {column: text}).
+
+    Empty cells are left out; unknown columns, missing required columns, rows with more cells
+    than the header and semicolon-separated files are refused with the file and line.
+    """
+    path = pathlib.Path(path)
+    text = read_text(path, "CSV file")
+    reader = csv.DictReader(io.StringIO(text, newline=""))
+    try:
+        header = reader.fieldnames
+    except csv.Error as exc:
+        raise ValueError(f"{path}: not a CSV file ({exc})") from None
+    if not header:
+        raise ValueError(f"{path}: empty file; expected a header row ({', '.join(columns)})")
+    names = [h.strip() for h in header]
+    if len(names) == 1 and ";" in names[0]:
+        raise ValueError(f"line 1 of {path}: the header is separated by semicolons; "
+                         "save the file with commas as separators")
+    for h in names:
+        if h not in columns:
+            raise ValueError(f"line 1 of {path}: unknown column {h!r}; valid columns: "
+                             f"{', '.join(columns)}")
+    for h in required:
+        if h not in names:
+            raise ValueError(f"line 1 of {path}: missing column {h!r}")
+    rows = []
+    try:
+        for row in reader:
+            where = f"line {reader.line_num} of {path}"
+            if None in row:
+                raise ValueError(f"{where}: more cells than header columns")
+            clean = {k.strip(): v.strip() for k, v in row.items()
+                     if isinstance(v, str) and v.strip() != ""}
+            if clean:
+                rows.append((where, clean))
+    except csv.Error as exc:
+        raise ValueError(f"line {reader.line_num} of {path}: not valid CSV ({exc})") from None
+    return rows
+
+
+def _csv_numbers(row: dict, keys, where: str) -> dict:
+    """CSV cells are text: convert the numeric columns, naming the column on failure."""
+    out = dict(row)
+    for k in keys:
+        if k in out:
+            try:
+                out[k] = float(out[k])
+            except ValueError:
+                raise ValueError(f"{k} must be a number (got {out[k]!r}) in {where}") from None
+    return out
+
+
+# --- typed values ----------------------------------------------------------------------------
+
+def text_value(name: str, value, where: str) -> str:
+    """A text value (names, titles, labels); numbers, booleans and dates are refused."""
+    if not isinstance(value, str):
+        raise ValueError(f"{name} must be text in quotes (got {_show(value)}) in {where}")
+    return value
+
+
+def choice(name: str, value, options, where: str):
+    """One of ``options``: text compared without regard to case, numbers by value; a boolean
+    is never taken for a number. Returns the option as spelled in ``options``."""
+    if not isinstance(value, (bool, np.bool_)):
+        for o in options:
+            if isinstance(o, str) and isinstance(value, str) and value.lower() == o.lower():
+                return o
+            if not isinstance(o, str) and isinstance(value, (int, float)) and value == o:
+                return o
+    shown = ", ".join(repr(o) if isinstance(o, str) else f"{o:g}" for o in options)
+    raise ValueError(f"{name} must be one of {shown} (got {_show(value)}) in {where}")
+
+
+def _show(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (_dt.date, _dt.time)):
+        return f"the date/time {value.isoformat()}"
+    return repr(value)
+
+
+def file_key(table: dict, key: str, where: str, base: pathlib.Path, what: str) -> pathlib.Path:
+    """A file named in a study table, resolved against the study's folder; it must exist."""
+    rel = table[key]
+    if not isinstance(rel, str) or not rel.strip():
+        raise ValueError(f"{key} must be a file name in quotes (got {_show(rel)}) in {where}")
+    path = base / rel
+    if path.is_dir():
+        raise ValueError(f"{key} = {rel!r} in {where} is a folder; expected a {what}")
+    if not path.exists():
+        raise ValueError(f"{what} {str(path)!r} not found ({key} in {where})")
+    return path
+
+
+def _table(doc: dict, key: str, where: str) -> dict:
+    value = doc.get(key, {})
+    if not isinstance(value, dict):
+        raise ValueError(f"[{key}] must be a table in {where}")
+    return value
+
+
+def _list_of_tables(doc: dict, key: str, where: str, label: str) -> list:
+    value = doc.get(key, [])
+    if not isinstance(value, list):
+        raise ValueError(f"{key} must be a list of {label} tables in {where}")
+    for i, t in enumerate(value, 1):
+        if not isinstance(t, dict):
+            raise ValueError(f"{label} {i} must be a table in {where}")
+    return value
+
+
+# --- GeoJSON ---------------------------------------------------------------------------------
+
+def _polygon(geom_json, where: str, notes: list):
+    """A shapely (Multi)Polygon from a GeoJSON geometry: finite lon/lat, non-empty, valid
+    (self-intersections repaired and reported in ``notes``)."""
+    import shapely
+    from shapely.geometry import shape
+
+    if not isinstance(geom_json, dict) or geom_json.get("type") not in ("Polygon",
+                                                                        "MultiPolygon"):
+        got = geom_json.get("type") if isinstance(geom_json, dict) else geom_json
+        raise ValueError(f"{where}: geometry must be a Polygon or MultiPolygon (got {got!r})")
+    try:
+        geom = shape(geom_json)
+        coords = shapely.get_coordinates(geom)
+    except Exception as exc:  # shapely raises several types for malformed coordinates
+        msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise ValueError(f"{where}: malformed coordinates ({msg})") from None
+    if coords.size and not np.isfinite(coords).all():
+        raise ValueError(f"{where}: coordinates must be finite numbers (found NaN or infinity)")
+    if geom.is_empty or geom.area == 0:
+        raise ValueError(f"{where}: the polygon is empty (no area)")
+    lon, lat = coords[:, 0], coords[:, 1]
+    if lon.min() < -180 or lon.max() > 360 or lat.min() < -90 or lat.max() > 90:
+        raise ValueError(f"{where}: coordinates must be lon/lat degrees (lon −180..360, lat "
+                         f"−90..90; bounds {tuple(round(v, 4) for v in geom.bounds)})")
+    if not geom.is_valid:
+        reason = shapely.is_valid_reason(geom)
+        geom = shapely.make_valid(geom)
+        geom = shapely.union_all([g for g in shapely.get_parts(geom)
+                                  if g.geom_type in ("Polygon", "MultiPolygon")])
+        notes.append(f"{where}: invalid polygon ({reason}) was repaired; check the drawing")
+        if geom.is_empty or geom.area == 0:
+            raise ValueError(f"{where}: the polygon is empty after repair ({reason})")
+    return geom
+
+
+def _features(data, path) -> list:
+    if not isinstance(data, dict) or data.get("type") != "FeatureCollection":
+        raise ValueError(f"{path}: expected a GeoJSON FeatureCollection")
+    features = data.get("features", [])
+    if not isinstance(features, list):
+        raise ValueError(f"{path}: 'features' must be a list of GeoJSON Features")
+    return features
+
+
+ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note")
+
+
+def load_zones(path, default, notes: list | None = None):
+    """Conductivity zones from a GeoJSON FeatureCollection → :class:`~.ground.GroundMap`.
+
+    Each feature: a Polygon or MultiPolygon (lon/lat, WGS84) with properties
+    ``conductivity_ms_m`` and ``permittivity`` (``name`` and ``note`` optional). Errors name the
+    file, the feature and the property; repairs go into ``notes``.
+    """
+    from .ground import Ground, GroundMap, Zone
+
+    notes = [] if notes is None else notes
+    path = pathlib.Path(path)
+    zones = []
+    for i, feat in enumerate(_features(read_json(path), path), 1):
+        where = f"feature {i} of {path}"
+        if not isinstance(feat, dict) or feat.get("type") != "Feature":
+            raise ValueError(f"{where}: expected a GeoJSON Feature")
+        props = feat.get("properties") or {}
+        if not isinstance(props, dict):
+            raise ValueError(f"{where}: properties must be an object")
+        check_keys(props, ZONE_PROPERTIES, f"properties of {where}",
+                   required=("conductivity_ms_m", "permittivity"))
+        name = props.get("name")
+        name = f"zone {i}" if name in (None, "") else text_value("name", name, where)
+        pw = f"properties of {where}"
+        ground = Ground(check_finite("conductivity_ms_m", props["conductivity_ms_m"], 1e-4, 1e7,
+                                     where=pw),
+                        check_finite("permittivity", props["permittivity"], 1.0, 100.0, where=pw),
+                        name=name, source=str(path.name))
+        zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes)))
+    return GroundMap(default, zones, source=str(path))
+
+
+def read_boundary(path, notes: list | None = None):
+    """A community boundary (GeoJSON Polygon/MultiPolygon, Feature or FeatureCollection)."""
+    import shapely
+
+    notes = [] if notes is None else notes
+    path = pathlib.Path(path)
+    data = read_json(path)
+    if isinstance(data, dict) and data.get("type") == "FeatureCollection":
+        geoms = [f.get("geometry") if isinstance(f, dict) else None
+                 for f in _features(data, path)]
+    elif isinstance(data, dict) and data.get("type") == "Feature":
+        geoms = [data.get("geometry")]
+    else:
+        geoms = [data]
+    if not geoms:
+        raise ValueError(f"{path}: no boundary polygon found")
+    parts = [_polygon(g, f"community boundary {i} of {path}" if len(geoms) > 1
+                      else f"community boundary in {path}", notes)
+             for i, g in enumerate(geoms, 1)]
+    return shapely.union_all(parts)
+
+
+# --- antennas --------------------------------------------------------------------------------
+
+TOWER_KEYS = (
+    "height_deg", "height_m", "top_loading_deg", "loss_ohm", "efficiency",
+    "field_ratio", "phase_deg", "spacing_deg", "orientation_deg",
+)
+
+
+def array_from_table(table: dict, freq_khz: float, where: str):
+    """An :class:`~.antenna.Array` from the antenna table of a study or an array file.
+
+    ``table`` holds ``rotation_deg`` (optional) and a list ``tower`` of tables with the keys of
+    :data:`TOWER_KEYS`; a tower needs exactly one of ``height_deg`` or ``height_m``.
+    """
+    from .antenna import MAX_TOWERS, Array, Element, Tower
+
+    check_keys(table, ("rotation_deg", "tower"), where, required=("tower",))
+    towers = table["tower"]
+    if not isinstance(towers, list) or not towers:
+        raise ValueError(f"'tower' must be a non-empty list of [[tower]] tables in {where}")
+    if len(towers) > MAX_TOWERS:
+        raise ValueError(f"an array must have 1 to {MAX_TOWERS} towers (got {len(towers)}) "
+                         f"in {where}")
+    elements = []
+    for i, t in enumerate(towers, 1):
+        tw = where_join(f"tower {i}", where)
+        if not isinstance(t, dict):
+            raise ValueError(f"tower {i} must be a table in {where}")
+        check_keys(t, TOWER_KEYS, tw)
+        if ("height_deg" in t) == ("height_m" in t):
+            raise ValueError(f"give exactly one of height_deg or height_m in {tw}")
+        num = {k: check_finite(k, t[k], where=tw) for k in TOWER_KEYS if k in t}
+        try:
+            common = dict(top_loading_deg=num.get("top_loading_deg", 0.0),
+                          loss_ohm=num.get("loss_ohm", 0.0), efficiency=num.get("efficiency"))
+            tower = (Tower(num["height_deg"], **common) if "height_deg" in num
+                     else Tower.from_height_m(num["height_m"], freq_khz, **common))
+            elements.append(Element(tower, field_ratio=num.get("field_ratio", 1.0),
+                                    phase_deg=num.get("phase_deg", 0.0),
+                                    spacing_deg=num.get("spacing_deg", 0.0),
+                                    orientation_deg=num.get("orientation_deg", 0.0)))
+        except ValueError as exc:
+            raise ValueError(f"{exc} in {tw}") from None
+    rotation = check_finite("rotation_deg", table.get("rotation_deg", 0.0), where=where)
+    try:
+        return Array(tuple(elements), rotation_deg=rotation)
+    except ValueError as exc:
+        raise ValueError(f"{exc} in {where}") from None
+
+
+def array_to_table(array) -> dict:
+    """Inverse of :func:`array_from_table` (electrical heights), for writing studies."""
+    towers = []
+    for e in array.elements:
+        t = {"height_deg": e.tower.height_deg, "field_ratio": e.field_ratio,
+             "phase_deg": e.phase_deg, "spacing_deg": e.spacing_deg,
+             "orientation_deg": e.orientation_deg}
+        if e.tower.top_loading_deg:
+            t["top_loading_deg"] = e.tower.top_loading_deg
+        if e.tower.efficiency is not None:
+            t["efficiency"] = e.tower.efficiency
+        else:
+            t["loss_ohm"] = e.tower.loss_ohm
+        towers.append(t)
+    return {"rotation_deg": array.rotation_deg, "tower": towers}
+
+
+# --- neighbours ------------------------------------------------------------------------------
+
+NEIGHBOUR_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw",
+                  "height_deg", "height_m", "loss_ohm", "array", "protected_day_mv_m",
+                  "protected_night_mv_m")
+NEIGHBOUR_REQUIRED = ("name", "lat", "lon", "freq_khz", "power_day_kw")
+_NEIGHBOUR_NUMBERS = ("lat", "lon", "freq_khz", "power_day_kw", "power_night_kw", "height_deg",
+                      "height_m", "loss_ohm", "protected_day_mv_m", "protected_night_mv_m")
+#: Defaults for a neighbour's protected contours [mV/m] when not given.
+DEFAULT_PROTECTED_DAY_MV_M = 0.5
+DEFAULT_PROTECTED_NIGHT_MV_M = 2.0
+
+
+def neighbour_from_table(t: dict, where: str, base: pathlib.Path, inputs: list | None = None):
+    """A :class:`~.interference.Neighbour` from a ``[[neighbour]]`` table (or a converted CSV
+    row). ``inputs`` collects the files read (array files)."""
+    from .antenna import Array, Element, Tower
+    from .geodesy import check_site
+    from .interference import Neighbour
+
+    check_keys(t, NEIGHBOUR_KEYS, where, required=NEIGHBOUR_REQUIRED)
+    name = text_value("name", t["name"], where)
+    if not name.strip():
+        raise ValueError(f"name must not be empty in {where}")
+    lat, lon = check_site(t["lat"], t["lon"], where=where)
+    freq = check_finite("freq_khz", t["freq_khz"], 150.0, 30_000.0, where=where)
+    p_day = check_finite("power_day_kw", t["power_day_kw"], 0.0, 1e4, where=where, low_open=True)
+    p_night = check_finite("power_night_kw", t.get("power_night_kw", p_day), 0.0, 1e4,
+                           where=where)
+    given = [k for k in ("height_deg", "height_m", "array") if k in t]
+    if len(given) != 1:
+        raise ValueError(f"give exactly one of height_deg, height_m or array in {where}")
+    desc = {k: t[k] for k in ("height_deg", "height_m", "loss_ohm", "array") if k in t}
+    if given[0] == "array":
+        apath = file_key(t, "array", where, base, "array file")
+        if inputs is not None:
+            inputs.append(apath)
+        if "loss_ohm" in t:
+            raise ValueError(f"give loss_ohm inside the array file, not beside array, in {where}")
+        antenna = array_from_table(read_toml(apath, "array file"), freq, str(apath))
+    else:
+        loss = check_finite("loss_ohm", t.get("loss_ohm", 0.0), 0.0, 1e4, where=where)
+        h = check_finite(given[0], t[given[0]], where=where)
+        try:
+            tower = (Tower(h, loss_ohm=loss) if given[0] == "height_deg"
+                     else Tower.from_height_m(h, freq, loss_ohm=loss))
+        except ValueError as exc:
+            raise ValueError(f"{exc} in {where}") from None
+        antenna = Array((Element(tower),))
+    return Neighbour(
+        name=name, lat=lat, lon=lon, freq_khz=freq, power_day_kw=p_day,
+        power_night_kw=p_night, antenna=antenna,
+        protected_day_mv_m=check_finite(
+            "protected_day_mv_m", t.get("protected_day_mv_m", DEFAULT_PROTECTED_DAY_MV_M),
+            0.01, 100.0, where=where),
+        protected_night_mv_m=check_finite(
+            "protected_night_mv_m", t.get("protected_night_mv_m", DEFAULT_PROTECTED_NIGHT_MV_M),
+            0.01, 100.0, where=where),
+        antenna_desc=desc,
+    )
+
+
+def read_neighbours_csv(path, inputs: list | None = None) -> list:
+    """Neighbours from a CSV file with a header row of :data:`NEIGHBOUR_KEYS` columns
+    (``name``, ``lat``, ``lon``, ``freq_khz``, ``power_day_kw`` required; an empty cell takes the
+    default). Errors name the file, the line and the column."""
+    path = pathlib.Path(path)
+    out = []
+    for where, row in read_csv(path, NEIGHBOUR_KEYS, NEIGHBOUR_REQUIRED):
+        out.append(neighbour_from_table(_csv_numbers(row, _NEIGHBOUR_NUMBERS, where), where,
+                                        path.parent, inputs))
+    return out
+
+
+# --- night and protection --------------------------------------------------------------------
+
+def protection_from_table(table: dict, where: str):
+    """``[protection]``: ``raster_khz`` and ``day_co_channel_db``, ``night_adjacent_1_db`` …"""
+    from .interference import DEFAULT_RATIOS, ORDINALS, ProtectionTable
+
+    keys = ["raster_khz"] + [f"{p}_{o}_db" for p in ("day", "night") for o in ORDINALS]
+    check_keys(table, keys, where)
+    raster = choice("raster_khz", table.get("raster_khz", 10), (10, 9), where)
+    ratios = dict(DEFAULT_RATIOS)
+    for p in ("day", "night"):
+        for i, o in enumerate(ORDINALS):
+            k = f"{p}_{o}_db"
+            if k in table:
+                v = check_finite(k, table[k], -60.0, 60.0, where=where)
+                default = DEFAULT_RATIOS.get((p, i))
+                same = default is not None and default[0] == v
+                ratios[(p, i)] = (v, default[1] if same else f"set in the study file ({k})")
+    return ProtectionTable(float(raster), ratios)
+
+
+def night_from_table(t: dict, where: str):
+    """``[night]``: sky-wave method and the night-limit settings."""
+    from .interference import NightSettings
+
+    check_keys(t, NightSettings.KEYS, where)
+    return NightSettings(
+        method=choice("method", t.get("method", "cfr"), ("cfr", "itu"), where),
+        percent=choice("percent", t.get("percent", 10), (10, 50), where),
+        exclusion_percent=choice("exclusion_percent", t.get("exclusion_percent", 50),
+                                 (0, 25, 50), where),
+        layer_height_km=check_finite("layer_height_km", t.get("layer_height_km", 100.0),
+                                     50.0, 500.0, where=where),
+        itu_region=choice("itu_region", t.get("itu_region", 2), (1, 2, 3), where),
+        solar=choice("solar", t.get("solar", "elsewhere"),
+                     ("north-america", "europe-australia", "elsewhere"), where),
+        sunspot=check_finite("sunspot", t.get("sunspot", 0.0), 0.0, 400.0, where=where),
+        floor_mv_m=check_finite("floor_mv_m", t.get("floor_mv_m", 0.5), 0.01, 100.0,
+                                where=where),
+        bearing_step_deg=check_finite("bearing_step_deg", t.get("bearing_step_deg", 5.0),
+                                      1.0, 45.0, where=where),
+    )
+
+
+# --- the study file --------------------------------------------------------------------------
+
+SECTIONS = ("study", "station", "antenna", "ground", "contour", "community", "output", "night",
+            "interference", "protection", "neighbour")
+STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
+              "step_km")
+STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw")
+GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones")
+CONTOUR_KEYS = ("field_mv_m", "label")
+COMMUNITY_KEYS = ("name", "boundary")
+OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg")
+INTERFERENCE_KEYS = ("protected_day_mv_m", "contour_step_deg", "neighbours")
+
+
+def parse_study(doc: dict, path="<study>"):
+    """Validate a parsed TOML study and build a :class:`~.study.StudySpec`.
+
+    Relative file names are resolved against the study file's folder. Every error names the
+    key, the section and the file.
+    """
+    from .contours import MAX_RADIAL_KM
+    from .geodesy import check_site
+    from .ground import Ground, GroundMap, ground_class
+    from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ
+    from .mixedpath import METHODS
+    from .station import Station
+    from .study import Community, Level, StudySpec
+
+    path = pathlib.Path(path)
+    fname = str(path)
+    base = path.parent
+    notes: list[str] = []
+    inputs: list[pathlib.Path] = [path]
+    if not isinstance(doc, dict):
+        raise ValueError(f"{fname}: a study must be a TOML document of tables")
+    check_keys(doc, SECTIONS, fname, required=("station", "antenna", "contour"))
+
+    st = _table(doc, "study", fname)
+    w = where_join("[study]", fname)
+    check_keys(st, STUDY_KEYS, w)
+    mixed = choice("mixed_path", st.get("mixed_path", "millington"), tuple(METHODS), w)
+    earth_k = check_finite("earth_k", st.get("earth_k", 4.0 / 3.0), *EARTH_K_RANGE, where=w)
+    step = check_finite("bearing_step_deg", st.get("bearing_step_deg", 1.0), 0.1, 90.0, where=w)
+    extra = st.get("bearings", [])
+    if not isinstance(extra, list):
+        raise ValueError(f"bearings must be a list of degrees in {w}")
+    extra = tuple(check_finite("bearings", b, 0.0, 360.0, where=w) for b in extra)
+    max_km = check_finite("max_km", st.get("max_km", 0.0), 0.0, MAX_RADIAL_KM, where=w)
+    step_km = check_finite("step_km", st.get("step_km", 0.25), 0.01, 5.0, where=w)
+
+    sta = _table(doc, "station", fname)
+    w = where_join("[station]", fname)
+    check_keys(sta, STATION_KEYS, w, required=("lat", "lon", "freq_khz", "power_day_kw"))
+    lat, lon = check_site(sta["lat"], sta["lon"], where=w)
+    freq = check_finite("freq_khz", sta["freq_khz"], *FREQ_RANGE_KHZ, where=w)
+    p_day = check_finite("power_day_kw", sta["power_day_kw"], 0.0, 1e4, where=w, low_open=True)
+    p_night = check_finite("power_night_kw", sta.get("power_night_kw", p_day), 0.0, 1e4, where=w)
+    name = text_value("name", sta.get("name", "unnamed station"), w)
+    array = array_from_table(_table(doc, "antenna", fname), freq, where_join("[antenna]", fname))
+    station = Station(name, lat, lon, freq, p_day, p_night, array)
+
+    gr = _table(doc, "ground", fname)
+    w = where_join("[ground]", fname)
+    check_keys(gr, GROUND_KEYS, w)
+    cls_name = ""
+    if "class" in gr:
+        if "sigma_ms_m" in gr or "eps_r" in gr:
+            raise ValueError(f"give either class or sigma_ms_m/eps_r, not both, in {w}")
+        cls_name = text_value("class", gr["class"], w)
+        default = ground_class(cls_name, where=w)
+    else:
+        if "sigma_ms_m" not in gr or "eps_r" not in gr:
+            raise ValueError(f"give class, or both sigma_ms_m and eps_r, in {w}")
+        default = Ground(check_finite("sigma_ms_m", gr["sigma_ms_m"], 1e-4, 1e7, where=w),
+                         check_finite("eps_r", gr["eps_r"], 1.0, 100.0, where=w),
+                         name="default ground")
+    zones_rel = ""
+    if "zones" in gr:
+        zpath = file_key(gr, "zones", w, base, "zones file")
+        zones_rel = gr["zones"]
+        inputs.append(zpath)
+        ground = load_zones(zpath, default, notes)
+    else:
+        ground = GroundMap(default)
+
+    contours = _list_of_tables(doc, "contour", fname, "[[contour]]")
+    if not contours:
+        raise ValueError(f"give at least one [[contour]] table in {fname}")
+    levels = []
+    for i, c in enumerate(contours, 1):
+        w = where_join(f"[[contour]] {i}", fname)
+        check_keys(c, CONTOUR_KEYS, w, required=("field_mv_m",))
+        levels.append(Level(check_finite("field_mv_m", c["field_mv_m"], 1e-4, 1e4, where=w),
+                            text_value("label", c.get("label", ""), w)))
+    levels.sort(key=lambda lv: -lv.field_mv_m)
+    seen = [lv.field_mv_m for lv in levels]
+    if len(set(seen)) != len(seen):
+        raise ValueError(f"each [[contour]] level must be given once in {fname}")
+
+    community = None
+    if "community" in doc:
+        cm = _table(doc, "community", fname)
+        w = where_join("[community]", fname)
+        check_keys(cm, COMMUNITY_KEYS, w, required=("boundary",))
+        bpath = file_key(cm, "boundary", w, base, "boundary file")
+        inputs.append(bpath)
+        community = Community(text_value("name", cm.get("name", "community"), w),
+                              read_boundary(bpath, notes), cm["boundary"])
+
+    out = _table(doc, "output", fname)
+    w = where_join("[output]", fname)
+    check_keys(out, OUTPUT_KEYS, w)
+    output = dict(out)
+    if "distance_units" in out:
+        choice("distance_units", out["distance_units"], ("km", "mi"), w)
+    if "paper" in out:
+        choice("paper", out["paper"], ("A4", "Letter"), w)
+    if "orientation" in out:
+        choice("orientation", out["orientation"], ("portrait", "landscape"), w)
+    if "table_step_deg" in out:
+        output["table_step_deg"] = check_finite("table_step_deg", out["table_step_deg"], 1.0,
+                                                90.0, where=w)
+
+    interference, neighbour_tables = _parse_interference(doc, base, fname, inputs)
+
+    st_title = st.get("title", station.name)
+    return StudySpec(
+        title=text_value("title", st_title, where_join("[study]", fname)),
+        station=station,
+        ground=ground,
+        levels=tuple(levels),
+        mixed_path=mixed,
+        earth_k=earth_k,
+        bearing_step_deg=step,
+        extra_bearings=extra,
+        max_km=max_km,
+        step_km=step_km,
+        community=community,
+        output=output,
+        path=fname,
+        zones_path=str(zones_rel),
+        ground_class=cls_name,
+        interference=interference,
+        neighbour_tables=neighbour_tables,
+        input_notes=tuple(notes),
+        input_files=tuple(str(p.resolve()) for p in dict.fromkeys(inputs)),
+    )
+
+
+def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list):
+    """``[night]``, ``[interference]``, ``[protection]`` and ``[[neighbour]]``."""
+    from .interference import InterferencePlan
+
+    if not any(k in doc for k in ("night", "interference", "protection", "neighbour")):
+        return None, ()
+    night = night_from_table(_table(doc, "night", fname), where_join("[night]", fname))
+    prot = protection_from_table(_table(doc, "protection", fname),
+                                 where_join("[protection]", fname))
+    it = _table(doc, "interference", fname)
+    w = where_join("[interference]", fname)
+    check_keys(it, INTERFERENCE_KEYS, w)
+    tables = _list_of_tables(doc, "neighbour", fname, "[[neighbour]]")
+    neighbours = [neighbour_from_table(t, where_join(f"[[neighbour]] {i}", fname), base, inputs)
+                  for i, t in enumerate(tables, 1)]
+    nfile = ""
+    if "neighbours" in it:
+        npath = file_key(it, "neighbours", w, base, "neighbours file")
+        nfile = it["neighbours"]
+        inputs.append(npath)
+        neighbours += read_neighbours_csv(npath, inputs)
+    names = [n.name for n in neighbours]
+    dup = {x for x in names if names.count(x) > 1}
+    if dup:
+        raise ValueError(f"neighbour names must be unique (repeated: {', '.join(sorted(dup))}) "
+                         f"in {fname}")
+    plan = InterferencePlan(
+        neighbours=tuple(neighbours), protection=prot, night=night,
+        protected_day_mv_m=check_finite("protected_day_mv_m", it.get("protected_day_mv_m", 0.5),
+                                        0.01, 100.0, where=w),
+        contour_step_deg=check_finite("contour_step_deg", it.get("contour_step_deg", 10.0),
+                                      1.0, 45.0, where=w),
+        neighbours_file=nfile,
+    )
+    return plan, tuple(dict(t) for t in tables)
+
+
+def load_study_doc(path):
+    """(TOML document, validated StudySpec) of a study file."""
+    path = pathlib.Path(path)
+    doc = read_toml(path, "study file")
+    return doc, parse_study(doc, path)
+
+
+def load_study(path):
+    """Read and validate a study file. TOML syntax errors keep tomllib's line and column."""
+    return load_study_doc(path)[1]
+
+
+# --- writing studies -------------------------------------------------------------------------
+
+_ESCAPES = {"\\": "\\\\", '"': '\\"', "\b": "\\b", "\t": "\\t", "\n": "\\n", "\f": "\\f",
+            "\r": "\\r"}
+
+
+def _toml_string(s: str) -> str:
+    out = []
+    for ch in s:
+        if ch in _ESCAPES:
+            out.append(_ESCAPES[ch])
+        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
+            out.append(f"\\u{ord(ch):04x}")
+        else:
+            out.append(ch)
+    return '"' + "".join(out) + '"'
+
+
+def _toml_key(k: str) -> str:
+    k = str(k)
+    if k and all(c.isascii() and (c.isalnum() or c in "-_") for c in k):
+        return k
+    return _toml_string(k)
+
+
+def _toml_value(v) -> str:
+    if isinstance(v, (bool, np.bool_)):
+        return "true" if v else "false"
+    if isinstance(v, (int, np.integer)):
+        return str(int(v))
+    if isinstance(v, (float, np.floating)):
+        f = float(v)
+        if math.isnan(f):
+            return "nan"
+        if math.isinf(f):
+            return "inf" if f > 0 else "-inf"
+        return repr(f)
+    if isinstance(v, str):
+        return _toml_string(v)
+    if isinstance(v, (_dt.datetime, _dt.date, _dt.time)):
+        return v.isoformat()
+    if isinstance(v, (list, tuple)):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    if isinstance(v, dict):
+        return "{" + ", ".join(f"{_toml_key(k)} = {_toml_value(x)}" for k, x in v.items()) + "}"
+    raise TypeError(f"cannot write {type(v).__name__} to TOML")
+
+
+def dump_toml(doc: dict) -> str:
+    """A study document (a dict as tomllib returns it) as TOML text.
+
+    Tables, arrays of tables and nested arrays of tables (``[[antenna.tower]]``) are written as
+    headers; text is escaped so that any character (newlines, control characters) reads back.
+    """
+    lines = ["# mwreach study file", ""]
+
+    def table(name: str, t: dict, array: bool = False):
+        lines.append(f"[[{name}]]" if array else f"[{name}]")
+        nested = []
+        for k, v in t.items():
+            if isinstance(v, list) and v and all(isinstance(x, dict) for x in v):
+                nested.append((k, v, True))
+            elif isinstance(v, dict):
+                nested.append((k, v, False))
+            else:
+                lines.append(f"{_toml_key(k)} = {_toml_value(v)}")
+        lines.append("")
+        for k, items, is_array in nested:
+            sub = f"{name}.{_toml_key(k)}"
+            if is_array:
+                for item in items:
+                    table(sub, item, array=True)
+            else:
+                table(sub, items)
+
+    for key, value in doc.items():
+        if isinstance(value, dict):
+            table(_toml_key(key), value)
+        elif isinstance(value, list) and value and all(isinstance(x, dict) for x in value):
+            for item in value:
+                table(_toml_key(key), item, array=True)
+        elif isinstance(value, list) and not value:
+            continue
+        else:
+            raise ValueError(f"top-level key {key!r} must be a table")
+    return "\n".join(lines)
+
+
+def _plain(v):
+    """Normalise a document for comparison (tuples → lists, numpy scalars → Python)."""
+    if isinstance(v, dict):
+        return {str(k): _plain(x) for k, x in v.items()}
+    if isinstance(v, (list, tuple)):
+        return [_plain(x) for x in v]
+    if isinstance(v, np.generic):
+        return v.item()
+    return v
+
+
+def check_round_trip(doc: dict, text: str, path) -> dict:
+    """Read ``text`` back with the study parser; it must give ``doc`` again and a valid study.
+
+    Returns the parsed document; raises ValueError (naming ``path``) when the text would not
+    open again as the same study.
+    """
+    try:
+        again = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ValueError(f"{path}: not saved; the written text does not read back ({exc})") from None
+    want = {k: v for k, v in _plain(doc).items() if v != []}
+    if _plain(again) != want:
+        raise ValueError(f"{path}: not saved; the written text reads back differently")
+    parse_study(again, path)
+    return again
+
+
+def spec_to_doc(spec) -> dict:
+    """The study as a TOML document (the structure :func:`parse_study` reads)."""
+    from .interference import ORDINALS
+
+    s = spec.station
+    doc: dict = {}
+    study = {"title": spec.title, "mixed_path": spec.mixed_path, "earth_k": spec.earth_k,
+             "bearing_step_deg": spec.bearing_step_deg, "step_km": spec.step_km}
+    if spec.extra_bearings:
+        study["bearings"] = list(spec.extra_bearings)
+    if spec.max_km:
+        study["max_km"] = spec.max_km
+    doc["study"] = study
+    doc["station"] = {"name": s.name, "lat": s.lat, "lon": s.lon, "freq_khz": s.freq_khz,
+                      "power_day_kw": s.power_day_kw, "power_night_kw": s.power_night_kw}
+    doc["antenna"] = array_to_table(s.antenna)
+    g = spec.ground.default
+    ground = {"class": spec.ground_class} if spec.ground_class else {
+        "sigma_ms_m": g.sigma_ms_m, "eps_r": g.eps_r}
+    if spec.zones_path:
+        ground["zones"] = spec.zones_path
+    doc["ground"] = ground
+    doc["contour"] = [{"field_mv_m": lv.field_mv_m, **({"label": lv.label} if lv.label else {})}
+                      for lv in spec.levels]
+    if spec.community is not None:
+        doc["community"] = {"name": spec.community.name, "boundary": spec.community.path}
+    if spec.output:
+        doc["output"] = dict(spec.output)
+    plan = spec.interference
+    if plan is not None:
+        doc["night"] = plan.night.to_table()
+        inter = {"protected_day_mv_m": plan.protected_day_mv_m,
+                 "contour_step_deg": plan.contour_step_deg}
+        if plan.neighbours_file:
+            inter["neighbours"] = plan.neighbours_file
+        doc["interference"] = inter
+        prot = {"raster_khz": int(plan.protection.raster_khz)}
+        for (period, off), (ratio, _src) in sorted(plan.protection.ratios.items()):
+            prot[f"{period}_{ORDINALS[off]}_db"] = ratio
+        doc["protection"] = prot
+        if spec.neighbour_tables:
+            doc["neighbour"] = [dict(t) for t in spec.neighbour_tables]
+    return doc
+
+
+def spec_to_toml(spec) -> str:
+    """A study written back as TOML (the format :func:`load_study` reads)."""
+    return dump_toml(spec_to_doc(spec))
