@@ -176,10 +176,11 @@ class GroundMap:
             if key not in cache:
                 if len(cache) >= 64:  # a study's own site and its neighbours' sites
                     cache.pop(next(iter(cache)))
-                cache[key] = [
-                    projection.geom_to_xy(shapely.segmentize(z.geometry, 0.01))
-                    for z in self.zones
-                ]
+                xy = [projection.geom_to_xy(shapely.segmentize(z.geometry, 0.01))
+                      for z in self.zones]
+                # a zone near the antipode of the site folds over in this projection; such a
+                # zone is far beyond any radial, and make_valid keeps GEOS queries well-defined
+                cache[key] = [g if g.is_valid else shapely.make_valid(g) for g in xy]
             return cache[key]
 
     def radial_sections(self, lat, lon, bearings_deg, max_km: float):

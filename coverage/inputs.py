@@ -26,6 +26,7 @@ import json
 import math
 import pathlib
 import tomllib
+import warnings
 
 import numpy as np
 
@@ -59,10 +60,14 @@ __all__ = [
 
 # --- plain files -----------------------------------------------------------------------------
 
+def _article(what: str) -> str:
+    return ("an " if what[:1].lower() in "aeiou" else "a ") + what
+
+
 def _existing_file(path, what: str = "file") -> pathlib.Path:
     path = pathlib.Path(path)
     if path.is_dir():
-        raise ValueError(f"{path}: is a folder; expected a {what}")
+        raise ValueError(f"{path}: is a folder; expected {_article(what)}")
     if not path.exists():
         raise ValueError(f"{path}: {what} not found")
     return path
@@ -195,7 +200,7 @@ def file_key(table: dict, key: str, where: str, base: pathlib.Path, what: str) -
         raise ValueError(f"{key} must be a file name in quotes (got {_show(rel)}) in {where}")
     path = base / rel
     if path.is_dir():
-        raise ValueError(f"{key} = {rel!r} in {where} is a folder; expected a {what}")
+        raise ValueError(f"{key} = {rel!r} in {where} is a folder; expected {_article(what)}")
     if not path.exists():
         raise ValueError(f"{what} {str(path)!r} not found ({key} in {where})")
     return path
@@ -231,14 +236,16 @@ def _polygon(geom_json, where: str, notes: list):
         got = geom_json.get("type") if isinstance(geom_json, dict) else geom_json
         raise ValueError(f"{where}: geometry must be a Polygon or MultiPolygon (got {got!r})")
     try:
-        geom = shape(geom_json)
+        with warnings.catch_warnings():  # NaN coordinates: refused just below, in one line
+            warnings.simplefilter("ignore", RuntimeWarning)
+            geom = shape(geom_json)
         coords = shapely.get_coordinates(geom)
     except Exception as exc:  # shapely raises several types for malformed coordinates
         msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise ValueError(f"{where}: malformed coordinates ({msg})") from None
     if coords.size and not np.isfinite(coords).all():
         raise ValueError(f"{where}: coordinates must be finite numbers (found NaN or infinity)")
-    if geom.is_empty or geom.area == 0:
+    if geom.is_empty:
         raise ValueError(f"{where}: the polygon is empty (no area)")
     lon, lat = coords[:, 0], coords[:, 1]
     if lon.min() < -180 or lon.max() > 360 or lat.min() < -90 or lat.max() > 90:
@@ -250,8 +257,8 @@ def _polygon(geom_json, where: str, notes: list):
         geom = shapely.union_all([g for g in shapely.get_parts(geom)
                                   if g.geom_type in ("Polygon", "MultiPolygon")])
         notes.append(f"{where}: invalid polygon ({reason}) was repaired; check the drawing")
-        if geom.is_empty or geom.area == 0:
-            raise ValueError(f"{where}: the polygon is empty after repair ({reason})")
+    if geom.is_empty or geom.area == 0:
+        raise ValueError(f"{where}: the polygon is empty (no area)")
     return geom
 
 

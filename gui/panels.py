@@ -3,6 +3,8 @@ result views only display a StudyResult."""
 
 from __future__ import annotations
 
+import copy
+
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QAbstractTableModel, QModelIndex, QSortFilterProxyModel, Qt
@@ -107,18 +109,32 @@ class StationEditor(_Editor):
         self._loading = False
 
 
+def _cell_text(v) -> str:
+    return "" if v is None else f"{v:g}" if isinstance(v, float) else str(v)
+
+
 class _TableEditor(_Editor):
-    """A table whose rows become a list of TOML tables. Subclasses give ``COLUMNS``,
-    ``rows_from_doc()`` (rows to show) and ``write_rows(doc, rows)`` (where rows go)."""
+    """A table whose rows are a list of TOML tables in the document. Subclasses give
+    ``COLUMNS`` and ``DOC_PATH`` (where the list of tables lives in the document), and may override
+    ``exclusive`` (keys that replace each other, such as height_deg and height_m).
+
+    An edit changes only the cells whose text the user changed; keys the table does not show,
+    and values it shows rounded, survive untouched.
+    """
 
     COLUMNS: list[tuple[str, str]] = []
+    TEXT_KEYS = ("label", "name", "array")
+    exclusive: tuple[tuple[str, str], ...] = ()
+    DOC_PATH: tuple[str, ...] = ()
 
     def __init__(self, document, parent=None):
         super().__init__(document, parent)
         lay = QVBoxLayout(self)
         self.table = QTableWidget(0, len(self.COLUMNS))
         self.table.setHorizontalHeaderLabels([c[1] for c in self.COLUMNS])
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        header = self.table.horizontalHeader()
+        header.setSectionResizeMode(QHeaderView.ResizeToContents)
+        header.setStretchLastSection(True)
         self.table.cellChanged.connect(self._changed)
         lay.addWidget(self.table)
         buttons = QHBoxLayout()
@@ -131,35 +147,63 @@ class _TableEditor(_Editor):
         buttons.addStretch(1)
         lay.addLayout(buttons)
         lay.addWidget(self.message)
+        self._shown: list[dict] = []  # the tables as shown, to tell edited cells apart
+
+    def doc_rows(self, doc) -> list:
+        """The document's list of tables at :attr:`DOC_PATH` (created if missing)."""
+        *tables, key = self.DOC_PATH
+        for t in tables:
+            doc = doc.setdefault(t, {})
+        return doc.setdefault(key, [])
+
+    def rows_from_doc(self):
+        return [dict(t) for t in self.doc_rows(copy.deepcopy(self.document.doc))]
 
     def refresh(self):
         if self.message.text():
             return  # a refused edit is pending: keep what the user typed in the table
         self._loading = True
         rows = self.rows_from_doc()
+        self._shown = rows
         self.table.setRowCount(len(rows))
         for i, r in enumerate(rows):
             for j, (key, _) in enumerate(self.COLUMNS):
-                v = r.get(key, "")
-                self.table.setItem(i, j, QTableWidgetItem("" if v is None else f"{v:g}" if isinstance(v, float) else str(v)))
+                self.table.setItem(i, j, QTableWidgetItem(_cell_text(r.get(key))))
         self._loading = False
 
-    def _table_rows(self) -> list[dict]:
+    def _edited_rows(self) -> list[dict]:
+        """The document's tables with the user's changed cells applied."""
         out = []
         for i in range(self.table.rowCount()):
-            row = {}
+            orig = self._shown[i] if i < len(self._shown) else {}
+            row = dict(orig)
+            changed = set()
             for j, (key, _) in enumerate(self.COLUMNS):
                 item = self.table.item(i, j)
                 text = item.text().strip() if item else ""
-                if text != "":
-                    row[key] = text if key in ("label", "name", "array") else _number_or_text(text)
+                if text == _cell_text(orig.get(key)):
+                    continue  # untouched: keep the exact value (and its absence)
+                changed.add(key)
+                if text == "":
+                    row.pop(key, None)
+                else:
+                    row[key] = text if key in self.TEXT_KEYS else _number_or_text(text)
+            for a, b in self.exclusive:  # entering one drops the other
+                if a in changed and a in row:
+                    row.pop(b, None)
+                elif b in changed and b in row:
+                    row.pop(a, None)
             out.append(row)
         return out
+
+    def write_rows(self, doc, rows):
+        target = self.doc_rows(doc)
+        target[:] = [r for r in rows if r]  # a fresh empty row is not a table yet
 
     def _changed(self, *_):
         if self._loading:
             return
-        rows = self._table_rows()
+        rows = self._edited_rows()
         self.apply(lambda d: self.write_rows(d, rows))
 
     def _add(self):
@@ -171,14 +215,18 @@ class _TableEditor(_Editor):
         r = self.table.currentRow()
         if r >= 0:
             self.table.removeRow(r)
+            if r < len(self._shown):
+                del self._shown[r]
             self._changed()
 
 
 class AntennaEditor(_TableEditor):
-    COLUMNS = [("height_deg", "Height [deg]"), ("top_loading_deg", "Top loading [deg]"),
-               ("field_ratio", "Field ratio"), ("phase_deg", "Phase [deg]"),
-               ("spacing_deg", "Spacing [deg]"), ("orientation_deg", "Orientation [deg true]"),
-               ("loss_ohm", "Loss [Ω]")]
+    COLUMNS = [("height_deg", "Height [deg]"), ("height_m", "Height [m]"),
+               ("top_loading_deg", "Top loading [deg]"), ("field_ratio", "Field ratio"),
+               ("phase_deg", "Phase [deg]"), ("spacing_deg", "Spacing [deg]"),
+               ("orientation_deg", "Orientation [deg true]"), ("loss_ohm", "Loss [Ω]"),
+               ("efficiency", "Efficiency")]
+    exclusive = (("height_deg", "height_m"), ("loss_ohm", "efficiency"))
 
     def __init__(self, document, parent=None):
         super().__init__(document, parent)
@@ -192,19 +240,7 @@ class AntennaEditor(_TableEditor):
         row.addWidget(self.rotation)
         self.layout().insertLayout(0, row)
 
-    def rows_from_doc(self):
-        spec = self.document.spec
-        out = []
-        for e in spec.station.antenna.elements:
-            out.append({"height_deg": round(e.tower.height_deg, 3),
-                        "top_loading_deg": e.tower.top_loading_deg, "field_ratio": e.field_ratio,
-                        "phase_deg": e.phase_deg, "spacing_deg": e.spacing_deg,
-                        "orientation_deg": e.orientation_deg, "loss_ohm": e.tower.loss_ohm})
-        return out
-
-    def write_rows(self, doc, rows):
-        ant = doc.setdefault("antenna", {})
-        ant["tower"] = rows
+    DOC_PATH = ("antenna", "tower")
 
     def refresh(self):
         super().refresh()
@@ -213,9 +249,11 @@ class AntennaEditor(_TableEditor):
         st = self.document.spec.station
         phys = ", ".join(f"{float(height_m(e.tower.height_deg, st.freq_khz)):.1f} m"
                          for e in st.antenna.elements)
-        self.heights.setText(f"Physical heights at {st.freq_khz:g} kHz: {phys} (a quarter wave is "
-                             f"{float(quarter_wave_m(st.freq_khz)):.1f} m). Heights are entered in "
-                             "electrical degrees here; study files may also give height_m.")
+        elec = ", ".join(f"{e.tower.height_deg:.1f}°" for e in st.antenna.elements)
+        self.heights.setText(f"At {st.freq_khz:g} kHz: {elec} electrical = {phys} (a quarter "
+                             f"wave is {float(quarter_wave_m(st.freq_khz)):.1f} m). Give each "
+                             "tower's height in degrees or in metres; metres stay right when the "
+                             "frequency changes.")
 
     def _rotation(self):
         v = _number_or_text(self.rotation.text())
@@ -226,11 +264,7 @@ class AntennaEditor(_TableEditor):
 class LevelsEditor(_TableEditor):
     COLUMNS = [("field_mv_m", "Level [mV/m]"), ("label", "Label")]
 
-    def rows_from_doc(self):
-        return [{"field_mv_m": lv.field_mv_m, "label": lv.label} for lv in self.document.spec.levels]
-
-    def write_rows(self, doc, rows):
-        doc["contour"] = rows
+    DOC_PATH = ("contour",)
 
 
 class GroundEditor(_Editor):
@@ -321,7 +355,8 @@ class NeighboursEditor(_TableEditor):
 
     COLUMNS = [("name", "Name"), ("lat", "Lat"), ("lon", "Lon"), ("freq_khz", "kHz"),
                ("power_day_kw", "Day kW"), ("power_night_kw", "Night kW"),
-               ("height_deg", "Height [deg]"), ("array", "Array file"), ("loss_ohm", "Loss [Ω]"),
+               ("height_deg", "Height [deg]"), ("height_m", "Height [m]"), ("array", "Array file"),
+               ("loss_ohm", "Loss [Ω]"),
                ("protected_day_mv_m", "Protected day mV/m"),
                ("protected_night_mv_m", "Protected night mV/m")]
 
@@ -346,15 +381,14 @@ class NeighboursEditor(_TableEditor):
                              "height_deg | height_m | array, loss_ohm, protected_day_mv_m, "
                              "protected_night_mv_m"))
 
-    def rows_from_doc(self):
-        return [dict(t) for t in self.document.doc.get("neighbour", [])]
+    exclusive = (("height_deg", "height_m"), ("height_deg", "array"), ("height_m", "array"))
+
+    DOC_PATH = ("neighbour",)
 
     def write_rows(self, doc, rows):
-        rows = [r for r in rows if r]  # a fresh empty row is not a neighbour yet
-        if rows:
-            doc["neighbour"] = rows
-        else:
-            doc.pop("neighbour", None)
+        super().write_rows(doc, rows)
+        if not doc["neighbour"]:
+            doc.pop("neighbour")
 
     def refresh(self):
         super().refresh()

@@ -224,3 +224,93 @@ def test_antenna_editor_shows_physical_height(qtbot, window):
     # the demo tower is 62.0 m (study file height_m); a quarter wave at 1390 kHz is 53.9 m
     text = window.antenna_editor.heights.text()
     assert "62.0 m" in text and "53.9 m" in text
+
+
+def _study_with_tower(folder, tower_lines):
+    text = DEMO.read_text(encoding="utf-8").replace("height_m = 62.0             # about 103 "
+                                                    "electrical degrees at 1390 kHz\nloss_ohm = 1.0",
+                                                    tower_lines)
+    assert tower_lines in text
+    f = folder / "tower.toml"
+    f.write_text(text, encoding="utf-8")
+    return f
+
+
+def test_tower_edit_changes_only_the_edited_key(qtbot, window, demo_copy):
+    from PySide6.QtWidgets import QTableWidgetItem
+
+    f = _study_with_tower(demo_copy, "height_m = 62.0\nefficiency = 0.9")
+    _open_and_wait(qtbot, window, f)
+    ed = window.antenna_editor
+    cols = [k for k, _ in ed.COLUMNS]
+    assert ed.table.item(0, cols.index("height_m")).text() == "62"
+    ed.table.setItem(0, cols.index("phase_deg"), QTableWidgetItem("10"))
+    assert ed.message.text() == ""
+    tower = window.document.doc["antenna"]["tower"][0]
+    assert tower == {"height_m": 62.0, "efficiency": 0.9, "phase_deg": 10.0}
+    # entering degrees replaces the metres (one height per tower)
+    ed.table.setItem(0, cols.index("height_deg"), QTableWidgetItem("90"))
+    assert window.document.doc["antenna"]["tower"][0] == {"height_deg": 90.0, "efficiency": 0.9,
+                                                          "phase_deg": 10.0}
+
+
+def test_neighbour_with_height_m_is_editable(qtbot, window):
+    from PySide6.QtWidgets import QTableWidgetItem
+
+    _open_and_wait(qtbot, window)
+    ed = window.neighbours_editor
+    cols = [k for k, _ in ed.COLUMNS]
+    ed.table.setItem(0, cols.index("height_m"), QTableWidgetItem("70"))
+    assert ed.message.text() == ""
+    t = window.document.doc["neighbour"][0]
+    assert t["height_m"] == 70.0 and "array" not in t and t["name"] == "Varnholt Radio"
+
+
+@pytest.mark.parametrize("title", ["line one\nline two", "bell \u0001 and delete \u007f",
+                                   'quote " back\\slash \t tab'])
+def test_save_reopen_text_with_control_characters(qtbot, window, tmp_path, title):
+    _open_and_wait(qtbot, window)
+    assert window.document.try_update(lambda d: d["study"].__setitem__("title", title)) is None
+    target = tmp_path / "ctl.toml"
+    assert window._save_to(str(target))
+    assert load_study(target).title == title
+
+
+def test_save_that_would_not_read_back_keeps_the_old_file(qtbot, window, tmp_path, monkeypatch):
+    _open_and_wait(qtbot, window)
+    target = tmp_path / "keep.toml"
+    assert window._save_to(str(target))
+    before = target.read_bytes()
+    warnings = []
+    monkeypatch.setattr("mwreach.gui.app.QMessageBox.warning",
+                        lambda *a: warnings.append(a[2]))
+    monkeypatch.setattr("mwreach.gui.document.dump_toml", lambda doc: "title = = broken\n")
+    assert not window._save_to(str(target))
+    assert target.read_bytes() == before
+    assert "not saved; the written text does not read back" in warnings[0]
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]
+
+
+def test_date_value_is_refused_at_the_field(qtbot, window):
+    import datetime
+
+    _open_and_wait(qtbot, window)
+    err = window.document.try_update(
+        lambda d: d["study"].__setitem__("title", datetime.date(2026, 1, 2)))
+    assert "title must be text in quotes (got the date/time 2026-01-02)" in err
+
+
+def test_open_and_export_errors_show_a_dialog(qtbot, window, tmp_path, monkeypatch):
+    warnings = []
+    monkeypatch.setattr("mwreach.gui.app.QMessageBox.warning",
+                        lambda *a: warnings.append((a[1], a[2])))
+    assert not window.open_path(str(tmp_path / "missing.toml"))
+    assert warnings[-1][0] == "Cannot open study" and "not found" in warnings[-1][1]
+    _open_and_wait(qtbot, window)
+    blocker = tmp_path / "afile"
+    blocker.write_text("x")
+    assert not window.export_files(str(blocker / "sub"))
+    assert warnings[-1][0] == "Cannot export"
+    assert not window.export_sheet(str(blocker / "sheet.pdf"))
+    assert warnings[-1][0] == "Cannot write the contour sheet"
+    assert blocker.read_text() == "x"
