@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .geodesy import LocalProjection, geodesic_area_km2
+from .geodesy import LocalProjection, geodesic_area_km2, xy_to_lonlat_geometry
 from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
 from .mixedpath import path_field_db
@@ -25,6 +25,7 @@ __all__ = [
     "level_contour",
     "first_crossings",
     "contour_geometry",
+    "polar_region",
     "field_raster",
 ]
 
@@ -169,15 +170,6 @@ class LevelContour:
         return np.array([bool(f) for f in self.further])
 
 
-def _wedge(b_deg: float, half_deg: float, d1: float, d2: float):
-    from shapely.geometry import Polygon
-
-    a = np.radians([b_deg - half_deg, b_deg + half_deg])
-    pts = [(d1 * np.sin(a[0]), d1 * np.cos(a[0])), (d2 * np.sin(a[0]), d2 * np.cos(a[0])),
-           (d2 * np.sin(a[1]), d2 * np.cos(a[1])), (d1 * np.sin(a[1]), d1 * np.cos(a[1]))]
-    return Polygon(pts)
-
-
 def first_crossings(radials: RadialFields, level_dbu):
     """First falling crossing per bearing and the further stretches above the level.
 
@@ -209,43 +201,107 @@ def first_crossings(radials: RadialFields, level_dbu):
             if rdir[k] != 1:
                 continue
             end = rest[k + 1] if k + 1 < rest.size else d[-1]
-            spans.append((float(rest[k]), float(end)))
+            if end - rest[k] > 1e-6:  # a profile that only touches the level is no recovery
+                spans.append((float(rest[k]), float(end)))
         further.append(spans)
     return first, further
 
 
-def contour_geometry(bearings_deg, first_km, further, end_km: float,
-                     projection: LocalProjection, community_lonlat=None):
-    """Contour polygon from per-bearing distances, plus islands where the field recovers.
+def _densify_bearing(ring, max_deg: float):
+    """Insert vertices so that no edge of a (distance, bearing) ring spans more than
+    ``max_deg`` of bearing (an edge along a fixed distance becomes an arc on the ground)."""
+    d, b = ring[:, 0], ring[:, 1]
+    n = np.maximum(1, np.ceil(np.abs(np.diff(b)) / max_deg).astype(int))
+    if n.max() == 1:
+        return ring
+    idx = np.repeat(np.arange(n.size), n)
+    t = np.concatenate([np.arange(k) / k for k in n])
+    out_d = d[idx] + t * (d[idx + 1] - d[idx])
+    out_b = b[idx] + t * (b[idx + 1] - b[idx])
+    return np.column_stack([np.append(out_d, d[-1]), np.append(out_b, b[-1])])
 
-    Returns (polygon in local xy [km], polygon in lon/lat, geodesic area [km²], community share
-    or None).
+
+def _ring_xy(ring, max_deg):
+    r = _densify_bearing(ring, max_deg)
+    a = np.radians(np.mod(r[:, 1], 360.0))
+    return np.column_stack([r[:, 0] * np.sin(a), r[:, 0] * np.cos(a)])
+
+
+def polar_region(bearings_deg, dist_km, field_dbu, level_dbu):
+    """The area where the field is at or above the level, as geometry in the site's local
+    azimuthal-equidistant plane [km].
+
+    The field on the polar grid (bearings × distances) is contoured with contourpy's filled
+    marching squares in (distance, bearing) space, so that recoveries (islands) and holes come
+    out as they are. The bearing axis wraps: it is contoured in two overlapping halves, each
+    mapped to the ground through x = d sin β, y = d cos β (edges along a fixed distance
+    densified to arcs), and the halves are united. Inside the first distance the field there is
+    taken as it is at the first distance.
+
+    Parameters
+    ----------
+    bearings_deg : (nb,) [deg true], any order, at least 3
+    dist_km : (nd,) increasing [km]
+    field_dbu : (nb, nd) [dBµV/m]
+    level_dbu : scalar or (nb,) level per bearing [dBµV/m]
+
+    Returns
+    -------
+    shapely Polygon or MultiPolygon (empty when the level is nowhere reached)
     """
+    import contourpy
     import shapely
     from shapely.geometry import Polygon
 
-    nb = len(bearings_deg)
-    reach = np.where(np.isnan(first_km), 0.0, np.where(np.isinf(first_km), end_km, first_km))
-    b = np.radians(bearings_deg)
-    if nb >= 3:
-        poly = Polygon(np.column_stack([reach * np.sin(b), reach * np.cos(b)]))
-        if not poly.is_valid:
-            poly = shapely.make_valid(poly)
-    else:
-        poly = Polygon()
-    step = 360.0 / nb if nb else 0.0
-    wedges = [_wedge(bearings_deg[i], step / 2, a, e) for i, sp in enumerate(further) for a, e in sp]
-    if wedges:
-        poly = shapely.unary_union([poly, *wedges])
-    poly_ll = projection.geom_to_lonlat(poly) if not poly.is_empty else poly
+    b = np.asarray(bearings_deg, dtype=float)
+    if b.size < 3:
+        return Polygon()
+    order = np.argsort(b)
+    b = b[order]
+    z = np.asarray(field_dbu, dtype=float)[order] - np.broadcast_to(
+        np.asarray(level_dbu, dtype=float), b.shape)[order][:, None]
+    z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
+    d = np.concatenate([[0.0], np.asarray(dist_km, dtype=float)])
+    k = 2  # rows wrapped onto each side, so that both halves overlap the seams
+    bb = np.concatenate([b[-k:] - 360.0, b, b[:k] + 360.0])
+    zz = np.vstack([z[-k:], z, z[:k]])
+    mid = int(np.searchsorted(bb, 180.0))
+    start = int(np.searchsorted(bb, b[0]))  # first row at the real 0° side
+    halves = [(start - k, mid + k), (mid - k, start + b.size + k)]
+    max_deg = max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
+    parts = []
+    for lo, hi in halves:
+        lo, hi = max(lo, 0), min(hi, bb.size)
+        gen = contourpy.contour_generator(d, bb[lo:hi], zz[lo:hi],
+                                          fill_type=contourpy.FillType.OuterOffset)
+        points, offsets = gen.filled(0.0, np.inf)
+        for pts, off in zip(points, offsets):
+            rings = [_ring_xy(pts[a:e], max_deg) for a, e in zip(off[:-1], off[1:])]
+            poly = Polygon(rings[0], rings[1:])
+            if not poly.is_valid:
+                poly = shapely.make_valid(poly)
+            if poly.area > 0:
+                parts.append(poly)
+    if not parts:
+        return Polygon()
+    geom = shapely.union_all(parts)
+    polys = [g for g in shapely.get_parts(geom) if g.geom_type == "Polygon" and g.area > 1e-9]
+    return shapely.union_all(polys) if polys else Polygon()
+
+
+def contour_geometry(region_xy, projection: LocalProjection, community_lonlat=None):
+    """A contour region in local xy [km] → (lon/lat geometry, geodesic area [km²], community
+    share or None). The lon/lat geometry follows RFC 7946 (see
+    :func:`~.geodesy.xy_to_lonlat_geometry`)."""
+    poly_ll = xy_to_lonlat_geometry(region_xy, projection)
     area = geodesic_area_km2(poly_ll)
     share = None
     if community_lonlat is not None:
         comm_xy = projection.geom_to_xy(community_lonlat)
-        inside = projection.geom_to_lonlat(comm_xy.intersection(poly))
+        inside = xy_to_lonlat_geometry(comm_xy.intersection(region_xy), projection)
         total = geodesic_area_km2(community_lonlat)
-        share = geodesic_area_km2(inside) / total if total > 0 else 0.0
-    return poly, poly_ll, area, share
+        share = min(1.0, geodesic_area_km2(inside) / total) if total > 0 else 0.0
+    return poly_ll, area, share
 
 
 def level_contour(
@@ -256,10 +312,10 @@ def level_contour(
     community_lonlat=None,
 ) -> LevelContour:
     """Contour distances, polygon, area and community share for one level."""
-    first, further = first_crossings(radials, float(mv_m_to_dbu(level_mv_m)))
-    poly, poly_ll, area, share = contour_geometry(
-        radials.bearings_deg, first, further, radials.dist_km[-1], projection, community_lonlat
-    )
+    level_dbu = float(mv_m_to_dbu(level_mv_m))
+    first, further = first_crossings(radials, level_dbu)
+    poly = polar_region(radials.bearings_deg, radials.dist_km, radials.field_dbu, level_dbu)
+    poly_ll, area, share = contour_geometry(poly, projection, community_lonlat)
     return LevelContour(float(level_mv_m), label, first, further, poly, poly_ll, area, share)
 
 

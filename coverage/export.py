@@ -25,12 +25,22 @@ OUTPUT_NAMES = ("summary.json", "radials.csv", "contours.geojson", "contours.kml
                 "interference.csv")
 
 
-def _num(v):
-    """JSON-safe number: NaN/inf become None."""
+def _num(v, digits: int | None = None):
+    """JSON-safe number: NaN/inf become None; integers stay integers; ``digits`` rounds."""
     if v is None:
         return None
+    if isinstance(v, (bool, np.bool_)):
+        return bool(v)
+    if isinstance(v, (int, np.integer)):
+        return int(v)
     v = float(v)
-    return v if math.isfinite(v) else None
+    if not math.isfinite(v):
+        return None
+    return round(v, digits) if digits is not None else v
+
+
+#: Decimals kept for shares (0.1 % of a community is 1e-3; four decimals are ample).
+SHARE_DIGITS = 4
 
 
 def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
@@ -69,8 +79,9 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
         },
         "community": spec.community.name if spec.community else None,
         "inputs": spec_to_doc(spec),
-        "levels": [{k: (_num(v) if not isinstance(v, str) else v) for k, v in row.items()}
-                   for row in result.level_rows()],
+        "levels": [{k: (v if isinstance(v, str) else
+                        _num(v, SHARE_DIGITS if k == "community_share" else None))
+                    for k, v in row.items()} for row in result.level_rows()],
         "elapsed_s": result.elapsed_s,
         "caution": "Planning estimate only; not a compliance determination. Filings must follow "
                    "local rules and be checked by a licensed engineer. RF exposure near towers "
@@ -93,17 +104,22 @@ def version() -> str:
 
 
 def radials_csv(result: StudyResult) -> str:
-    """Bearing × level distances in km and mi; crossings beyond the first listed per level."""
+    """Bearing × level distances in km and mi, and the stretches beyond the first crossing
+    where the field is above the level again (recovery), each in two numeric columns
+    (``…_further_N_from_km``, ``…_further_N_to_km``)."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     head = ["bearing_deg", "e1km_mv_m"]
-    for c in result.contours:
+    spans = [max((len(f) for f in c.further), default=0) for c in result.contours]
+    for c, n in zip(result.contours, spans):
         tag = f"{c.level_mv_m:g}mV_m"
-        head += [f"{tag}_km", f"{tag}_mi", f"{tag}_further_km"]
+        head += [f"{tag}_km", f"{tag}_mi"]
+        for k in range(1, n + 1):
+            head += [f"{tag}_further_{k}_from_km", f"{tag}_further_{k}_to_km"]
     w.writerow(head)
     for i, b in enumerate(result.radials.bearings_deg):
         row = [f"{b:g}", f"{result.radials.e1km_mv_m[i]:.2f}"]
-        for c in result.contours:
+        for c, n in zip(result.contours, spans):
             d = c.first_km[i]
             if np.isnan(d):
                 row += ["not reached", "not reached"]
@@ -111,71 +127,131 @@ def radials_csv(result: StudyResult) -> str:
                 row += [f">{result.max_km:.1f}", f">{result.max_km / KM_PER_MI:.1f}"]
             else:
                 row += [f"{d:.2f}", f"{d / KM_PER_MI:.2f}"]
-            row.append(" ".join(f"{a:.2f}-{e:.2f}" for a, e in c.further[i]))
+            for k in range(n):
+                if k < len(c.further[i]):
+                    a, e = c.further[i][k]
+                    row += [f"{a:.2f}", f"{e:.2f}"]
+                else:
+                    row += ["", ""]
         w.writerow(row)
     return buf.getvalue()
 
 
-def contours_geojson(result: StudyResult, extra_features=()) -> dict:
-    """One Feature per level (lon/lat, WGS84)."""
+#: GeoJSON coordinates are rounded to 1e-6° (about 0.1 m), as RFC 7946 §11.2 suggests.
+COORD_PRECISION_DEG = 1e-6
+
+
+def geojson_geometry(geom) -> dict:
+    """A lon/lat (multi)polygon as an RFC 7946 geometry: coordinates on a 1e-6° grid (snapped
+    so that the result stays valid), exteriors counter-clockwise, holes clockwise."""
+    import shapely
     from shapely.geometry import mapping
 
+    g = shapely.set_precision(geom, COORD_PRECISION_DEG)
+    parts = [p for p in shapely.get_parts(g) if p.geom_type == "Polygon" and not p.is_empty]
+    if len(parts) == 1:
+        g = parts[0]
+    else:
+        g = shapely.MultiPolygon(parts)
+    g = shapely.orient_polygons(g, exterior_cw=False)
+    out = mapping(g)
+    return json.loads(json.dumps(out))  # tuples → lists
+
+
+def _feature(kind: str, level, label: str, station, geom, area_km2, extra=None) -> dict:
+    props = {"kind": kind, "level_mv_m": level, "label": label, "station": station.name,
+             "freq_khz": station.freq_khz, "area_km2": round(float(area_km2), 3)}
+    props.update(extra or {})
+    return {"type": "Feature", "properties": props, "geometry": geojson_geometry(geom)}
+
+
+def site_feature(result: StudyResult) -> dict:
+    """The transmitter site as a GeoJSON Point."""
     st = result.spec.station
-    feats = []
+    lon = ((st.lon + 180.0) % 360.0) - 180.0
+    return {"type": "Feature",
+            "properties": {"kind": "site", "label": st.name, "station": st.name,
+                           "freq_khz": st.freq_khz, "power_day_kw": st.power_day_kw,
+                           "power_night_kw": st.power_night_kw},
+            "geometry": {"type": "Point", "coordinates": [round(lon, 6), round(st.lat, 6)]}}
+
+
+def contours_geojson(result: StudyResult, extra_features=()) -> dict:
+    """The site and one Feature per level (lon/lat, WGS84, RFC 7946): the area where the field
+    is at or above the level, recovery areas and holes included."""
+    st = result.spec.station
+    feats = [site_feature(result)]
     for c in result.contours:
         if c.polygon_lonlat.is_empty:
             continue
-        feats.append({
-            "type": "Feature",
-            "properties": {"level": c.level_mv_m, "units": "mV/m", "label": c.label,
-                           "station": st.name, "freq_khz": st.freq_khz, "kind": "day ground wave",
-                           "area_km2": round(c.area_km2, 3)},
-            "geometry": mapping(c.polygon_lonlat),
-        })
+        share = None if c.community_share is None else round(c.community_share, SHARE_DIGITS)
+        feats.append(_feature("day ground wave", c.level_mv_m, c.label or f"{c.level_mv_m:g} mV/m",
+                              st, c.polygon_lonlat, c.area_km2, {"community_share": share}))
     feats.extend(extra_features)
     return {"type": "FeatureCollection", "features": feats}
 
 
-def _kml_rings(geom) -> str:
-    polys = getattr(geom, "geoms", [geom])
+def _kml_coords(coords) -> str:
+    return " ".join(f"{x:.6f},{y:.6f},0" for x, y in coords)
+
+
+def _kml_geometry(geom: dict) -> str:
+    if geom["type"] == "Point":
+        x, y = geom["coordinates"]
+        return f"<Point><coordinates>{x:.6f},{y:.6f},0</coordinates></Point>"
+    polys = [geom["coordinates"]] if geom["type"] == "Polygon" else geom["coordinates"]
     out = []
-    for p in polys:
-        if p.geom_type != "Polygon" or p.is_empty:
-            continue
-        coords = " ".join(f"{x:.6f},{y:.6f},0" for x, y in p.exterior.coords)
-        inner = "".join(
-            "<innerBoundaryIs><LinearRing><coordinates>"
-            + " ".join(f"{x:.6f},{y:.6f},0" for x, y in r.coords)
-            + "</coordinates></LinearRing></innerBoundaryIs>"
-            for r in p.interiors
-        )
-        out.append("<Polygon><outerBoundaryIs><LinearRing><coordinates>" + coords
+    for rings in polys:
+        inner = "".join("<innerBoundaryIs><LinearRing><coordinates>" + _kml_coords(r)
+                        + "</coordinates></LinearRing></innerBoundaryIs>" for r in rings[1:])
+        out.append("<Polygon><outerBoundaryIs><LinearRing><coordinates>" + _kml_coords(rings[0])
                    + "</coordinates></LinearRing></outerBoundaryIs>" + inner + "</Polygon>")
     return "<MultiGeometry>" + "".join(out) + "</MultiGeometry>"
 
 
-#: Line colours of the contours in KML (aabbggrr), strongest level first.
-KML_COLOURS = ["ff2b18b2", "ff1482e0", "ff37781b", "ffac6621", "ff832a76", "ff4d4d4d"]
+def _kml_description(p: dict) -> str:
+    lines = [f"{p['station']}, {p['freq_khz']:g} kHz"]
+    if p.get("kind") == "site":
+        lines.append(f"transmitter site; {p['power_day_kw']:g} kW day, "
+                     f"{p['power_night_kw']:g} kW night")
+    else:
+        lines.append(f"{p['kind']}: {p['label']}")
+        lines.append(f"area {p['area_km2']:,.1f} km²")
+        if p.get("community_share") is not None:
+            lines.append(f"community inside: {100 * p['community_share']:.1f} %")
+    return "\n".join(lines)
 
 
 def contours_kml(geojson: dict, name: str) -> str:
-    """KML 2.2 document with one Placemark per GeoJSON feature, outlines coloured by level."""
-    from shapely.geometry import shape
-
+    """KML 2.2 document with one Placemark per GeoJSON feature (outer and inner boundaries),
+    outlines coloured by level, and plain-text descriptions."""
     styles, marks = [], []
     for i, f in enumerate(geojson["features"]):
         p = f["properties"]
-        night = p.get("kind") == "night service"
-        colour = "ff202020" if night else KML_COLOURS[i % len(KML_COLOURS)]
-        styles.append(f'<Style id="s{i}"><LineStyle><color>{colour}</color><width>2</width>'
-                      "</LineStyle><PolyStyle><fill>0</fill></PolyStyle></Style>")
-        title = f"{p.get('label') or p.get('level')} ({p.get('kind', '')})"
-        marks.append(f"<Placemark><name>{escape(str(title))}</name><styleUrl>#s{i}</styleUrl>"
-                     f"<description>{escape(json.dumps(p, ensure_ascii=False))}</description>"
-                     f"{_kml_rings(shape(f['geometry']))}</Placemark>")
+        kind = p.get("kind")
+        if kind == "site":
+            style = "<IconStyle><scale>1.1</scale></IconStyle>"
+        else:
+            colour = ("ff202020" if kind == "night service"
+                      else kml_colour(p.get("level_mv_m")))
+            style = (f"<LineStyle><color>{colour}</color><width>2</width></LineStyle>"
+                     "<PolyStyle><fill>0</fill></PolyStyle>")
+        styles.append(f'<Style id="s{i}">{style}</Style>')
+        marks.append(f"<Placemark><name>{escape(str(p.get('label')))}</name>"
+                     f"<styleUrl>#s{i}</styleUrl>"
+                     f"<description>{escape(_kml_description(p))}</description>"
+                     f"{_kml_geometry(f['geometry'])}</Placemark>")
     return ('<?xml version="1.0" encoding="UTF-8"?>\n<kml xmlns="http://www.opengis.net/kml/2.2">'
             f"<Document><name>{escape(name)}</name>" + "".join(styles) + "".join(marks)
             + "</Document></kml>\n")
+
+
+def kml_colour(level_mv_m) -> str:
+    """KML colour (aabbggrr) of a contour level: the fixed level colours of the map."""
+    from .levels import level_style
+
+    r, g, b = level_style(level_mv_m).rgb
+    return f"ff{b:02x}{g:02x}{r:02x}"
 
 
 def interference_summary(result: StudyResult) -> dict:
@@ -239,19 +315,15 @@ def interference_csv(result: StudyResult) -> str:
 
 def night_feature(result: StudyResult) -> dict | None:
     """The night service contour as a GeoJSON Feature (None without a night result)."""
-    from shapely.geometry import mapping
-
     inter = result.interference
     if inter is None or inter.night is None or inter.night.polygon_lonlat.is_empty:
         return None
     n = inter.night
-    st = result.spec.station
-    return {"type": "Feature",
-            "properties": {"level": round(float(np.median(n.limit_mv_m)), 4), "units": "mV/m",
-                           "label": "night service (night limit, median shown)",
-                           "station": st.name, "freq_khz": st.freq_khz,
-                           "kind": "night service", "area_km2": round(n.area_km2, 3)},
-            "geometry": mapping(n.polygon_lonlat)}
+    med = round(float(np.median(n.limit_mv_m)), 4)
+    return _feature("night service", med, f"night service (night limit {med:g} mV/m median)",
+                    result.spec.station, n.polygon_lonlat, n.area_km2,
+                    {"night_limit_min_mv_m": round(float(n.limit_mv_m.min()), 4),
+                     "night_limit_max_mv_m": round(float(n.limit_mv_m.max()), 4)})
 
 
 def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_features=(),

@@ -22,6 +22,7 @@ __all__ = [
     "midpoint",
     "geodesic_area_km2",
     "LocalProjection",
+    "xy_to_lonlat_geometry",
     "local_projection",
     "dms",
 ]
@@ -144,6 +145,80 @@ class LocalProjection:
         import shapely
 
         return shapely.transform(geometry, lambda c: np.column_stack(self.to_lonlat(c[:, 0], c[:, 1])))
+
+
+def _ring_lonlat(ring_xy, projection: LocalProjection):
+    """Vertices of a ring in local xy → (lon, lat) with longitudes unwrapped (continuous, not
+    folded into ±180) and the first vertex within 180° of the site's longitude."""
+    lon, lat = projection.to_lonlat(ring_xy[:, 0], ring_xy[:, 1])
+    lon = np.unwrap(np.asarray(lon, float), period=360.0)
+    site = ((projection.lon + 180.0) % 360.0) - 180.0
+    lon = lon - 360.0 * np.round((lon[0] - site) / 360.0)
+    return lon, np.asarray(lat, float)
+
+
+def _split_antimeridian(geom):
+    """A geometry in unwrapped longitudes → parts within −180..180 (RFC 7946 §3.1.9)."""
+    import shapely
+    from shapely.geometry import box
+
+    x0, _, x1, _ = geom.bounds
+    pieces = []
+    for k in range(int(np.floor((x0 + 180.0) / 360.0)), int(np.floor((x1 + 180.0) / 360.0)) + 1):
+        part = geom.intersection(box(-180.0 + 360.0 * k, -90.0, 180.0 + 360.0 * k, 90.0))
+        if not part.is_empty:
+            pieces.append(shapely.affinity.translate(part, xoff=-360.0 * k))
+    polys = [g for p in pieces for g in shapely.get_parts(p)
+             if g.geom_type == "Polygon" and g.area > 0]
+    return polys
+
+
+def xy_to_lonlat_geometry(geom_xy, projection: LocalProjection):
+    """A (multi)polygon in the site's local plane [km] → lon/lat [deg] as RFC 7946 asks.
+
+    Longitudes are unwrapped along each ring and the result is split at the antimeridian into
+    a MultiPolygon; an exterior ring that encloses a pole is closed along the pole's latitude;
+    exteriors are counter-clockwise and holes clockwise; the result is valid. A Polygon is
+    returned when there is one part.
+    """
+    import shapely
+    import shapely.affinity  # noqa: F401  (used by _split_antimeridian)
+    from shapely.geometry import MultiPolygon, Point, Polygon
+
+    if geom_xy is None or geom_xy.is_empty:
+        return Polygon()
+    poles = []
+    for pole_lat in (90.0, -90.0):
+        px, py = projection.to_xy(0.0, pole_lat)
+        poles.append((pole_lat, Point(float(px), float(py))))
+    out = []
+    for poly in shapely.get_parts(geom_xy):
+        if poly.geom_type != "Polygon" or poly.is_empty:
+            continue
+        lon, lat = _ring_lonlat(np.asarray(poly.exterior.coords), projection)
+        shell = np.column_stack([lon, lat])
+        turn = lon[-1] - lon[0]
+        if abs(turn) > 180.0:  # the ring goes round a pole: close it along the pole's latitude
+            inside = [pl for pl, pt in poles if poly.contains(pt)]
+            pole_lat = inside[0] if inside else (90.0 if lat.mean() > 0 else -90.0)
+            shell = np.vstack([shell[:-1], [[lon[-1], pole_lat], [lon[0], pole_lat]]])
+        holes = []
+        for ring in poly.interiors:
+            hl, ht = _ring_lonlat(np.asarray(ring.coords), projection)
+            # a hole sits inside its shell: keep it on the shell's side of the antimeridian
+            shift = 360.0 * np.round((np.mean(hl) - np.mean(shell[:, 0])) / 360.0)
+            if abs(hl[-1] - hl[0]) < 180.0:
+                holes.append(np.column_stack([hl - shift, ht]))
+        p = Polygon(shell, holes)
+        if not p.is_valid:
+            p = shapely.make_valid(p)
+        out.extend(_split_antimeridian(p))
+    if not out:
+        return Polygon()
+    geom = shapely.union_all(out) if len(out) > 1 else out[0]
+    parts = [g for g in shapely.get_parts(geom) if g.geom_type == "Polygon"]
+    geom = parts[0] if len(parts) == 1 else MultiPolygon(parts)
+    return shapely.orient_polygons(geom, exterior_cw=False)
 
 
 _THREAD = threading.local()

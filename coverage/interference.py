@@ -20,6 +20,7 @@ from .antenna import Array
 from .contours import (
     contour_geometry,
     first_crossings,
+    polar_region,
     level_contour,
     radial_fields,
     radial_length_km,
@@ -361,7 +362,8 @@ def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> Ni
         limit, used = _limit_at(plat, plon, plan, interferers, skipped)
     first, further = first_crossings(rad, limit)
     proj = local_projection(st.lat, st.lon)
-    poly, poly_ll, area, _ = contour_geometry(bearings, first, further, max_km, proj)
+    poly = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu, limit)
+    poly_ll, area, _ = contour_geometry(poly, proj)
     return NightResult(p, bearings, limit, first, poly, poly_ll, area, used)
 
 

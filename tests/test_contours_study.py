@@ -168,8 +168,10 @@ def test_cli_run_writes_outputs(demo_run):
     assert float(r90["0.5mV_m_mi"]) == pytest.approx(float(r90["0.5mV_m_km"]) / 1.609344, abs=0.01)
     gj = json.loads((tmp_path / "contours.geojson").read_text())
     day = [f for f in gj["features"] if f["properties"]["kind"] == "day ground wave"]
-    assert [f["properties"]["level"] for f in day] == [5.0, 2.0, 0.5, 0.1]
-    assert all(f["properties"]["units"] == "mV/m" for f in gj["features"])
+    assert [f["properties"]["level_mv_m"] for f in day] == [5.0, 2.0, 0.5, 0.1]
+    assert all({"label", "area_km2", "station"} <= set(f["properties"]) for f in day)
+    assert gj["features"][0]["properties"]["kind"] == "site"
+    assert gj["features"][0]["geometry"] == {"type": "Point", "coordinates": [-46.2, 38.4]}
     kml = (tmp_path / "contours.kml").read_text()
     assert kml.count("<Placemark>") == len(gj["features"]) and "opengis.net/kml/2.2" in kml
 
