@@ -201,7 +201,7 @@ def xy_to_lonlat_geometry(geom_xy, projection: LocalProjection):
         if abs(turn) > 180.0:  # the ring goes round a pole: close it along the pole's latitude
             inside = [pl for pl, pt in poles if poly.contains(pt)]
             pole_lat = inside[0] if inside else (90.0 if lat.mean() > 0 else -90.0)
-            shell = np.vstack([shell[:-1], [[lon[-1], pole_lat], [lon[0], pole_lat]]])
+            shell = np.vstack([shell, [[lon[-1], pole_lat], [lon[0], pole_lat]]])
         holes = []
         for ring in poly.interiors:
             hl, ht = _ring_lonlat(np.asarray(ring.coords), projection)

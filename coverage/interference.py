@@ -172,11 +172,13 @@ def point_ground_dbu(freq_khz, ground: GroundMap, lat, lon, array: Array, power_
 def protected_contour_points(freq_khz, ground: GroundMap, lat, lon, array: Array,
                              power_kw: float, level_mv_m: float, bearings,
                              method="millington", earth_k=4 / 3, step_km=0.5,
-                             max_km: float | None = None):
+                             max_km: float | None = None, polygons: dict | None = None,
+                             key=None):
     """Points (bearing, km, lat, lon) of a station's ground-wave contour at ``level_mv_m``.
 
     Bearings where the level is not reached are dropped; where it is still exceeded at the end of
-    the radial, the end point is used.
+    the radial, the end point is used. With ``polygons``, the contour's lon/lat polygon (from
+    the same contouring as the study's own contours) is stored under ``key``.
     """
     bearings = np.asarray(bearings, dtype=float)
     e1 = array.field_mv_m(bearings, 0.0, power_kw)
@@ -184,6 +186,8 @@ def protected_contour_points(freq_khz, ground: GroundMap, lat, lon, array: Array
         max_km = radial_length_km(freq_khz, ground, level_mv_m, float(e1.max()), earth_k)
     rad = radial_fields(freq_khz, ground, lat, lon, bearings, e1, max_km, step_km, method, earth_k)
     c = level_contour(rad, level_mv_m, "", local_projection(float(lat), float(lon)))
+    if polygons is not None:
+        polygons[key] = c.polygon_lonlat
     dist = np.where(np.isinf(c.first_km), max_km, c.first_km)
     ok = np.isfinite(dist)
     plat, plon = fwd_points(lat, lon, bearings[ok], dist[ok])
@@ -282,6 +286,7 @@ class InterferenceResult:
     protection: ProtectionTable
     settings: NightSettings
     skipped: tuple = ()  # checks left out because a path is outside the method's range
+    protected_contours: dict = field(default_factory=dict)  # (name, period) → lon/lat polygon
 
     def worst(self, kind: str | None = None, neighbour: str | None = None):
         rows = [r for r in self.rows if (kind is None or r.kind == kind)
@@ -392,6 +397,7 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
             night_ok.append((n, off, rn[0]))
 
     rows: list[MarginRow] = []
+    protected: dict = {}  # (neighbour, "day" | "night") → lon/lat polygon of its protected contour
     step = plan.contour_step_deg
     brg = np.arange(0.0, 360.0 - 1e-9, step)
     common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
@@ -411,7 +417,8 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
         for n, off, ratio in day_ok:
             nb, _, nlat, nlon = protected_contour_points(
                 n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw,
-                n.protected_day_mv_m, brg, step_km=0.5, **common)
+                n.protected_day_mv_m, brg, step_km=0.5, polygons=protected,
+                key=(n.name, "day"), **common)
             u = point_ground_dbu(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
                                  st.power_day_kw, nlat, nlon, **common)
             wanted = float(mv_m_to_dbu(n.protected_day_mv_m))
@@ -435,7 +442,8 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
         for n, off, ratio in night_ok:
             nb, _, nlat, nlon = protected_contour_points(
                 n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_night_kw,
-                n.protected_night_mv_m, brg, step_km=0.5, **common)
+                n.protected_night_mv_m, brg, step_km=0.5, polygons=protected,
+                key=(n.name, "night"), **common)
             u = sky_dbu_from(st.lat, st.lon, st.freq_khz, st.antenna, st.power_night_kw, nlat,
                              nlon, plan.night)
             if np.isnan(u).any():
@@ -464,4 +472,4 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                              "limiting_lat": w.lat, "limiting_lon": w.lon,
                              "margin_db_now": w.margin_db}
     return InterferenceResult(tuple(rows), night, max_power, tuple(notes), prot, plan.night,
-                              tuple(skipped))
+                              tuple(skipped), protected)

@@ -31,7 +31,7 @@ from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
 
-from .render import LEVEL_COLOURS, conductivity_colour
+from .render import conductivity_colour, level_colour
 
 __all__ = ["StationEditor", "AntennaEditor", "GroundEditor", "LevelsEditor", "NeighboursEditor",
            "NightEditor", "RadialTable", "ProfilePlot", "PatternPlot", "InterferenceTable"]
@@ -667,7 +667,7 @@ class ProfilePlot(QWidget):
             self.plot.setLabel("left", "field [mV/m]")
         for k, c in enumerate(r.contours):
             y = float(mv_m_to_dbu(c.level_mv_m)) if self.field_units == "dBu" else c.level_mv_m
-            colour = LEVEL_COLOURS[k % len(LEVEL_COLOURS)]
+            colour = level_colour(c.level_mv_m).name()
             line = pg.InfiniteLine(pos=y if self.field_units == "dBu" else np.log10(y), angle=0,
                                    pen=pg.mkPen(colour, width=1.5, style=Qt.DashLine),
                                    label=f"{c.level_mv_m:g} mV/m",

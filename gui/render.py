@@ -16,12 +16,27 @@ from PySide6.QtGui import QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
 
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.geodesy import local_projection
+from mwreach.coverage.levels import level_style
 
 __all__ = ["View", "MapOptions", "draw_map", "fit_view", "conductivity_colour",
-           "LEVEL_COLOURS", "zone_legend_rows"]
+           "level_pen", "level_colour", "zone_legend_rows"]
 
 #: Contour colours, strongest level first (chosen for print and screen; colour-blind safe set).
-LEVEL_COLOURS = ["#b2182b", "#e08214", "#1b7837", "#2166ac", "#762a83", "#4d4d4d"]
+_DASH = {"solid": Qt.SolidLine, "dash": Qt.DashLine, "dot": Qt.DotLine,
+         "dashdot": Qt.DashDotLine, "dashdotdot": Qt.DashDotDotLine}
+
+
+def level_pen(level_mv_m: float, scale: float = 1.0) -> QPen:
+    """The fixed pen of a contour level (colour, pattern and weight from
+    :mod:`mwreach.coverage.levels`), scaled for the device."""
+    st = level_style(level_mv_m)
+    pen = QPen(QColor(st.hex), st.width_pt * scale, _DASH[st.dash])
+    pen.setCapStyle(Qt.FlatCap)
+    return pen
+
+
+def level_colour(level_mv_m: float) -> QColor:
+    return QColor(level_style(level_mv_m).hex)
 NIGHT_COLOUR = "#202020"
 FAIL_COLOUR = "#d7191c"
 
@@ -293,13 +308,12 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
 
     if opts.contours:
         n = len(result.contours)
-        for i, c in enumerate(result.contours):
-            col = QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)])
-            p.setPen(QPen(col, 1.6 * s))
+        for c in result.contours:
+            p.setPen(level_pen(c.level_mv_m, s))
             p.setBrush(Qt.NoBrush)
             p.drawPath(_path_from_geom(c.polygon_xy, view))
         for i, c in enumerate(result.contours):  # labels after lines, spread in bearing
-            col = QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)])
+            col = level_colour(c.level_mv_m)
             b = result.radials.bearings_deg
             want = (30.0 + 360.0 / max(n, 1) * i * 0.5 + 90.0 * (i % 2)) % 360
             j = int(np.argmin(np.abs((b - want + 180) % 360 - 180)))
@@ -317,22 +331,14 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         p.drawPath(_path_from_geom(inter.night.polygon_xy, view))
 
     if opts.neighbours and inter is not None:
-        # neighbours' protected contours, through the check points that lie on them
-        groups: dict = {}
-        for r in inter.rows:
-            if r.kind in ("day caused", "night caused"):
-                groups.setdefault((r.neighbour, r.kind), []).append((r.bearing_deg, r.lat, r.lon))
-        for (_name, kind), pts in groups.items():
-            if len(pts) < 3:
+        # neighbours' protected contours (day solid, night dashed), contoured like our own
+        for (_name, period), geom in inter.protected_contours.items():
+            if geom.is_empty:
                 continue
-            pts.sort()
-            lat = np.array([a for _, a, _ in pts] + [pts[0][1]])
-            lon = np.array([b for _, _, b in pts] + [pts[0][2]])
-            x, y = proj.to_xy(lon, lat)
-            style = Qt.DashLine if kind == "night caused" else Qt.SolidLine
+            style = Qt.DashLine if period == "night" else Qt.SolidLine
             p.setPen(QPen(QColor(70, 70, 70, 170), 0.8 * s, style))
             p.setBrush(Qt.NoBrush)
-            p.drawPath(_line_path(np.column_stack([x, y]), view))
+            p.drawPath(_path_from_geom(proj.geom_to_xy(geom), view))
 
     if opts.neighbours and spec.interference is not None:
         font = QFont("DejaVu Sans", 1)
@@ -390,7 +396,7 @@ def _legend_entries(result, s: float) -> list[tuple]:
     for i, c in enumerate(result.contours):
         base = f"{c.level_mv_m:g} mV/m"
         text = c.label if c.label.startswith(base) else f"{base} ({c.label})" if c.label else base
-        out.append(("line", QPen(QColor(LEVEL_COLOURS[i % len(LEVEL_COLOURS)]), 2.0 * s), text))
+        out.append(("line", level_pen(c.level_mv_m, s), text))
     inter = getattr(result, "interference", None)
     if inter is not None and inter.night is not None:
         out.append(("line", QPen(QColor(NIGHT_COLOUR), 1.6 * s, Qt.DashDotLine),
