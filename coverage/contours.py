@@ -178,32 +178,31 @@ def first_crossings(radials: RadialFields, level_dbu):
     still above at the end of the radial.
     """
     d = radials.dist_km
+    f = radials.field_dbu
     nb = radials.bearings_deg.size
-    levels = np.broadcast_to(np.asarray(level_dbu, dtype=float), (nb,))
-    first = np.empty(nb)
-    further = []
-    for i in range(nb):
-        prof = radials.field_dbu[i]
-        level = levels[i]
-        dist, direction = crossings(d, prof, level)
-        if prof[0] < level:
-            first[i] = np.nan
-            further.append([])
-            continue
-        if dist.size == 0:
-            first[i] = np.inf
-            further.append([])
-            continue
-        first[i] = dist[0]
-        rest, rdir = dist[1:], direction[1:]
+    levels = np.broadcast_to(np.asarray(level_dbu, dtype=float), (nb,))[:, None]
+    above = f >= levels
+    ii, jj = np.nonzero(above[:, 1:] != above[:, :-1])  # every crossing, by bearing then distance
+    f0, f1 = f[ii, jj], f[ii, jj + 1]
+    lev = levels[ii, 0]
+    dist = d[jj] + (f0 - lev) / (f0 - f1) * (d[jj + 1] - d[jj])  # linear in dB
+    rising = above[ii, jj + 1]
+    bounds = np.searchsorted(ii, np.arange(nb + 1))
+    first = np.where(above[:, 0], np.inf, np.nan)
+    has = bounds[1:] > bounds[:-1]
+    first[has & above[:, 0]] = dist[bounds[:-1][has & above[:, 0]]]
+    further = [[] for _ in range(nb)]
+    for i in np.flatnonzero((bounds[1:] - bounds[:-1] > 1) & above[:, 0]):
+        rest = dist[bounds[i] + 1:bounds[i + 1]]
+        rdir = rising[bounds[i] + 1:bounds[i + 1]]
         spans = []
         for k in range(0, rest.size, 2):  # rising then falling
-            if rdir[k] != 1:
+            if not rdir[k]:
                 continue
             end = rest[k + 1] if k + 1 < rest.size else d[-1]
             if end - rest[k] > 1e-6:  # a profile that only touches the level is no recovery
                 spans.append((float(rest[k]), float(end)))
-        further.append(spans)
+        further[i] = spans
     return first, further
 
 
@@ -215,7 +214,8 @@ def _densify_bearing(ring, max_deg: float):
     if n.max() == 1:
         return ring
     idx = np.repeat(np.arange(n.size), n)
-    t = np.concatenate([np.arange(k) / k for k in n])
+    starts = np.repeat(np.cumsum(n) - n, n)
+    t = (np.arange(idx.size) - starts) / np.repeat(n, n)
     out_d = d[idx] + t * (d[idx + 1] - d[idx])
     out_b = b[idx] + t * (b[idx + 1] - b[idx])
     return np.column_stack([np.append(out_d, d[-1]), np.append(out_b, b[-1])])
@@ -256,32 +256,45 @@ def polar_region(bearings_deg, dist_km, field_dbu, level_dbu):
     b = np.asarray(bearings_deg, dtype=float)
     if b.size < 3:
         return Polygon()
-    order = np.argsort(b)
-    b = b[order]
-    z = np.asarray(field_dbu, dtype=float)[order] - np.broadcast_to(
-        np.asarray(level_dbu, dtype=float), b.shape)[order][:, None]
+    order = np.argsort(b, kind="stable")
+    f = np.asarray(field_dbu, dtype=float)
+    lev = np.asarray(level_dbu, dtype=float)
+    if not np.array_equal(order, np.arange(b.size)):
+        b, f = b[order], f[order]
+        lev = lev[order] if lev.ndim else lev
+    dist = np.asarray(dist_km, dtype=float)
+    # only the distances up to one step beyond the last point at or above the level matter
+    hit = f.max(axis=0) >= lev if lev.ndim == 0 else (f >= lev[:, None]).any(axis=0)
+    reached = np.flatnonzero(hit)
+    if reached.size == 0:
+        return Polygon()
+    end = min(int(reached[-1]) + 2, dist.size)
+    z = f[:, :end] - (lev if lev.ndim == 0 else lev[:, None])
     z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
-    d = np.concatenate([[0.0], np.asarray(dist_km, dtype=float)])
+    d = np.concatenate([[0.0], dist[:end]])
     k = 2  # rows wrapped onto each side, so that both halves overlap the seams
     bb = np.concatenate([b[-k:] - 360.0, b, b[:k] + 360.0])
     zz = np.vstack([z[-k:], z, z[:k]])
-    mid = int(np.searchsorted(bb, 180.0))
-    start = int(np.searchsorted(bb, b[0]))  # first row at the real 0° side
-    halves = [(start - k, mid + k), (mid - k, start + b.size + k)]
+    gen = contourpy.contour_generator(d, bb, zz, fill_type=contourpy.FillType.OuterOffset)
+    points, offsets = gen.filled(0.0, np.inf)
     max_deg = max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
+    step = 2.0 * max(float(np.max(np.diff(bb))), 1e-6)  # overlap of the halves [deg]
+    halves = [(b[0] - step, 180.0 + step), (180.0 - step, b[0] + 360.0 + step)]
     parts = []
-    for lo, hi in halves:
-        lo, hi = max(lo, 0), min(hi, bb.size)
-        gen = contourpy.contour_generator(d, bb[lo:hi], zz[lo:hi],
-                                          fill_type=contourpy.FillType.OuterOffset)
-        points, offsets = gen.filled(0.0, np.inf)
-        for pts, off in zip(points, offsets):
-            rings = [_ring_xy(pts[a:e], max_deg) for a, e in zip(off[:-1], off[1:])]
-            poly = Polygon(rings[0], rings[1:])
-            if not poly.is_valid:
-                poly = shapely.make_valid(poly)
-            if poly.area > 0:
-                parts.append(poly)
+    for pts, off in zip(points, offsets):
+        poly_db = Polygon(pts[off[0]:off[1]], [pts[a:e] for a, e in zip(off[1:-1], off[2:])])
+        for lo, hi in halves:  # each half spans less than 360°: it maps to the ground one to one
+            clipped = shapely.clip_by_rect(poly_db, -1.0, lo, d[-1] + 1.0, hi)
+            for piece in shapely.get_parts(clipped):
+                if piece.geom_type != "Polygon" or piece.is_empty:
+                    continue
+                rings = [_ring_xy(np.asarray(piece.exterior.coords), max_deg)]
+                rings += [_ring_xy(np.asarray(r.coords), max_deg) for r in piece.interiors]
+                poly = Polygon(rings[0], rings[1:])
+                if not poly.is_valid:
+                    poly = shapely.make_valid(poly)
+                if poly.area > 0:
+                    parts.append(poly)
     if not parts:
         return Polygon()
     geom = shapely.union_all(parts)

@@ -13,7 +13,8 @@ import numpy as np
 
 from .validate import check_finite
 
-__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap"]
+__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap",
+           "ray_intervals"]
 
 # Validity window of the ground-wave method (ITU-R P.368 covers 10 kHz to 30 MHz).
 SIGMA_RANGE_MS_M = (1e-4, 1e7)  # from very dry ice to (practically) a perfect conductor
@@ -97,6 +98,85 @@ def ground_class(name: str, *, where: str = "") -> Ground:
 
 
 # --- conductivity zones --------------------------------------------------------------------
+
+def ray_intervals(geom_xy, bearings_deg, max_km: float):
+    """Where radials from the origin run inside a (multi)polygon: (radial index, start, end).
+
+    Every radial is cast against every ring edge at once (numpy): an edge is tested only by the
+    radials whose bearing lies in the edge's angular span (half-open, so that a ray through a
+    vertex counts once or, grazing, twice), the crossing distance is r = (P × D)/(u × D) for an
+    edge P → P + D and the radial's unit vector u, and inside/outside alternates from the
+    origin's side (even-odd rule, which holds across the rings of a valid MultiPolygon). Gives
+    the same boundaries as intersecting each radial line with the polygon (to about 1e-9 km)
+    at a small fraction of the cost.
+
+    Parameters
+    ----------
+    geom_xy : shapely Polygon or MultiPolygon in the site's local plane [km]
+    bearings_deg : (nb,) [deg true]
+    max_km : radial length [km]
+    """
+    import shapely
+
+    b = np.mod(np.atleast_1d(np.asarray(bearings_deg, dtype=float)), 360.0)
+    if geom_xy is None or geom_xy.is_empty or b.size == 0:
+        return []
+    edges = []
+    for poly in shapely.get_parts(geom_xy):
+        if poly.geom_type != "Polygon":
+            continue
+        for ring in (poly.exterior, *poly.interiors):
+            c = np.asarray(ring.coords)[:, :2]
+            edges.append(np.column_stack([c[:-1], c[1:]]))
+    if not edges:
+        return []
+    e = np.vstack(edges)
+    p, q = e[:, :2], e[:, 2:]
+    ap = np.mod(np.degrees(np.arctan2(p[:, 0], p[:, 1])), 360.0)
+    aq = np.mod(np.degrees(np.arctan2(q[:, 0], q[:, 1])), 360.0)
+    lo, hi = np.minimum(ap, aq), np.maximum(ap, aq)
+    wraps = hi - lo > 180.0  # the edge spans north: bearings in [hi, 360) and [0, lo)
+    order = np.argsort(b, kind="stable")
+    bs = b[order]
+    # candidate (edge, radial) pairs from sorted bearings: [lo, hi) or, wrapping, [hi, 360) ∪ [0, lo)
+    start1 = np.where(wraps, np.searchsorted(bs, hi, "left"), np.searchsorted(bs, lo, "left"))
+    stop1 = np.where(wraps, bs.size, np.searchsorted(bs, hi, "left"))
+    start2 = np.zeros_like(start1)
+    stop2 = np.where(wraps, np.searchsorted(bs, lo, "left"), 0)
+    edge_idx, rad_idx = [], []
+    for s0, s1 in ((start1, stop1), (start2, stop2)):
+        n = np.maximum(s1 - s0, 0)
+        ei = np.repeat(np.arange(e.shape[0]), n)
+        offs = np.arange(ei.size) - np.repeat(np.cumsum(n) - n, n)
+        edge_idx.append(ei)
+        rad_idx.append(np.repeat(s0, n) + offs)
+    ei = np.concatenate(edge_idx)
+    ri = order[np.concatenate(rad_idx)]
+    if ei.size:
+        th = np.radians(b[ri])
+        ux, uy = np.sin(th), np.cos(th)
+        dx, dy = q[ei, 0] - p[ei, 0], q[ei, 1] - p[ei, 1]
+        den = ux * dy - uy * dx
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = (p[ei, 0] * dy - p[ei, 1] * dx) / den
+        ok = np.isfinite(r) & (r > 0)
+        ri, r = ri[ok], r[ok]
+    else:
+        r = np.empty(0)
+    inside0 = bool(shapely.contains_xy(geom_xy, 0.0, 0.0))
+    srt = np.lexsort((r, ri))
+    ri, r = ri[srt], r[srt]
+    out = []
+    bounds = np.searchsorted(ri, np.arange(b.size + 1))
+    for i in range(b.size):
+        cr = r[bounds[i]:bounds[i + 1]]
+        pts = np.concatenate([[0.0], cr]) if inside0 else cr
+        for a, z in zip(pts[0::2], np.append(pts[1::2], np.inf)[: len(pts[0::2])]):
+            a, z = float(a), float(min(z, max_km))
+            if a < max_km and z - a > 1e-9:
+                out.append((i, a, z))
+    return out
+
 
 @dataclass(frozen=True)
 class Zone:
@@ -195,30 +275,18 @@ class GroundMap:
         -------
         list (one per bearing) of lists of :class:`Section`
         """
-        import shapely
-
         from .geodesy import local_projection
 
         check_finite("max_km", max_km, 0.0, 20_000.0, low_open=True)
         bearings = np.atleast_1d(np.asarray(bearings_deg, dtype=float))
         proj = local_projection(float(lat), float(lon))
-        b = np.radians(bearings)
-        ends = np.column_stack([max_km * np.sin(b), max_km * np.cos(b)])
-        lines = shapely.linestrings(
-            np.stack([np.zeros_like(ends), ends], axis=1)
-        )
         # intervals[i] = list of (start, end, zone index) in priority order
         intervals = [[] for _ in bearings]
         with self._lock:
-            hits_per_zone = [shapely.intersection(lines, g) for g in self.zones_xy(proj)]
-        for zi, hits in enumerate(hits_per_zone, 1):
-            for i in np.flatnonzero(~shapely.is_empty(hits)):
-                for part in shapely.get_parts(hits[i]):
-                    if part.geom_type not in ("LineString", "LinearRing"):
-                        continue
-                    r = np.hypot(*shapely.get_coordinates(part).T)
-                    if r.max() - r.min() > 1e-9:
-                        intervals[i].append((float(r.min()), float(r.max()), zi))
+            zones_xy = self.zones_xy(proj)
+            for zi, g in enumerate(zones_xy, 1):
+                for i, a, e in ray_intervals(g, bearings, max_km):
+                    intervals[i].append((a, e, zi))
         grounds = self.grounds
         out = []
         for ivs in intervals:

@@ -135,8 +135,9 @@ class Computer(QObject):
         return self._next
 
     def _on_progress(self, req_id, done, total):
-        if req_id == self._next:
-            self.progress.emit(self._requests[req_id].label, done, total)
+        req = self._requests.get(req_id)  # a late report of a finished run is dropped
+        if req_id == self._next and req is not None:
+            self.progress.emit(req.label, done, total)
 
     def _collect(self):
         if not self._requests:

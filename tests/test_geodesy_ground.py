@@ -1,6 +1,7 @@
 """Geodesics, local projection and ground zones."""
 
 import json
+import pathlib
 
 import numpy as np
 import pytest
@@ -155,3 +156,35 @@ def test_binary_and_odd_files_are_named(tmp_path):
     c.write_bytes(b"name,lat\n\xff\n")
     with pytest.raises(ValueError, match=r"n.csv: not UTF-8 text"):
         read_neighbours_csv(c)
+
+
+def test_ray_cast_sections_equal_shapely_intersections():
+    # reference: GEOS line/polygon intersection (shapely), radial by radial, zone by zone
+    import shapely
+
+    from mwreach.coverage.geodesy import local_projection
+    from mwreach.coverage.ground import ray_intervals
+    from mwreach.coverage.inputs import load_study
+
+    spec = load_study(pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml")
+    proj = local_projection(spec.station.lat, spec.station.lon)
+    b = np.concatenate([np.arange(0.0, 360.0, 0.5), [137.25, 359.999]])
+    length = 700.0
+    for zone in spec.ground.zones_xy(proj):
+        rb = np.radians(b)
+        ends = np.column_stack([length * np.sin(rb), length * np.cos(rb)])
+        hits = shapely.intersection(shapely.linestrings(np.stack([np.zeros_like(ends), ends], 1)),
+                                    zone)
+        ref = {}
+        for i in np.flatnonzero(~shapely.is_empty(hits)):
+            for part in shapely.get_parts(hits[i]):
+                r = np.hypot(*shapely.get_coordinates(part).T)
+                if part.geom_type == "LineString" and np.ptp(r) > 1e-9:
+                    ref.setdefault(int(i), []).append((r.min(), r.max()))
+        got = {}
+        for i, a, e in ray_intervals(zone, b, length):
+            got.setdefault(i, []).append((a, e))
+        assert set(got) == set(ref)
+        for i in ref:
+            # 1e-6 km: both intersect the same straight edges; the difference is rounding
+            assert np.allclose(sorted(got[i]), sorted(ref[i]), atol=1e-6)
