@@ -320,7 +320,7 @@ def night_feature(result: StudyResult) -> dict | None:
         return None
     n = inter.night
     med = round(float(np.median(n.limit_mv_m)), 4)
-    return _feature("night service", med, f"night service (night limit {med:g} mV/m median)",
+    return _feature("night service", med, f"night service (night limit {med:.3g} mV/m median)",
                     result.spec.station, n.polygon_lonlat, n.area_km2,
                     {"night_limit_min_mv_m": round(float(n.limit_mv_m.min()), 4),
                      "night_limit_max_mv_m": round(float(n.limit_mv_m.max()), 4)})

@@ -127,3 +127,37 @@ def test_long_radial_table_flows_onto_more_pages(demo_result, tmp_path):
     assert pages == len(text) >= 4
     assert "continued, 2 of" in text[2]
     assert "358° " in " ".join(text)  # the last 2° bearing made it onto a page
+
+
+def test_sheet_errors_are_one_line_and_keep_the_old_sheet(tmp_path, demo_result, monkeypatch,
+                                                          capfd):
+    from mwreach.coverage import safefiles
+    from mwreach.gui.sheet import write_sheet
+
+    blocker = tmp_path / "afile"
+    blocker.write_text("x")
+    small = tmp_path / "s.toml"
+    text = DEMO.read_text()
+    small.write_text(text[: text.index("[night]")].replace("bearing_step_deg = 1.0",
+                                                            "bearing_step_deg = 30.0")
+                     .replace('"zones.geojson"', f'"{DEMO.parent / "zones.geojson"}"')
+                     .replace('"community.geojson"', f'"{DEMO.parent / "community.geojson"}"'))
+    assert cli.main(["sheet", str(small), "-o", str(blocker / "x.pdf")]) == 2
+    err = capfd.readouterr().err
+    assert err.count("\n") == 1 and "afile" in err and "QPainter" not in err
+    # a study input is never the sheet's target
+    assert cli.main(["sheet", str(small), "--out", str(small)]) == 2
+    assert "refusing to write" in capfd.readouterr().err
+    # a failure while writing keeps the previous sheet whole
+    target = tmp_path / "sheet.pdf"
+    write_sheet(demo_result, target)
+    before = target.read_bytes()
+
+    def disk_full(path, data, mode):
+        raise OSError(28, "No space left on device", str(path))
+
+    monkeypatch.setattr(safefiles, "_write_bytes", disk_full)
+    with pytest.raises(ValueError, match="No space left"):
+        write_sheet(demo_result, target)
+    assert target.read_bytes() == before
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".")] == []
