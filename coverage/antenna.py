@@ -25,6 +25,7 @@ from .groundwave import C0
 
 __all__ = [
     "ETA0",
+    "FIELD_OHM",
     "MAX_TOWERS",
     "Tower",
     "Element",
@@ -34,7 +35,11 @@ __all__ = [
     "quarter_wave_m",
 ]
 
-ETA0 = 376.730313  # impedance of free space [Ω]
+ETA0 = 376.730313  # impedance of free space [Ω] (CODATA 2018: 376.730313668)
+#: η0/(2π) [Ω]: the far field of a current I [A] on a vertical tower over perfect ground is
+#: E = (η0/2π)·I·g(θ)/r; the often-quoted "60" rounds this (59.958 Ω) and makes every
+#: radiation resistance 0.14 % high.
+FIELD_OHM = ETA0 / (2 * np.pi)
 MAX_TOWERS = 12
 HEIGHT_RANGE_DEG = (0.1, 350.0)
 #: Gauss–Legendre nodes in elevation for the power integral (azimuth is integrated exactly
@@ -103,7 +108,8 @@ class Tower:
 
     @property
     def horizon_factor(self) -> float:
-        """cos B − cos(A + B): horizontal field per unit loop current, over 60/r."""
+        """cos B − cos(A + B): horizontal field per unit loop current, in units of
+        (η0/2π)/r."""
         a, b = self._ab
         return float(np.cos(b) - np.cos(a + b))
 
@@ -133,13 +139,15 @@ class Tower:
     def radiation_resistance_ohm(self) -> float:
         """Radiation resistance [Ω] at the current loop, or at the base when A + B < 90°.
 
-        R = (60²/η0)·2π·∫ g(θ)² cos θ dθ, g = horizon_factor·f(θ) (Kraus, Antennas, §5).
+        R = (η0/2π)·∫ g(θ)² cos θ dθ over 0..90° elevation, g = horizon_factor·f(θ)
+        (power of the far field E = (η0/2π)·I·g/r through the upper hemisphere; Kraus,
+        Antennas, §5; docs/methods.md §3). At the base, R_base = R_loop / sin²(A + B).
         """
         x, w = np.polynomial.legendre.leggauss(4 * ELEVATION_NODES)
         th = (x + 1) * np.pi / 4
         g = self.horizon_factor * self.vertical(np.degrees(th))
         integral = np.pi / 4 * np.sum(w * g**2 * np.cos(th))
-        r_loop = 60.0**2 / ETA0 * 2 * np.pi * integral
+        r_loop = FIELD_OHM * integral
         return float(r_loop / self.base_current_factor**2)
 
 
@@ -247,11 +255,12 @@ class Array:
         return self._cache[n_nodes]
 
     def _loss_per_k2(self) -> float:
-        """Loss power per K² [W per (mV/m)²]: Σ I_i² R_i with I_i = K F_i/(60 h_i)."""
+        """Loss power per K² [W per (mV/m)²]: Σ I_i² R_i with I_i = K F_i/((η0/2π) h_i), the
+        current at the loop or, for towers shorter than 90°, at the base where R_i is given."""
         total = 0.0
         for e in self.elements:
             t = e.tower
-            i_loop = e.field_ratio / (60.0 * t.horizon_factor)
+            i_loop = e.field_ratio / (FIELD_OHM * t.horizon_factor)
             total += (i_loop * t.base_current_factor) ** 2 * t.loss_ohm
         return total
 

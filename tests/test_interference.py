@@ -38,12 +38,35 @@ def test_rss_exclusion_example():
     assert rss(vals, 0)[0] == pytest.approx(np.sqrt(1 + 0.36 + 0.09 + 0.01))
 
 
+@pytest.mark.parametrize("second, rule, expected", [
+    # 47 CFR 73.182(k) (from memory): a contribution is left out when it is below 50 % of the
+    # RSS of the larger ones; 0.45 is, 0.55 is not; with the 25 % rule 0.45 is kept
+    (0.45, 50, 1.0), (0.55, 50, float(np.hypot(1.0, 0.55))), (0.45, 25, float(np.hypot(1.0, 0.45))),
+    (0.2, 25, 1.0),
+])
+def test_rss_exclusion_threshold(second, rule, expected):
+    assert rss([1.0, second], rule)[0] == pytest.approx(expected, abs=1e-12)
+
+
 def test_channel_offsets():
     assert channel_offset(1390, 1390, 10) == 0
     assert channel_offset(1390, 1380, 10) == -1
     assert channel_offset(1390, 1420, 10) == 3
     assert channel_offset(1395, 1390, 10) is None  # off the raster
     assert channel_offset(999, 1008, 9) == 1
+
+
+@pytest.mark.parametrize("period, offset, pair", [
+    # 47 CFR 73.37(a) contour pairs (from memory): co-channel 0.025 mV/m interfering against a
+    # 0.5 mV/m protected contour, 20·log10(0.5/0.025) = 26.0 dB; 47 CFR 73.183(c) (read) and
+    # the 1937 North American agreement, Appendix III Table I (read): first adjacent, 0.25 mV/m
+    # against 0.5 mV/m, 6.0 dB. Night: the same ratios (47 CFR 73.182, from memory).
+    ("day", 0, (0.5, 0.025)), ("night", 0, (0.5, 0.025)),
+    ("day", 1, (0.5, 0.25)), ("night", 1, (0.5, 0.25)),
+])
+def test_default_ratios_from_the_contour_pairs(period, offset, pair):
+    ratio = ProtectionTable().ratio_db(period, offset)[0]
+    assert ratio == pytest.approx(20 * np.log10(pair[0] / pair[1]), abs=0.05)  # tables round to dB
 
 
 def test_default_ratios_carry_sources():
@@ -169,9 +192,39 @@ def test_study_interference_errors(demo_copy):
         load_study(bad)
 
 
-def test_itu_method_runs_on_demo():
+def test_itu_night_limit_is_the_rss_of_ratio_times_sky_wave_on_the_demo():
+    # ITU-R P.1147 (constants from memory): at each night-contour point the limit is the RSS,
+    # with the 50 % exclusion, of ratio × 10 % sky wave of every night interferer
     spec = load_study(DEMO)
     plan = dataclasses.replace(spec.interference, night=dataclasses.replace(
-        spec.interference.night, method="itu", bearing_step_deg=30.0), contour_step_deg=30.0)
-    res = Study(dataclasses.replace(spec, interference=plan)).run(bearings=np.arange(0, 360, 30.0))
-    assert res.interference.night.limit_mv_m.min() >= 0.5
+        spec.interference.night, method="itu", bearing_step_deg=30.0, floor_mv_m=0.01),
+        contour_step_deg=30.0)
+    spec = dataclasses.replace(spec, interference=plan)
+    res = run_interference(spec, plan)
+    night = res.night
+    from mwreach.coverage.geodesy import fwd_points
+
+    st = spec.station
+    plat, plon = fwd_points(st.lat, st.lon, night.bearings_deg, night.contour_km)
+    prods = []
+    for n in plan.neighbours:
+        ratio = plan.protection.ratio_db("night", (n.freq_khz - st.freq_khz) / 10)
+        if ratio is None:
+            continue
+        path = sky_path(n.lat, n.lon, plat, plon)
+        e_dep = n.antenna.field_mv_m(path.azimuth_deg, path.departure_deg, n.power_night_kw)
+        u = sky_field_dbu(path, e_dep, "itu", 10, freq_khz=n.freq_khz, tx=(n.lat, n.lon),
+                          rx=(plat, plon))
+        prods.append(10 ** ((u + ratio[0]) / 20))
+    prods = np.sort(np.array(prods), axis=0)[::-1]
+    expected = []
+    for col in prods.T:  # the 50 % exclusion rule by hand
+        total = col[0] ** 2
+        for v in col[1:]:
+            if v < 0.5 * np.sqrt(total):
+                break
+            total += v**2
+        expected.append(10 * np.log10(total))
+    # the limit was evaluated at the previous iteration's contour, which moves < 0.1 km
+    np.testing.assert_allclose(night.limit_dbu, expected, atol=0.02)  # dB
+    assert res.settings.method == "itu"

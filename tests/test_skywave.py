@@ -98,6 +98,34 @@ def test_out_of_range_distances_are_refused():
         sw.itu_field_dbu(500.0, 100.0, 40.0)
 
 
+def _azimuth_to_pole_sphere(lat, lon):
+    # azimuth of the great circle toward the dipole pole (78.5° N, 69° W), spherical trigonometry
+    p1, p2 = np.radians(lat), np.radians(78.5)
+    dl = np.radians(-69.0 - lon)
+    return np.degrees(np.arctan2(np.sin(dl) * np.cos(p2),
+                                 np.cos(p1) * np.sin(p2) - np.sin(p1) * np.cos(p2) * np.cos(dl)))
+
+
+@pytest.mark.parametrize("lat, lon", [(-5.0, -60.0), (8.0, -75.0), (-15.0, -40.0)])
+def test_coupling_loss_by_hand(lat, lon):
+    # ITU-R P.1147 (from memory): L_p = 180/sqrt(36 + θ² + I²) − 2 dB for |I| ≤ 45°, θ the path
+    # azimuth from magnetic east–west, I the magnetic dip; a centred dipole has tan I = 2 tan Φ
+    phi = float(sw.geomagnetic_lat_deg(lat, lon))
+    dip = np.degrees(np.arctan(2 * np.tan(np.radians(phi))))
+    assert abs(dip) <= 45.0
+    east = _azimuth_to_pole_sphere(lat, lon) + 90.0  # magnetic east: θ = 0
+    expect_ew = 180 / np.sqrt(36 + dip**2) - 2
+    # 0.01 dB: the tool takes the pole azimuth on the ellipsoid; the sphere differs by < 0.2°,
+    # which changes θ² by < 0.04 deg² here
+    assert float(sw.coupling_loss_db(lat, lon, east)) == pytest.approx(expect_ew, abs=0.01)
+    assert float(sw.coupling_loss_db(lat, lon, east + 180.0)) == pytest.approx(expect_ew, abs=0.01)
+    # 30° off magnetic east–west
+    expect_30 = max(180 / np.sqrt(36 + 30.0**2 + dip**2) - 2, 0.0)
+    assert float(sw.coupling_loss_db(lat, lon, east + 30.0)) == pytest.approx(expect_30, abs=0.02)
+    # along magnetic north–south θ = 90°: 180/sqrt(36 + 8100 + I²) − 2 < 0, so no loss
+    assert float(sw.coupling_loss_db(lat, lon, east - 90.0)) == 0.0
+
+
 def test_coupling_loss_only_at_low_dip():
     # ITU-R P.1147 (from memory): L_p applies for |I| ≤ 45° only
     assert float(sw.coupling_loss_db(60.0, -80.0, 90.0)) == 0.0
