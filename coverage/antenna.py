@@ -8,7 +8,7 @@ hemisphere.
 References
 ----------
 47 CFR 73.150 (directional antenna systems, 1 Ω loss per tower at the current loop) and
-47 CFR 73.160 (vertical plane radiation characteristics); methods.md §3.
+47 CFR 73.160 (vertical plane radiation characteristics); docs/methods.md §3.
 J. D. Kraus, *Antennas*, 2nd ed., §5 (thin linear antenna, radiation resistance).
 """
 
@@ -118,7 +118,7 @@ class Tower:
 
         f(θ) = [cos B·cos(A sin θ) − sin θ·sin B·sin(A sin θ) − cos(A + B)]
                / [(cos B − cos(A + B))·cos θ]
-        which for B = 0 is 47 CFR 73.160 / methods.md §3: [cos(G sin θ) − cos G]/[(1 − cos G) cos θ].
+        which for B = 0 is 47 CFR 73.160 / docs/methods.md §3: [cos(G sin θ) − cos G]/[(1 − cos G) cos θ].
         (Derived by integrating the sinusoidal current and its image.)
         """
         a, b = self._ab
@@ -223,7 +223,7 @@ class Array:
         )
 
     def relative(self, azimuth_deg, elev_deg):
-        """|Σ F_i f_i(θ) exp(j(ψ_i + S_i cos θ cos(φ_i − φ)))| (methods.md §3), broadcast."""
+        """|Σ F_i f_i(θ) exp(j(ψ_i + S_i cos θ cos(φ_i − φ)))| (docs/methods.md §3), broadcast."""
         az = np.radians(np.asarray(azimuth_deg, dtype=float))
         el = np.asarray(elev_deg, dtype=float)
         az, el = np.broadcast_arrays(az, el)
@@ -268,7 +268,7 @@ class Array:
         """Scale K [mV/m at 1 km per unit relative field] for ``power_kw`` into the antenna.
 
         P_in·η = K²·I/η0 (efficiency given) or P_in = K²·(I/η0 + Σ I_i²R_i/K²) (loss resistance),
-        I = hemisphere integral of the relative pattern (methods.md §3, 47 CFR 73.150).
+        I = hemisphere integral of the relative pattern (docs/methods.md §3, 47 CFR 73.150).
         """
         p_w = check_finite("power_kw", power_kw, 0.0, 1e4, low_open=True) * 1e3
         rad = self.hemisphere_integral(n_nodes) / ETA0

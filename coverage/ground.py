@@ -65,7 +65,7 @@ class Ground:
         return f"{head}{self.sigma_ms_m:g} mS/m, εr {self.eps_r:g}"
 
 
-_P368 = "ITU-R P.368 ground classes (methods.md §1; from memory, four corroborated)"
+_P368 = "ITU-R P.368 ground classes (docs/methods.md §1; from memory, four corroborated)"
 
 #: Named ground classes of ITU-R P.368, keyed by a short identifier.
 GROUND_CLASSES: dict[str, Ground] = {

@@ -16,7 +16,7 @@ References
 ITU-R P.368-9 (2007), "Ground-wave propagation curves for frequencies between 10 kHz and 30 MHz".
 J. R. Wait, "Electromagnetic surface waves", Advances in Radio Research 1 (1964).
 K. A. Norton, Proc. IRE 24 (1936), 25 (1937).
-Methods reference of this project: ``shared/methods.md`` §0–1.
+Methods reference of this project: ``docs/methods.md`` §0–1.
 """
 
 from __future__ import annotations
@@ -93,7 +93,7 @@ def surface_impedance(freq_khz, sigma_ms_m, eps_r):
 
     References
     ----------
-    ITU-R P.368 / Wait (1964); methods.md §1.
+    ITU-R P.368 / Wait (1964); docs/methods.md §1.
     """
     omega = 2 * np.pi * np.asarray(freq_khz, dtype=float) * 1e3
     eps_c = np.asarray(eps_r, dtype=float) - 1j * np.asarray(sigma_ms_m) * 1e-3 / (omega * EPS0)
@@ -122,7 +122,7 @@ def flat_earth_attenuation(w):
 
     References
     ----------
-    Norton (1936); methods.md §1. scipy.special.wofz is the Faddeeva function.
+    Norton (1936); docs/methods.md §1. scipy.special.wofz is the Faddeeva function.
     """
     w = np.asarray(w, dtype=complex)
     sw = np.sqrt(w)
@@ -149,7 +149,7 @@ def residue_roots(q: complex, n: int, *, tol: float = 1e-12) -> np.ndarray:
 
     References
     ----------
-    Wait (1964); methods.md §1 "Root finding".
+    Wait (1964); docs/methods.md §1 "Root finding".
     """
     t_small, t_large = _initial_roots(n)
     if abs(q) <= 1.0:
@@ -251,7 +251,7 @@ class GroundWaveModel:
             terms = np.where(keep, np.exp(-1j * np.outer(xc, t[:n])), 0) / denom[:n]
             res[i : i + chunk] = (
                 np.sqrt(np.pi * xc) * np.exp(-1j * np.pi / 4) * terms.sum(axis=1)
-            )  # W(x, q), methods.md §1
+            )  # W(x, q), docs/methods.md §1
         out[order] = res
         return out
 

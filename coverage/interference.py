@@ -6,7 +6,7 @@ night limit; and the proposed station's sky wave at each neighbour's protected c
 
 References
 ----------
-Protection ratios and RSS: methods.md §5 (47 CFR 73.37, 73.182, 73.183(c); Rio 1981 plan;
+Protection ratios and RSS: docs/methods.md §5 (47 CFR 73.37, 73.182, 73.183(c); Rio 1981 plan;
 ITU-R BS.560).
 """
 
@@ -111,7 +111,7 @@ class NightSettings:
 class Neighbour(Station):
     """A neighbouring station to protect and to be protected from."""
 
-    protected_day_mv_m: float = 0.5  # daytime protected contour (methods.md §5, US practice)
+    protected_day_mv_m: float = 0.5  # daytime protected contour (docs/methods.md §5, US practice)
     protected_night_mv_m: float = 2.0  # night protected service contour (common practice)
     antenna_desc: dict = field(default_factory=dict, compare=False, repr=False)
 
@@ -124,7 +124,7 @@ def channel_offset(freq_khz: float, other_khz: float, raster_khz: float):
 
 
 def rss(values, exclusion_percent: int = 50):
-    """Root-sum-square with the exclusion rule (methods.md §5).
+    """Root-sum-square with the exclusion rule (docs/methods.md §5).
 
     Values (ratio × field, linear) are sorted in decreasing order and accumulated; with a 50 %
     (25 %) rule, accumulation stops at the first value below 50 % (25 %) of the RSS of the
@@ -396,6 +396,9 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
         elif rn is not None:
             night_ok.append((n, off, rn[0]))
 
+    if plan.night.method == "itu":
+        notes.append("ITU-R P.1147 constants (k, A, b, L_p) are recalled from memory, not read in "
+                     "the published text (docs/methods.md §4.2); check them before filing")
     rows: list[MarginRow] = []
     protected: dict = {}  # (neighbour, "day" | "night") → lon/lat polygon of its protected contour
     step = plan.contour_step_deg

@@ -8,7 +8,7 @@ All fields here are in dB relative to the unattenuated field at 1 km; add
 References
 ----------
 G. Millington, "Ground-wave propagation over an inhomogeneous smooth earth",
-Proc. IEE 96, Part III (1949); ITU-R P.368-9, Annex 2 (methods.md §2).
+Proc. IEE 96, Part III (1949); ITU-R P.368-9, Annex 2 (docs/methods.md §2).
 H. L. Kirke, "Calculation of ground-wave field strength over a composite land and sea path",
 Proc. IRE 37 (1949); required for mixed paths in 47 CFR 73.183(d).
 """
@@ -56,7 +56,7 @@ def millington_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k
 
     References
     ----------
-    Millington (1949); ITU-R P.368-9 Annex 2; methods.md §2.
+    Millington (1949); ITU-R P.368-9 Annex 2; docs/methods.md §2.
     """
     _check_sections(sections)
     d = np.asarray(dist_km, dtype=float)
@@ -89,7 +89,7 @@ def kirke_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k: flo
 
     References
     ----------
-    Kirke (1949); 47 CFR 73.183(d); methods.md §2.
+    Kirke (1949); 47 CFR 73.183(d); docs/methods.md §2.
     """
     _check_sections(sections)
     d = np.asarray(dist_km, dtype=float)

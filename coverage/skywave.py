@@ -8,7 +8,7 @@ References
 ----------
 47 CFR 73.190, Formulas 1 and 2 (skywave field, 50 % and 10 % of the time).
 ITU-R P.1147-5, "Prediction of sky-wave field strength at frequencies between about 150 and
-1 700 kHz", §2–§4. methods.md §4.
+1 700 kHz", §2–§4. docs/methods.md §4.
 """
 
 from __future__ import annotations
@@ -25,6 +25,7 @@ __all__ = [
     "POLE_LON_DEG",
     "EARTH_RADIUS_SKY_KM",
     "ITU_CONSTANTS",
+    "CFR_CONSTANTS",
     "CFR_RANGE_KM",
     "ITU_RANGE_KM",
     "geomagnetic_lat_deg",
@@ -45,7 +46,7 @@ __all__ = [
 
 POLE_LAT_DEG = 78.5  # geomagnetic dipole pole used by 47 CFR 73.190 and ITU-R P.1147
 POLE_LON_DEG = -69.0
-EARTH_RADIUS_SKY_KM = 6370.0  # radius of the departure-angle geometry (methods.md §4)
+EARTH_RADIUS_SKY_KM = 6370.0  # radius of the departure-angle geometry (docs/methods.md §4)
 #: Distance ranges outside which the methods are refused.
 CFR_RANGE_KM = (0.0, 4000.0)  # 47 CFR 73.190 curves to about 4000 km (from memory)
 ITU_RANGE_KM = (50.0, 12_000.0)  # ITU-R P.1147 scope [pub]
@@ -56,7 +57,19 @@ CFR_FREQ_RANGE_KHZ = (535.0, 1705.0)
 METHOD_FREQ_KHZ = {"cfr": CFR_FREQ_RANGE_KHZ, "itu": ITU_FREQ_RANGE_KHZ}
 METHOD_DISTANCE_KM = {"cfr": CFR_RANGE_KM, "itu": ITU_RANGE_KM}
 
-#: ITU-R P.1147 constants recalled from memory (methods.md §4 tags them [mem]); kept here in
+#: 47 CFR 73.190 Formula 1 and 2 constants (read in the published text, docs/methods.md §4.1).
+CFR_CONSTANTS = {
+    "f0_db": 97.5,  # Fc(50) = f0 − 20·log10 D − (2π + c·tan²Φ_M)·sqrt(D/1000)
+    "tan2_coeff": 4.95,  # c above
+    "phi_cap_deg": 60.0,  # |Φ_M| > 60° is evaluated at 60° (Note 1)
+    "slant_km2": 40_000.0,  # D = sqrt(40 000 + d²)
+    "delta_low_db": 6.0,  # Δ = Fc(10) − Fc(50) for |Φ_M| < 40°
+    "delta_slope_db_per_deg": 0.2,  # Δ = 0.2·|Φ_M| − 2 for 40° ≤ |Φ_M| ≤ 60°
+    "delta_offset_db": -2.0,
+    "delta_high_db": 10.0,  # Δ for |Φ_M| > 60°
+}
+
+#: ITU-R P.1147 constants recalled from memory (docs/methods.md §4 tags them [mem]); kept here in
 #: one place so that they can be corrected against the published text.
 ITU_CONSTANTS = {
     "k0": (3.2, "basic loss factor k = k0 + k1·f^0.4·tan²(Φ + 3°) (from memory)"),
@@ -87,7 +100,7 @@ def geomagnetic_lat_deg(lat_deg, lon_deg):
 
     References
     ----------
-    47 CFR 73.190, Formula 1 notes; methods.md §4.
+    47 CFR 73.190, Formula 1 notes; docs/methods.md §4.
     """
     a = np.radians(np.asarray(lat_deg, dtype=float))
     b = np.radians(np.asarray(lon_deg, dtype=float))
@@ -98,7 +111,7 @@ def geomagnetic_lat_deg(lat_deg, lon_deg):
 
 def slant_km(dist_km):
     """Slant distance D = sqrt(40 000 + d²) [km] (47 CFR 73.190; p of ITU-R P.1147)."""
-    return np.sqrt(40_000.0 + np.asarray(dist_km, dtype=float) ** 2)
+    return np.sqrt(CFR_CONSTANTS["slant_km2"] + np.asarray(dist_km, dtype=float) ** 2)
 
 
 def auto_hops(dist_km, height_km: float = 100.0):
@@ -111,7 +124,7 @@ def auto_hops(dist_km, height_km: float = 100.0):
 def departure_deg(dist_km, hops=1, height_km: float = 100.0):
     """Departure (elevation) angle [deg] for ``hops`` equal hops off a layer at ``height_km``.
 
-    tan θ = (cos ψ − a/(a + h)) / sin ψ, ψ = d / (2 a n), a = 6370 km (methods.md §4).
+    tan θ = (cos ψ − a/(a + h)) / sin ψ, ψ = d / (2 a n), a = 6370 km (docs/methods.md §4).
     At d = 0 the angle is 90°.
     """
     a = EARTH_RADIUS_SKY_KM
@@ -125,10 +138,12 @@ def ten_percent_excess_db(phi_deg):
 
     References
     ----------
-    47 CFR 73.190, Formula 2; methods.md §4.
+    47 CFR 73.190, Formula 2; docs/methods.md §4.
     """
+    c = CFR_CONSTANTS
     p = np.abs(np.asarray(phi_deg, dtype=float))
-    return np.where(p < 40.0, 6.0, np.where(p <= 60.0, 0.2 * p - 2.0, 10.0))
+    mid = c["delta_slope_db_per_deg"] * p + c["delta_offset_db"]
+    return np.where(p < 40.0, c["delta_low_db"], np.where(p <= 60.0, mid, c["delta_high_db"]))
 
 
 def _check_range(d, rng, method):
@@ -155,14 +170,16 @@ def cfr_field_dbu(dist_km, phi_deg, percent: int = 50):
 
     References
     ----------
-    47 CFR 73.190, Formulas 1 and 2; methods.md §4.
+    47 CFR 73.190, Formulas 1 and 2; docs/methods.md §4.
     """
     _check_range(dist_km, CFR_RANGE_KM, "47 CFR 73.190")
     if percent not in (10, 50):
         raise ValueError(f"percent must be 10 or 50 (got {percent!r})")
+    c = CFR_CONSTANTS
     D = slant_km(dist_km)
-    phi = np.minimum(np.abs(np.asarray(phi_deg, dtype=float)), 60.0)
-    f50 = 97.5 - 20 * np.log10(D) - (2 * np.pi + 4.95 * np.tan(np.radians(phi)) ** 2) * np.sqrt(D / 1000)  # Formula 1
+    phi = np.minimum(np.abs(np.asarray(phi_deg, dtype=float)), c["phi_cap_deg"])
+    f50 = (c["f0_db"] - 20 * np.log10(D)
+           - (2 * np.pi + c["tan2_coeff"] * np.tan(np.radians(phi)) ** 2) * np.sqrt(D / 1000))  # Eq. (1)
     return f50 + (ten_percent_excess_db(phi_deg) if percent == 10 else 0.0)  # Formula 2
 
 
@@ -197,7 +214,7 @@ def itu_field_dbu(
 
     References
     ----------
-    ITU-R P.1147-5 §2 (constants recalled from memory: :data:`ITU_CONSTANTS`); methods.md §4.
+    ITU-R P.1147-5 §2 (constants recalled from memory: :data:`ITU_CONSTANTS`); docs/methods.md §4.
     """
     _check_range(dist_km, ITU_RANGE_KM, "ITU-R P.1147")
     check_finite("freq_khz", freq_khz, *ITU_FREQ_RANGE_KHZ)

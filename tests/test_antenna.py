@@ -18,7 +18,7 @@ from mwreach.coverage.inputs import array_from_table, array_to_table
 
 
 def test_short_monopole_gives_300_mv_m_for_1_kw():
-    # ITU-R BS.561 / P.368 reference (methods.md §0): 300 mV/m at 1 km for 1 kW
+    # ITU-R BS.561 / P.368 reference (docs/methods.md §0): 300 mV/m at 1 km for 1 kW
     e = Array.single(Tower(0.5)).horizontal_summary(1.0)["rms_mv_m"]
     assert e == pytest.approx(300.0, rel=0.005)
 
@@ -27,7 +27,7 @@ def test_short_monopole_gives_300_mv_m_for_1_kw():
     "height, r_ohm, e_mv_m",
     [
         # Kraus, Antennas (from memory): 36.5 Ω (λ/4), 99.5 Ω (λ/2 at the loop);
-        # methods.md §3 [calc]: 313.8 and 380.3 mV/m at 1 km for 1 kW, lossless
+        # docs/methods.md §3 [calc]: 313.8 and 380.3 mV/m at 1 km for 1 kW, lossless
         (90.0, 36.5, 313.8),
         (180.0, 99.5, 380.3),
     ],
@@ -39,7 +39,7 @@ def test_quarter_and_half_wave_towers(height, r_ohm, e_mv_m):
 
 
 def test_loss_resistance_one_ohm():
-    # methods.md §3 [calc]: λ/4 with 1 Ω loss at the loop, 309.6 mV/m (47 CFR 73.150 convention)
+    # docs/methods.md §3 [calc]: λ/4 with 1 Ω loss at the loop, 309.6 mV/m (47 CFR 73.150 convention)
     e = Array.single(Tower(90.0, loss_ohm=1.0)).horizontal_summary(1.0)["rms_mv_m"]
     assert e == pytest.approx(309.6, rel=0.005)
 
@@ -52,7 +52,7 @@ def test_efficiency_scales_as_sqrt():
 
 @pytest.mark.parametrize(
     "g, elev, expected",
-    # methods.md §3 [calc] from the 47 CFR 73.160 vertical characteristic
+    # docs/methods.md §3 [calc] from the 47 CFR 73.160 vertical characteristic
     [(90.0, 30.0, 0.8165), (90.0, 45.0, 0.6279), (120.0, 30.0, 0.7698)],
 )
 def test_vertical_characteristic(g, elev, expected):
@@ -136,7 +136,7 @@ def test_top_loading_raises_the_radiation_resistance_of_a_short_tower():
 
 
 def test_quarter_wave_heights():
-    # methods.md §3 [calc]: 138.8 m at 540 kHz, 74.9 m at 1000 kHz, 44.0 m at 1705 kHz;
+    # docs/methods.md §3 [calc]: 138.8 m at 540 kHz, 74.9 m at 1000 kHz, 44.0 m at 1705 kHz;
     # towers of about 50–140 m across the band (common practice, no published source)
     np.testing.assert_allclose(quarter_wave_m([540, 1000, 1705]), [138.8, 74.9, 44.0], atol=0.06)
     assert electrical_deg(74.9481145, 1000) == pytest.approx(90.0, abs=1e-6)
@@ -268,7 +268,7 @@ def test_cli_antenna_json(capsys):
     assert cli.main(["antenna", "--freq-khz", "1000", "--height-deg", "90", "--loss-ohm", "1",
                      "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
-    assert out["e1km_mv_m"] == pytest.approx(309.6, rel=0.005)  # methods.md §3 [calc]
+    assert out["e1km_mv_m"] == pytest.approx(309.6, rel=0.005)  # docs/methods.md §3 [calc]
     assert len(out["pattern_mv_m"]) == 360
     assert out["radiation_resistance_ohm"] == pytest.approx(36.5, rel=0.005)  # Kraus, from memory
     assert cli.main(["antenna", "--freq-khz", "1000", "--height-deg", "-1"]) == 2

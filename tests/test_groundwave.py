@@ -18,13 +18,13 @@ import mp_groundwave as mpref  # noqa: E402
 
 
 def test_reference_field_300_mv_m_is_109_54_dbu():
-    # methods.md §0 / ITU-R BS.561: 300 mV/m at 1 km ↔ 109.54 dBµV/m
+    # docs/methods.md §0 / ITU-R BS.561: 300 mV/m at 1 km ↔ 109.54 dBµV/m
     assert gw.mv_m_to_dbu(300.0) == pytest.approx(109.54, abs=0.005)
     assert gw.dbu_to_mv_m(60.0) == pytest.approx(1.0, rel=1e-12)  # 1 mV/m = 60 dBµV/m
 
 
 def test_numerical_distance_check_value():
-    # methods.md §1 [calc]: 1 MHz, εr 15, σ 5 mS/m, d 10 km → |w| 1.1481, arg −10.10°, |F| 0.5412
+    # docs/methods.md §1 [calc]: 1 MHz, εr 15, σ 5 mS/m, d 10 km → |w| 1.1481, arg −10.10°, |F| 0.5412
     w = gw.numerical_distance(1000.0, Ground(5.0, 15.0), 10.0)
     assert abs(w) == pytest.approx(1.1481, abs=1e-4)
     assert np.degrees(np.angle(w)) == pytest.approx(-10.10, abs=0.01)
@@ -33,7 +33,7 @@ def test_numerical_distance_check_value():
 
 @pytest.mark.parametrize(
     "p, expected",
-    # methods.md §1 [calc]: exact |F| for real w
+    # docs/methods.md §1 [calc]: exact |F| for real w
     [(0.1, 0.95806), (1.0, 0.65648), (5.0, 0.15931), (10.0, 0.06075), (100.0, 0.00508)],
 )
 def test_flat_earth_real_w(p, expected):
@@ -51,7 +51,7 @@ def test_flat_earth_matches_mpmath_closed_form(w):
 
 
 def test_flat_earth_limits():
-    # methods.md §1: F → 1 as d → 0; F ≈ −1/(2w) for |w| ≫ 1 (|F| ≈ 1/(2p))
+    # docs/methods.md §1: F → 1 as d → 0; F ≈ −1/(2w) for |w| ≫ 1 (|F| ≈ 1/(2p))
     assert abs(gw.flat_earth_attenuation(1e-8) - 1) < 1e-3
     w = 5000 - 300j
     assert abs(gw.flat_earth_attenuation(w)) == pytest.approx(1 / (2 * abs(w)), rel=1e-3)
@@ -70,7 +70,7 @@ def test_roots_large_q_limit_match_airy_zeros():
     q = 1e8 * np.exp(-1j * np.pi / 3)
     t = gw.residue_roots(q, 12)
     np.testing.assert_allclose(t, -a * np.exp(-1j * np.pi / 3) + 1 / q, atol=1e-6)
-    assert 1.018793 == pytest.approx(-special.ai_zeros(1)[1][0], abs=1e-6)  # methods.md §1
+    assert 1.018793 == pytest.approx(-special.ai_zeros(1)[1][0], abs=1e-6)  # docs/methods.md §1
 
 
 @pytest.mark.parametrize("name", ["sea", "land", "very-dry", "ice-10c"])
@@ -113,7 +113,7 @@ def test_field_continuous_across_crossover():
 @pytest.mark.parametrize(
     "name, dists, expected",
     [
-        # methods.md §1 check values [calc], 1000 kHz, 1 kW e.m.r.p., K = 4/3, dBµV/m
+        # docs/methods.md §1 check values [calc], 1000 kHz, 1 kW e.m.r.p., K = 4/3, dBµV/m
         ("land", [10, 50, 100, 300], [80.5, 51.6, 37.8, 11.0]),
         ("wet-ground", [10, 50, 100, 300], [86.5, 64.2, 50.5, 23.3]),
         ("sea", [10, 100, 300, 1000], [89.5, 68.5, 54.8, 22.2]),
@@ -136,7 +136,7 @@ def test_against_mpmath_reference_table():
         got = gw.field_dbu(
             c["freq_khz"], Ground(c["sigma_ms_m"], c["eps_r"]), c["dist_km"], data["e1km_mv_m"]
         )
-        tol = 0.005 if c["method"].startswith("residue series") else 0.015
+        tol = 0.005 if c["method"].startswith("residue series") else 0.015  # dB
         assert got == pytest.approx(c["field_dbu"], abs=tol), c
 
 
@@ -150,7 +150,7 @@ def test_against_live_mpmath_series():
 
 
 def test_perfect_conductor_short_range_is_unattenuated():
-    # methods.md §1: W → 1 for a perfect conductor at short range
+    # docs/methods.md §1: W → 1 for a perfect conductor at short range
     m = gw.GroundWaveModel(1000.0, Ground(1e7, 80.0))
     assert abs(m.attenuation(1.0)) == pytest.approx(1.0, abs=1e-3)
 
@@ -213,7 +213,7 @@ def test_cli_field_json_and_errors(capsys):
                      "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert [p["km"] for p in out["points"]] == [10.0, 100.0]
-    # methods.md §1 check values [calc]: 80.5 and 37.8 dBµV/m
+    # docs/methods.md §1 check values [calc]: 80.5 and 37.8 dBµV/m
     assert out["points"][0]["field_dbu"] == pytest.approx(80.5, abs=0.06)
     assert out["points"][1]["field_dbu"] == pytest.approx(37.8, abs=0.06)
     # attenuation = E0(100 km) − E: 109.54 − 40 dB (ITU-R P.368 reference, 300 mV/m at 1 km)

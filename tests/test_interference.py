@@ -27,7 +27,7 @@ DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
 
 
 def test_rss_exclusion_example():
-    # methods.md §5 [calc]: 1.0, 0.6, 0.3, 0.1 mV/m → 1.166 (50 % rule), 1.204 (25 % rule)
+    # docs/methods.md §5 [calc]: 1.0, 0.6, 0.3, 0.1 mV/m → 1.166 (50 % rule), 1.204 (25 % rule)
     vals = [0.3, 1.0, 0.1, 0.6]
     total50, used50 = rss(vals, 50)
     total25, used25 = rss(vals, 25)

@@ -44,7 +44,7 @@ def test_land_to_sea_recovery():
 
 
 def test_three_sections_by_hand():
-    # Millington's forward/reverse sums written out from homogeneous values (methods.md §2)
+    # Millington's forward/reverse sums written out from homogeneous values (docs/methods.md §2)
     d1, d2, d3 = 20.0, 35.0, 45.0
     D = d1 + d2 + d3
     secs = [Section(0, d1, LAND), Section(d1, d1 + d2, SEA), Section(d1 + d2, D, DRY)]

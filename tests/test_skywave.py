@@ -11,7 +11,7 @@ from mwreach.coverage import skywave as sw
 
 @pytest.mark.parametrize(
     "d_km, phi, expected",
-    # methods.md §4 [calc] from 47 CFR 73.190 Formula 1: Φ_M = 40°: 41.87 (250 km),
+    # docs/methods.md §4 [calc] from 47 CFR 73.190 Formula 1: Φ_M = 40°: 41.87 (250 km),
     # 27.46 (1000 km), 11.00 (3000 km); Φ_M = 50°: 23.88 at 1000 km
     [(250.0, 40.0, 41.87), (1000.0, 40.0, 27.46), (3000.0, 40.0, 11.00), (1000.0, 50.0, 23.88)],
 )
@@ -20,7 +20,7 @@ def test_cfr_formula_check_values(d_km, phi, expected):
 
 
 def test_geomagnetic_latitude():
-    # methods.md §4 [calc]: Φ_M(40° N, 90° W) = 50.58°; the dipole pole itself is at 90°
+    # docs/methods.md §4 [calc]: Φ_M(40° N, 90° W) = 50.58°; the dipole pole itself is at 90°
     assert float(sw.geomagnetic_lat_deg(40.0, -90.0)) == pytest.approx(50.58, abs=0.005)
     assert float(sw.geomagnetic_lat_deg(78.5, -69.0)) == pytest.approx(90.0, abs=1e-9)
     assert float(sw.geomagnetic_lat_deg(-78.5, 111.0)) == pytest.approx(-90.0, abs=1e-9)
@@ -33,7 +33,7 @@ def test_slant_distance_at_zero_is_200_km():
 
 @pytest.mark.parametrize("phi, delta", [(30.0, 6.0), (50.0, 8.0), (70.0, 10.0), (-50.0, 8.0)])
 def test_ten_percent_correction(phi, delta):
-    # 47 CFR 73.190 Formula 2 (methods.md §4): 6 dB below 40°, 0.2|Φ| − 2 for 40–60°, 10 above
+    # 47 CFR 73.190 Formula 2 (docs/methods.md §4): 6 dB below 40°, 0.2|Φ| − 2 for 40–60°, 10 above
     assert float(sw.ten_percent_excess_db(phi)) == pytest.approx(delta)
     assert float(sw.cfr_field_dbu(800.0, phi, 10) - sw.cfr_field_dbu(800.0, phi, 50)) == pytest.approx(delta)
 
@@ -46,7 +46,7 @@ def test_latitude_cap_at_60_degrees():
 
 @pytest.mark.parametrize(
     "d_km, expected",
-    # methods.md §4 [calc]: one hop off 100 km: 63.0° (100 km), 20.5° (500), 9.0° (1000), 1.2° (2000)
+    # docs/methods.md §4 [calc]: one hop off 100 km: 63.0° (100 km), 20.5° (500), 9.0° (1000), 1.2° (2000)
     [(100.0, 63.0), (500.0, 20.5), (1000.0, 9.0), (2000.0, 1.2)],
 )
 def test_departure_angles(d_km, expected):

@@ -27,6 +27,9 @@ SERIES_CASES = [
     # the ends of the method's range (ITU-R P.368: 10 kHz to 30 MHz)
     (10, 3, 22, 1000), (10, 5000, 70, 3000), (10000, 30, 40, 60), (30000, 5000, 70, 100),
 ]
+#: Just beyond the crossover (x = 0.13 and 0.18 at 1000 kHz over land), where many terms are
+#: needed: 20 digits and terms while (√3/2)|t_s|x < 15 (about 90 s each).
+NEAR_CASES = [(1000, 3, 22, 25), (1000, 3, 22, 34)]
 FLAT_CASES = [(1000, 3, 22, 1), (540, 5000, 70, 2), (1700, 0.1, 3, 3), (150, 1, 15, 5)]
 
 
@@ -36,6 +39,14 @@ def _series(case):
     w = ref.series_attenuation(f, s, e, d, exponent=20)
     return {"freq_khz": f, "sigma_ms_m": s, "eps_r": e, "dist_km": d, "method": "residue series",
             "field_dbu": float(ref.field_dbu(w, d))}
+
+
+def _near(case):
+    mp.mp.dps = 20
+    f, s, e, d = case
+    w = ref.series_attenuation(f, s, e, d, exponent=15)
+    return {"freq_khz": f, "sigma_ms_m": s, "eps_r": e, "dist_km": d,
+            "method": "residue series, 20 digits", "field_dbu": float(ref.field_dbu(w, d))}
 
 
 def _flat(case):
@@ -48,7 +59,8 @@ def _flat(case):
 
 if __name__ == "__main__":
     with mproc.Pool(2) as pool:
-        rows = pool.map(_series, SERIES_CASES, chunksize=1) + [_flat(c) for c in FLAT_CASES]
+        rows = (pool.map(_series, SERIES_CASES, chunksize=1) + pool.map(_near, NEAR_CASES)
+                + [_flat(c) for c in FLAT_CASES])
     out = {
         "source": "mpmath 30-digit evaluation, tests/reference/mp_groundwave.py",
         "earth_k": 4 / 3,

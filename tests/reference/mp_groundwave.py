@@ -1,7 +1,7 @@
 """Slow, high-precision ground-wave reference in mpmath (independent of scipy and of mwreach).
 
 Used by ``build_groundwave.py`` to produce ``groundwave_mpmath.json`` and by the slow tests.
-Formulas: methods.md §1 (Norton flat earth; Van der Pol–Bremmer / Fock / Wait residue series).
+Formulas: docs/methods.md §1 (Norton flat earth; Van der Pol–Bremmer / Fock / Wait residue series).
 Roots of w'(t) − q w(t) = 0 are found by continuation in q with mpmath.findroot, starting from
 the Airy zeros that mpmath itself computes (mpmath.airyaizero).
 """
