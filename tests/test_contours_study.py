@@ -164,6 +164,15 @@ def test_cli_run_writes_outputs(demo_run):
     assert {"level_mv_m", "min_km", "max_km", "mean_km", "area_km2", "community_share"} <= set(lv[0])
     rows = list(csv.DictReader((tmp_path / "radials.csv").open()))
     assert len(rows) == 361
+    # at 180° the demo's radial stays on its default ground (4 mS/m, εr 15) well past the
+    # 0.5 mV/m contour: the homogeneous smooth-earth curve (checked against mpmath in
+    # test_groundwave.py) gives the distance; 0.01 km covers the 0.25 km grid's interpolation
+    from mwreach.coverage import groundwave as gw
+
+    r180 = next(r for r in rows if r["bearing_deg"] == "180")
+    d = gw.model(1390.0, gw.Ground(4.0, 15.0), 1.3333).distance_to_field_km(
+        0.5, float(r180["e1km_mv_m"]))
+    assert float(r180["0.5mV_m_km"]) == pytest.approx(d, abs=0.01)
     r90 = next(r for r in rows if r["bearing_deg"] == "90")
     assert float(r90["0.5mV_m_mi"]) == pytest.approx(float(r90["0.5mV_m_km"]) / 1.609344, abs=0.01)
     gj = json.loads((tmp_path / "contours.geojson").read_text())

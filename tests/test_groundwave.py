@@ -223,3 +223,16 @@ def test_cli_field_json_and_errors(capsys):
                      "--km", "10"]) == 2
     err = capsys.readouterr().err
     assert "--sigma-ms-m" in err and err.count("\n") == 1
+
+
+def test_worked_example_47_cfr_73_183c_scaling():
+    # 47 CFR 73.183(c) [pub]: for a station with 282 mV/m at 1 km, the 0.5 mV/m contour lies
+    # where the 100 mV/m curve gives 100·0.5/282 = 0.1773 mV/m (here on 6 mS/m, εr 15 land,
+    # 1000 kHz, as in the example)
+    g = Ground(6.0, 15.0)
+    m = gw.model(1000.0, g)
+    assert 100 * 0.5 / 282 == pytest.approx(0.1773, abs=5e-5)
+    d_station = m.distance_to_field_km(0.5, 282.0)
+    d_curve = m.distance_to_field_km(0.1773, 100.0)
+    # 0.1773 is rounded to four figures: 1e-4 relative in field, about 0.002 km in distance
+    assert d_station == pytest.approx(d_curve, abs=0.01)

@@ -176,6 +176,27 @@ def test_demo_night_outputs(demo_run):
     assert any(p["ratio_db"] is None for p in summary["protection_ratios"])
     gj = json.loads((tmp_path / "contours.geojson").read_text())
     assert gj["features"][-1]["properties"]["kind"] == "night service"
+    # where one interferer alone sets the night limit, the limit is its 10 % sky wave
+    # (47 CFR 73.190 Formula 2) at the night contour plus its protection ratio (26 dB co-channel,
+    # 6 dB first adjacent); the contour moves < 0.1 km in the last iteration: 0.02 dB
+    spec = load_study(DEMO)
+    st = spec.station
+    from mwreach.coverage.geodesy import fwd_points
+
+    by_name = {n.name: n for n in spec.interference.neighbours}
+    checked = 0
+    for b in night["bearings"]:
+        if len(b["interferers_used"]) != 1 or b["contour_km"] is None:
+            continue
+        n = by_name[b["interferers_used"][0]]
+        ratio = 26.0 if n.freq_khz == st.freq_khz else 6.0
+        plat, plon = fwd_points(st.lat, st.lon, b["bearing_deg"], b["contour_km"])
+        path = sky_path(n.lat, n.lon, plat, plon)
+        e_dep = n.antenna.field_mv_m(path.azimuth_deg, path.departure_deg, n.power_night_kw)
+        u = float(sky_field_dbu(path, e_dep, "cfr", 10))
+        assert b["night_limit_dbu"] == pytest.approx(u + ratio, abs=0.02)
+        checked += 1
+    assert checked >= 10
 
 
 def test_study_interference_errors(demo_copy):

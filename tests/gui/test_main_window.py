@@ -134,6 +134,18 @@ def test_screenshot_not_blank(qtbot, window):
     img.save(str(ARTIFACTS / "main_window.png"))
     colours = {img.pixel(x, y) for x in range(0, img.width(), 11) for y in range(0, img.height(), 11)}
     assert len(colours) > 30
+    # the shown radial table at 180°, where the demo's radial stays on its default ground
+    # (4 mS/m, εr 15) past the 0.5 mV/m contour: the homogeneous smooth-earth curve gives it
+    # (its ground wave is checked against mpmath in tests/test_groundwave.py)
+    from mwreach.coverage import groundwave as gw
+
+    spec = window.document.spec
+    res = window.full_result
+    i = int(np.flatnonzero(res.radials.bearings_deg == 180.0)[0])
+    k = [c.level_mv_m for c in res.contours].index(0.5)
+    expected = gw.model(spec.station.freq_khz, spec.ground.default, spec.earth_k) \
+        .distance_to_field_km(0.5, res.radials.e1km_mv_m[i])
+    assert float(window.radial_table.cell_value(180.0, k)) == pytest.approx(expected, abs=0.01)
 
 
 def test_worker_error_reaches_the_window(qtbot, window, monkeypatch):
