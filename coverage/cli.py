@@ -256,7 +256,8 @@ def _cmd_sky(args) -> int:
     if args.hops is not None and args.hops < 1:
         raise UsageError(f"--hops must be >= 1 (got {args.hops})")
     height = check_finite("--height-km", args.height_km, 50.0, 500.0)
-    path = sky_path(tx[0], tx[1], rx[0], rx[1], hops=args.hops, height_km=height)
+    path = sky_path(tx[0], tx[1], rx[0], rx[1], hops=args.hops, height_km=height,
+                    geometry="cfr" if method == "cfr" else "geodesic")
     lo, hi = METHOD_DISTANCE_KM[method]
     d = float(path.distance_km)
     if not lo <= d <= hi:
@@ -432,7 +433,9 @@ def build_parser() -> argparse.ArgumentParser:
     k.add_argument("--e1km-mv-m", type=float,
                    help="radiation toward the receiver at the departure angle [mV/m at 1 km] "
                         "(default: 100 for cfr, 300 for itu)")
-    k.add_argument("--hops", type=int, help="number of hops (default: fewest possible)")
+    k.add_argument("--hops", type=int,
+                   help="number of equal hops (default: one hop, departure angle 0° beyond "
+                        "the grazing distance)")
     k.add_argument("--height-km", type=float, default=100.0, help="reflection height [km]")
     k.add_argument("--json", action="store_true", help="print JSON instead of text")
     k.set_defaults(func=_cmd_sky)

@@ -207,7 +207,8 @@ def sky_dbu_from(tx_lat, tx_lon, freq_khz, array: Array, power_kw: float, pts_la
     out = np.full(pts_lat.shape, np.nan)
     if power_kw <= 0:
         return np.full(pts_lat.shape, -np.inf)
-    path = sky_path(tx_lat, tx_lon, pts_lat, pts_lon, height_km=night.layer_height_km)
+    path = sky_path(tx_lat, tx_lon, pts_lat, pts_lon, height_km=night.layer_height_km,
+                    geometry="cfr" if night.method == "cfr" else "geodesic")
     ok = in_method_range(path.distance_km, night.method)
     if not ok.any():
         return out

@@ -39,6 +39,8 @@ __all__ = [
     "sky_path",
     "sky_field_dbu",
     "coupling_loss_db",
+    "cfr_geometry",
+    "CFR_KM_PER_DEG",
     "in_method_range",
     "METHOD_FREQ_KHZ",
     "METHOD_DISTANCE_KM",
@@ -269,16 +271,67 @@ class SkyPath:
     departure_deg: np.ndarray
 
 
-def sky_path(tx_lat, tx_lon, rx_lat, rx_lon, hops=None, height_km: float = 100.0) -> SkyPath:
-    """Path geometry from pyproj geodesics: distance, azimuths, midpoint, Φ_M, D, departure."""
+#: 47 CFR 73.190(b) Eq. 4: kilometres per degree of great-circle arc (docs/methods.md §4.1).
+CFR_KM_PER_DEG = 111.18
+
+
+def cfr_geometry(tx_lat, tx_lon, rx_lat, rx_lon):
+    """Path distance, azimuths and midpoint on the sphere of 47 CFR 73.190(b).
+
+    d° = arccos[sin a_T sin a_R + cos a_T cos a_R cos(b_R − b_T)] (Eq. 5), d = 111.18·d° km
+    (Eq. 4), and the midpoint of the short great-circle arc (what Eqs. 6–7 give), so that a
+    hand computation from the published text reproduces the tool. Azimuths are the great-circle
+    initial bearings [deg true]. Broadcasts over the points.
+    """
+    at, bt, ar, br = (np.radians(np.asarray(v, dtype=float)) for v in (tx_lat, tx_lon, rx_lat, rx_lon))
+    at, bt, ar, br = np.broadcast_arrays(at, bt, ar, br)
+    cos_d = np.sin(at) * np.sin(ar) + np.cos(at) * np.cos(ar) * np.cos(br - bt)
+    d_deg = np.degrees(np.arccos(np.clip(cos_d, -1.0, 1.0)))  # Eq. (5)
+    dist = CFR_KM_PER_DEG * d_deg  # Eq. (4)
+    # midpoint: the normalised sum of the two unit vectors (the arc's middle)
+    vt = np.stack([np.cos(at) * np.cos(bt), np.cos(at) * np.sin(bt), np.sin(at)])
+    vr = np.stack([np.cos(ar) * np.cos(br), np.cos(ar) * np.sin(br), np.sin(ar)])
+    vm = vt + vr
+    norm = np.linalg.norm(vm, axis=0)
+    vm = vm / np.where(norm > 0, norm, 1.0)
+    mlat = np.degrees(np.arcsin(np.clip(vm[2], -1.0, 1.0)))
+    mlon = np.degrees(np.arctan2(vm[1], vm[0]))
+
+    def bearing(a1, b1, a2, b2):
+        y = np.sin(b2 - b1) * np.cos(a2)
+        x = np.cos(a1) * np.sin(a2) - np.sin(a1) * np.cos(a2) * np.cos(b2 - b1)
+        return np.mod(np.degrees(np.arctan2(y, x)), 360.0)
+
+    return dist, bearing(at, bt, ar, br), bearing(ar, br, at, bt), mlat, mlon
+
+
+def sky_path(tx_lat, tx_lon, rx_lat, rx_lon, hops=None, height_km: float = 100.0,
+             geometry: str = "geodesic") -> SkyPath:
+    """Path geometry: distance, azimuths, midpoint, Φ_M, slant distance and departure angle.
+
+    ``geometry="cfr"`` uses the sphere of 47 CFR 73.190(b) (:func:`cfr_geometry`);
+    ``"geodesic"`` uses WGS84 geodesics (pyproj). Without ``hops`` the path is one hop and the
+    departure angle is the one-hop angle, 0° beyond the distance where the ray grazes the
+    ground (docs/methods.md §4.3): it never jumps to a multi-hop angle.
+    """
     check_finite("height_km", height_km, 50.0, 500.0)
-    d, az12, az21 = inverse(tx_lat, tx_lon, rx_lat, rx_lon)
-    mlat, mlon = midpoint(tx_lat, tx_lon, rx_lat, rx_lon)
-    n = auto_hops(d, height_km) if hops is None else np.broadcast_to(np.asarray(hops, int), d.shape)
-    if np.any(n < 1):
-        raise ValueError(f"hops must be >= 1 (got {hops!r})")
+    if geometry == "cfr":
+        d, az12, az21, mlat, mlon = cfr_geometry(tx_lat, tx_lon, rx_lat, rx_lon)
+    elif geometry == "geodesic":
+        d, az12, az21 = inverse(tx_lat, tx_lon, rx_lat, rx_lon)
+        mlat, mlon = midpoint(tx_lat, tx_lon, rx_lat, rx_lon)
+    else:
+        raise ValueError(f"geometry must be 'cfr' or 'geodesic' (got {geometry!r})")
+    if hops is None:
+        n = np.ones(np.shape(d), dtype=int)
+        dep = np.maximum(departure_deg(d, 1, height_km), 0.0)
+    else:
+        n = np.broadcast_to(np.asarray(hops, int), np.shape(d))
+        if np.any(n < 1):
+            raise ValueError(f"hops must be >= 1 (got {hops!r})")
+        dep = departure_deg(d, n, height_km)
     return SkyPath(d, az12, az21, mlat, mlon, geomagnetic_lat_deg(mlat, mlon), slant_km(d),
-                   np.asarray(n), departure_deg(d, n, height_km))
+                   np.asarray(n), dep)
 
 
 def sky_field_dbu(

@@ -152,3 +152,47 @@ def test_itu_latitude_cap():
     # ITU_CONSTANTS["phi_cap_deg"] (from memory): k is evaluated at 60° above 60°
     assert float(sw.itu_field_dbu(1500.0, 1000.0, 75.0)) == pytest.approx(
         float(sw.itu_field_dbu(1500.0, 1000.0, 60.0)))
+
+
+@pytest.mark.parametrize("tx, rx", [((38.40, -46.20), (42.2312, -51.51)),
+                                    ((40.0, -90.0), (30.0, -100.0)),
+                                    ((-20.0, 179.5), (-25.0, -175.0)),  # across the antimeridian
+                                    ((10.0, 20.0), (10.0, 21.0))])
+def test_cfr_path_matches_a_hand_computation_from_the_published_equations(tx, rx):
+    # 47 CFR 73.190(b): d° by Eq. 5 [pub], d = 111.18·d° km (Eq. 4) [from memory], Φ_M by Eq. 3
+    # [pub] at the midpoint of the great-circle arc; written out here by hand
+    at, bt, ar, br = map(np.radians, (tx[0], tx[1], rx[0], rx[1]))
+    d_deg = np.degrees(np.arccos(np.sin(at) * np.sin(ar)
+                                 + np.cos(at) * np.cos(ar) * np.cos(br - bt)))
+    d_km = 111.18 * d_deg
+    # midpoint: go half the arc from T along the initial great-circle course
+    course = np.arctan2(np.sin(br - bt) * np.cos(ar),
+                        np.cos(at) * np.sin(ar) - np.sin(at) * np.cos(ar) * np.cos(br - bt))
+    half = np.radians(d_deg / 2)
+    am = np.arcsin(np.sin(at) * np.cos(half) + np.cos(at) * np.sin(half) * np.cos(course))
+    bm = bt + np.arctan2(np.sin(course) * np.sin(half) * np.cos(at),
+                         np.cos(half) - np.sin(at) * np.sin(am))
+    phi = np.degrees(np.arcsin(np.sin(am) * np.sin(np.radians(78.5))
+                               + np.cos(am) * np.cos(np.radians(78.5))
+                               * np.cos(np.radians(69.0) + bm)))
+    path = sw.sky_path(tx[0], tx[1], rx[0], rx[1], geometry="cfr")
+    assert float(path.distance_km) == pytest.approx(d_km, abs=1e-6)  # km
+    assert float(path.geomagnetic_lat_deg) == pytest.approx(phi, abs=1e-9)  # deg
+    # and the field is Formula 1 at that distance and latitude
+    assert float(sw.sky_field_dbu(path, 100.0, "cfr", 50)) == pytest.approx(
+        float(sw.cfr_field_dbu(d_km, phi, 50)), abs=1e-9)
+
+
+def test_departure_angle_has_no_jump_at_the_grazing_distance():
+    # one hop off a 100 km layer grazes the ground near 2245 km (docs/methods.md §4.3): the
+    # angle falls smoothly to 0° there and stays at 0°; it does not jump to a two-hop angle
+    d = np.linspace(2000.0, 2600.0, 601)
+    dep = sw.sky_path(40.0, -90.0, *_points_at(40.0, -90.0, d), geometry="cfr").departure_deg
+    assert np.all(np.diff(dep) <= 1e-9) and dep.min() == 0.0 and dep.max() < 2.0
+    assert np.max(np.abs(np.diff(dep))) < 0.05  # deg per km step: continuous
+
+
+def _points_at(lat, lon, d_km):
+    from mwreach.coverage.geodesy import fwd_points
+
+    return fwd_points(lat, lon, np.full(np.shape(d_km), 90.0), d_km)
