@@ -230,13 +230,19 @@ def _print_interference(result) -> None:
         span = f"{reach.min():.1f}–{reach.max():.1f} km" if reach.size else "not reached"
         print(f"  night limit {n.limit_mv_m.min():.2f}–{n.limit_mv_m.max():.2f} mV/m; night "
               f"service contour {span}, {n.area_km2:.0f} km²")
-    if not inter.rows:
-        print("  no neighbour with a protection ratio: no D/U checks")
-    print(f"  {'neighbour':<20} {'check':<13} {'offset':>6} {'D/U dB':>7} {'worst margin':>13}")
-    for row in inter.neighbour_summary():
+    summary = inter.neighbour_summary()
+    if not summary:
+        print("  no neighbour with a protection ratio or overlap rule: no checks")
+    else:
+        print(f"  {'neighbour':<20} {'check':<18} {'offset':>6} {'D/U dB':>7} "
+              f"{'worst margin':>13}  by")
+    from .interference import summary_cells
+
+    for row in summary:
+        c = summary_cells(row)
         flag = "" if row["passed"] else "  FAILS"
-        print(f"  {row['neighbour']:<20} {row['kind']:<13} {row['offset_channels']:>6d} "
-              f"{row['ratio_db']:>7g} {row['worst_margin_db']:>10.1f} dB{flag}")
+        print(f"  {row['neighbour']:<20} {row['kind']:<18} {c['offset']:>6} {c['ratio']:>7} "
+              f"{c['value']:>13}  {c['by']}{flag}")
     from .interference import describe_max_power
 
     for period, mp in inter.max_power.items():

@@ -11,6 +11,7 @@ from xml.sax.saxutils import escape
 
 import numpy as np
 
+from .groundwave import mv_m_to_dbu
 from .inputs import spec_to_doc
 from .safefiles import atomic_write, write_set
 from .study import StudyResult
@@ -289,10 +290,28 @@ def night_json(result: StudyResult) -> dict:
         "area_km2": n.area_km2,
         "bearings": [
             {"bearing_deg": float(b), "night_limit_mv_m": float(lim),
-             "night_limit_dbu": float(db), "contour_km": _num(d), "interferers_used": used}
-            for b, lim, db, d, used in zip(n.bearings_deg, n.limit_mv_m, n.limit_dbu,
-                                           n.contour_km, n.contributors)
+             "night_limit_dbu": float(db), "contour_km": _num(d), "interferers_used": used,
+             "carried_by": [f"{m} wave" for m in mech]}
+            for b, lim, db, d, used, mech in zip(n.bearings_deg, n.limit_mv_m, n.limit_dbu,
+                                                 n.contour_km, n.contributors,
+                                                 n.mechanisms or [[]] * len(n.contributors))
         ],
+        "neighbour_night_limits": [
+            {"neighbour": lim.neighbour, "proposal_excluded": lim.excluded,
+             "increase_db": round(lim.increase_db, 3),
+             "points": [{"bearing_deg": float(b), "lat": round(float(a), 6),
+                         "lon": round(float(o), 6),
+                         "limit_without_mv_m": round(float(10 ** (w / 20) / 1e3), 4),
+                         "limit_with_mv_m": round(float(10 ** (x / 20) / 1e3), 4),
+                         "proposal_in_rss": bool(u)}
+                        for b, a, o, w, x, u in zip(lim.bearings_deg, lim.lat, lim.lon,
+                                                    lim.without_dbu, lim.with_dbu,
+                                                    lim.proposal_used)]}
+            for lim in inter.neighbour_limits],
+        "day_overlaps": [{"neighbour": ov.neighbour, "offset_channels": ov.offset_channels,
+                          "own_contour_mv_m": ov.own_mv_m, "other_contour_mv_m": ov.other_mv_m,
+                          "area_km2": round(ov.area_km2, 3), "points": [list(p) for p in ov.points],
+                          "passed": ov.passed, "source": ov.source} for ov in inter.overlaps],
         "skipped": skipped,
         "notes": list(inter.notes),
     }
@@ -304,12 +323,21 @@ def interference_csv(result: StudyResult) -> str:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["kind", "neighbour", "offset_channels", "bearing_deg", "lat", "lon",
                 "wanted_dbu", "wanted_mv_m", "unwanted_dbu", "unwanted_mv_m", "ratio_db",
-                "margin_db", "pass"])
-    for r in result.interference.rows:
+                "margin_db", "pass", "mechanism", "overlap_km2"])
+    inter = result.interference
+    for r in inter.rows:
         w.writerow([r.kind, r.neighbour, r.offset_channels, f"{r.bearing_deg:g}", f"{r.lat:.5f}",
                     f"{r.lon:.5f}", f"{r.wanted_dbu:.2f}", f"{10 ** (r.wanted_dbu / 20) / 1e3:.4g}",
                     f"{r.unwanted_dbu:.2f}", f"{10 ** (r.unwanted_dbu / 20) / 1e3:.4g}",
-                    f"{r.ratio_db:g}", f"{r.margin_db:.2f}", "yes" if r.passed else "NO"])
+                    f"{r.ratio_db:g}", f"{r.margin_db:.2f}", "yes" if r.passed else "NO",
+                    f"{r.mechanism} wave", ""])
+    for ov in inter.overlaps:
+        for lat, lon in ov.points or ((None, None),):
+            w.writerow(["day overlap", ov.neighbour, ov.offset_channels, "",
+                        "" if lat is None else f"{lat:.5f}", "" if lon is None else f"{lon:.5f}",
+                        f"{mv_m_to_dbu(ov.other_mv_m):.2f}", f"{ov.other_mv_m:g}",
+                        f"{mv_m_to_dbu(ov.own_mv_m):.2f}", f"{ov.own_mv_m:g}", "", "",
+                        "yes" if ov.passed else "NO", "ground wave", f"{ov.area_km2:.2f}"])
     return buf.getvalue()
 
 

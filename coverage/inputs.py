@@ -399,16 +399,16 @@ def array_to_table(array) -> dict:
 
 NEIGHBOUR_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw",
                   "height_deg", "height_m", "loss_ohm", "array", "protected_day_mv_m",
-                  "protected_night_mv_m")
+                  "protected_night_mv_m", "class")
 NEIGHBOUR_REQUIRED = ("name", "lat", "lon", "freq_khz", "power_day_kw")
 _NEIGHBOUR_NUMBERS = ("lat", "lon", "freq_khz", "power_day_kw", "power_night_kw", "height_deg",
                       "height_m", "loss_ohm", "protected_day_mv_m", "protected_night_mv_m")
-#: Defaults for a neighbour's protected contours [mV/m] when not given.
-DEFAULT_PROTECTED_DAY_MV_M = 0.5
-DEFAULT_PROTECTED_NIGHT_MV_M = 2.0
+#: The class a neighbour is taken to be when none is given: the common full-time class B.
+DEFAULT_CLASS = "B"
 
 
-def neighbour_from_table(t: dict, where: str, base: pathlib.Path, inputs: list | None = None):
+def neighbour_from_table(t: dict, where: str, base: pathlib.Path, inputs: list | None = None,
+                         classes: dict | None = None):
     """A :class:`~.interference.Neighbour` from a ``[[neighbour]]`` table (or a converted CSV
     row). ``inputs`` collects the files read (array files)."""
     from .antenna import Array, Element, Tower
@@ -444,20 +444,22 @@ def neighbour_from_table(t: dict, where: str, base: pathlib.Path, inputs: list |
         except ValueError as exc:
             raise ValueError(f"{exc} in {where}") from None
         antenna = Array((Element(tower),))
+    from .classes import STATION_CLASSES
+
+    klass = t.get("class", DEFAULT_CLASS)
+    choice("class", klass, tuple(classes or STATION_CLASSES), where)
+    levels = {k: check_finite(k, t[k], 0.01, 100.0, where=where)
+              for k in ("protected_day_mv_m", "protected_night_mv_m") if k in t}
     return Neighbour(
         name=name, lat=lat, lon=lon, freq_khz=freq, power_day_kw=p_day,
         power_night_kw=p_night, antenna=antenna,
-        protected_day_mv_m=check_finite(
-            "protected_day_mv_m", t.get("protected_day_mv_m", DEFAULT_PROTECTED_DAY_MV_M),
-            0.01, 100.0, where=where),
-        protected_night_mv_m=check_finite(
-            "protected_night_mv_m", t.get("protected_night_mv_m", DEFAULT_PROTECTED_NIGHT_MV_M),
-            0.01, 100.0, where=where),
-        antenna_desc=desc,
+        protected_day_mv_m=levels.get("protected_day_mv_m"),
+        protected_night_mv_m=levels.get("protected_night_mv_m"),
+        antenna_desc=desc, station_class=str(klass).upper(),
     )
 
 
-def read_neighbours_csv(path, inputs: list | None = None) -> list:
+def read_neighbours_csv(path, inputs: list | None = None, classes: dict | None = None) -> list:
     """Neighbours from a CSV file with a header row of :data:`NEIGHBOUR_KEYS` columns
     (``name``, ``lat``, ``lon``, ``freq_khz``, ``power_day_kw`` required; an empty cell takes the
     default). Errors name the file, the line and the column."""
@@ -465,7 +467,7 @@ def read_neighbours_csv(path, inputs: list | None = None) -> list:
     out = []
     for where, row in read_csv(path, NEIGHBOUR_KEYS, NEIGHBOUR_REQUIRED):
         out.append(neighbour_from_table(_csv_numbers(row, _NEIGHBOUR_NUMBERS, where), where,
-                                        path.parent, inputs))
+                                        path.parent, inputs, classes))
     return out
 
 
@@ -473,21 +475,25 @@ def read_neighbours_csv(path, inputs: list | None = None) -> list:
 
 def protection_from_table(table: dict, where: str):
     """``[protection]``: ``raster_khz`` and ``day_co_channel_db``, ``night_adjacent_1_db`` …"""
-    from .interference import DEFAULT_RATIOS, ORDINALS, ProtectionTable
+    from .classes import PROTECTION_PLANS
+    from .interference import ORDINALS, ProtectionTable
 
-    keys = ["raster_khz"] + [f"{p}_{o}_db" for p in ("day", "night") for o in ORDINALS]
+    keys = ["plan", "raster_khz"] + [f"{p}_{o}_db" for p in ("day", "night") for o in ORDINALS]
     check_keys(table, keys, where)
-    raster = choice("raster_khz", table.get("raster_khz", 10), (10, 9), where)
-    ratios = dict(DEFAULT_RATIOS)
+    plan = choice("plan", table.get("plan", "us"), tuple(PROTECTION_PLANS), where)
+    base = PROTECTION_PLANS[plan]
+    raster = choice("raster_khz", table.get("raster_khz", int(base["raster_khz"])), (10, 9),
+                    where)
+    ratios = dict(base["ratios"])
     for p in ("day", "night"):
         for i, o in enumerate(ORDINALS):
             k = f"{p}_{o}_db"
             if k in table:
                 v = check_finite(k, table[k], -60.0, 60.0, where=where)
-                default = DEFAULT_RATIOS.get((p, i))
+                default = base["ratios"].get((p, i))
                 same = default is not None and default[0] == v
                 ratios[(p, i)] = (v, default[1] if same else f"set in the study file ({k})")
-    return ProtectionTable(float(raster), ratios)
+    return ProtectionTable(float(raster), ratios, plan)
 
 
 def night_from_table(t: dict, where: str):
@@ -516,7 +522,8 @@ def night_from_table(t: dict, where: str):
 # --- the study file --------------------------------------------------------------------------
 
 SECTIONS = ("study", "station", "antenna", "ground", "contour", "community", "output", "night",
-            "interference", "protection", "neighbour")
+            "interference", "protection", "neighbour", "station_class")
+CLASS_KEYS = ("name", "day_mv_m", "night", "night_mv_m", "source")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
               "step_km")
 STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw")
@@ -668,6 +675,7 @@ def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list)
 
     if not any(k in doc for k in ("night", "interference", "protection", "neighbour")):
         return None, ()
+    classes = _classes(doc, fname)
     night = night_from_table(_table(doc, "night", fname), where_join("[night]", fname))
     prot = protection_from_table(_table(doc, "protection", fname),
                                  where_join("[protection]", fname))
@@ -675,14 +683,15 @@ def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list)
     w = where_join("[interference]", fname)
     check_keys(it, INTERFERENCE_KEYS, w)
     tables = _list_of_tables(doc, "neighbour", fname, "[[neighbour]]")
-    neighbours = [neighbour_from_table(t, where_join(f"[[neighbour]] {i}", fname), base, inputs)
+    neighbours = [neighbour_from_table(t, where_join(f"[[neighbour]] {i}", fname), base, inputs,
+                                       classes)
                   for i, t in enumerate(tables, 1)]
     nfile = ""
     if "neighbours" in it:
         npath = file_key(it, "neighbours", w, base, "neighbours file")
         nfile = it["neighbours"]
         inputs.append(npath)
-        neighbours += read_neighbours_csv(npath, inputs)
+        neighbours += read_neighbours_csv(npath, inputs, classes)
     names = [n.name for n in neighbours]
     dup = {x for x in names if names.count(x) > 1}
     if dup:
@@ -695,8 +704,31 @@ def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list)
         contour_step_deg=check_finite("contour_step_deg", it.get("contour_step_deg", 10.0),
                                       1.0, 45.0, where=w),
         neighbours_file=nfile,
+        classes=classes,
     )
     return plan, tuple(dict(t) for t in tables)
+
+
+def _classes(doc: dict, fname: str) -> dict:
+    """The station classes: the built-in table, with rows added or replaced by
+    ``[[station_class]]`` tables of the study."""
+    from .classes import STATION_CLASSES, StationClass
+
+    classes = dict(STATION_CLASSES)
+    for i, t in enumerate(_list_of_tables(doc, "station_class", fname, "[[station_class]]"), 1):
+        w = where_join(f"[[station_class]] {i}", fname)
+        check_keys(t, CLASS_KEYS, w, required=("name", "day_mv_m", "night"))
+        name = text_value("name", t["name"], w).upper()
+        night = choice("night", t["night"], ("none", "skywave50", "nif"), w)
+        level = None
+        if night != "none":
+            if "night_mv_m" not in t:
+                raise ValueError(f"missing key 'night_mv_m' in {w} (needed for night = {night!r})")
+            level = check_finite("night_mv_m", t["night_mv_m"], 0.01, 100.0, where=w)
+        classes[name] = StationClass(
+            name, check_finite("day_mv_m", t["day_mv_m"], 0.01, 100.0, where=w), night, level,
+            text_value("source", t.get("source", f"set in {fname}"), w))
+    return classes
 
 
 def load_study_doc(path):
@@ -863,7 +895,7 @@ def spec_to_doc(spec) -> dict:
         if plan.neighbours_file:
             inter["neighbours"] = plan.neighbours_file
         doc["interference"] = inter
-        prot = {"raster_khz": int(plan.protection.raster_khz)}
+        prot = {"plan": plan.protection.plan, "raster_khz": int(plan.protection.raster_khz)}
         for (period, off), (ratio, _src) in sorted(plan.protection.ratios.items()):
             prot[f"{period}_{ORDINALS[off]}_db"] = ratio
         doc["protection"] = prot

@@ -12,12 +12,15 @@ ITU-R BS.560).
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field, fields
 
 import numpy as np
 
 from .antenna import Array
+from .classes import OVERLAP_RULES, PROTECTION_PLANS, STATION_CLASSES, StationClass
 from .contours import (
+    MAX_RADIAL_KM,
     contour_geometry,
     first_crossings,
     polar_region,
@@ -25,7 +28,7 @@ from .contours import (
     radial_fields,
     radial_length_km,
 )
-from .geodesy import check_site, fwd_points, inverse, local_projection
+from .geodesy import fwd_points, geodesic_area_km2, inverse, local_projection
 from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
 from .mixedpath import path_field_db
@@ -41,16 +44,15 @@ __all__ = [
     "point_ground_dbu",
     "protected_contour_points",
     "describe_max_power",
+    "summary_cells",
+    "night_contribution",
+    "NeighbourLimit",
+    "OverlapCheck",
 ]
 
 ORDINALS = ("co_channel", "adjacent_1", "adjacent_2", "adjacent_3")
-_P73_37 = "47 CFR 73.37 / 73.182"
-DEFAULT_RATIOS = {
-    ("day", 0): (26.0, f"co-channel 26 dB: {_P73_37}; Rio 1981 plan"),
-    ("day", 1): (6.0, "first adjacent 6 dB: 47 CFR 73.37 / 73.183(c)"),
-    ("night", 0): (26.0, f"co-channel 26 dB: {_P73_37}; Rio 1981 plan"),
-    ("night", 1): (6.0, "first adjacent 6 dB: 47 CFR 73.37 / 73.183(c)"),
-}
+#: The default plan's ratios (47 CFR, the Americas' 10 kHz raster): see classes.PROTECTION_PLANS.
+DEFAULT_RATIOS = dict(PROTECTION_PLANS["us"]["ratios"])
 
 
 @dataclass(frozen=True)
@@ -62,6 +64,7 @@ class ProtectionTable:
 
     raster_khz: float = 10.0
     ratios: dict = field(default_factory=lambda: dict(DEFAULT_RATIOS))
+    plan: str = "us"
 
     def ratio_db(self, period: str, offset: int | None):
         """(ratio dB, source) or None when no ratio is defined for that offset."""
@@ -111,9 +114,26 @@ class NightSettings:
 class Neighbour(Station):
     """A neighbouring station to protect and to be protected from."""
 
-    protected_day_mv_m: float = 0.5  # daytime protected contour (docs/methods.md §5, US practice)
-    protected_night_mv_m: float = 2.0  # night protected service contour (common practice)
+    protected_day_mv_m: float | None = None  # None: from the class (docs/methods.md §5)
+    protected_night_mv_m: float | None = None  # None: from the class
     antenna_desc: dict = field(default_factory=dict, compare=False, repr=False)
+    station_class: str = "B"
+
+    def klass(self, table: dict | None = None) -> StationClass:
+        return (table or STATION_CLASSES)[self.station_class]
+
+    def day_level_mv_m(self, table: dict | None = None) -> float:
+        """The protected day contour: as given, else the class's."""
+        if self.protected_day_mv_m is not None:
+            return self.protected_day_mv_m
+        return self.klass(table).day_mv_m
+
+    def night_level_mv_m(self, table: dict | None = None) -> float | None:
+        """The fixed part of the protected night contour: as given, else the class's (None for
+        a class without night protection)."""
+        if self.protected_night_mv_m is not None:
+            return self.protected_night_mv_m
+        return self.klass(table).night_mv_m
 
 
 def channel_offset(freq_khz: float, other_khz: float, raster_khz: float):
@@ -232,6 +252,7 @@ class InterferencePlan:
     protected_day_mv_m: float = 0.5  # the proposed station's own protected day contour
     contour_step_deg: float = 10.0  # spacing of points on protected contours
     neighbours_file: str = ""
+    classes: dict = field(default_factory=dict)  # station classes (empty: STATION_CLASSES)
 
     KEYS = ("protected_day_mv_m", "contour_step_deg", "neighbours")
 
@@ -249,6 +270,7 @@ class MarginRow:
     lon: float
     wanted_dbu: float
     unwanted_dbu: float
+    mechanism: str = "ground"  # what carries the unwanted field: "ground" or "sky" (wave)
 
     @property
     def margin_db(self) -> float:
@@ -272,10 +294,82 @@ class NightResult:
     polygon_lonlat: object
     area_km2: float
     contributors: list  # per bearing: names of the interferers the RSS kept
+    mechanisms: list = field(default_factory=list)  # per bearing: "sky"/"ground" of each kept
 
     @property
     def limit_mv_m(self) -> np.ndarray:
         return 10 ** (self.limit_dbu / 20) / 1e3
+
+
+@dataclass(frozen=True)
+class NeighbourLimit:
+    """A neighbour's own night limit along its protected night contour, with and without the
+    proposal (the published procedure for a night application: does the proposal enter the
+    neighbour's RSS night limit?)."""
+
+    neighbour: str
+    bearings_deg: np.ndarray
+    lat: np.ndarray
+    lon: np.ndarray
+    without_dbu: np.ndarray  # RSS of the other listed stations (never below the class level)
+    with_dbu: np.ndarray  # the same with the proposal
+    proposal_used: np.ndarray  # True where the exclusion rule keeps the proposal
+    proposal_dbu: np.ndarray  # the proposal's ratio × interfering field at each point
+    others_dbu: np.ndarray = field(default=None, repr=False)  # (n_others, n_points)
+    fixed_dbu: float = -np.inf  # the class's fixed night level
+    exclusion_percent: int = 50
+
+    def limit_with(self, scale_db: float = 0.0) -> np.ndarray:
+        """The limit [dBµV/m] with the proposal's product raised by ``scale_db``."""
+        others = self.others_dbu if self.others_dbu is not None else np.empty((0, self.lat.size))
+        prods = np.vstack([others, self.proposal_dbu[None, :] + scale_db])
+        names = [""] * prods.shape[0]
+        mechs = [[""] * prods.shape[1]] * prods.shape[0]
+        return _rss_limit(prods, names, mechs, self.exclusion_percent, self.fixed_dbu)[0]
+
+    def entry_scale_db(self) -> float:
+        """How far [dB] the proposal's product may change before it raises the limit anywhere
+        (negative: it must fall by that much)."""
+        def raises(x):
+            return bool(np.any(self.limit_with(x) > self.without_dbu + 1e-9))
+
+        lo, hi = -80.0, 80.0
+        if raises(lo):
+            return lo
+        if not raises(hi):
+            return hi
+        for _ in range(40):  # bisection to 1e-10 dB
+            mid = 0.5 * (lo + hi)
+            lo, hi = (lo, mid) if raises(mid) else (mid, hi)
+        return lo
+
+    @property
+    def increase_db(self) -> float:
+        """Largest rise of the limit that the proposal causes [dB] (0 where it is excluded)."""
+        return float(np.max(self.with_dbu - self.without_dbu)) if self.with_dbu.size else 0.0
+
+    @property
+    def excluded(self) -> bool:
+        """True when the proposal raises the limit nowhere (the exclusion rule leaves it out,
+        or the limit stays at the class level)."""
+        return not bool(np.any(self.with_dbu > self.without_dbu + 1e-9))
+
+
+@dataclass(frozen=True)
+class OverlapCheck:
+    """Day contour overlap with a second- or third-adjacent neighbour."""
+
+    neighbour: str
+    offset_channels: int
+    own_mv_m: float
+    other_mv_m: float
+    area_km2: float
+    points: tuple  # (lat, lon) inside each overlapping part
+    source: str
+
+    @property
+    def passed(self) -> bool:
+        return self.area_km2 <= 0.0
 
 
 @dataclass(frozen=True)
@@ -288,6 +382,8 @@ class InterferenceResult:
     settings: NightSettings
     skipped: tuple = ()  # checks left out because a path is outside the method's range
     protected_contours: dict = field(default_factory=dict)  # (name, period) → lon/lat polygon
+    neighbour_limits: tuple = ()  # NeighbourLimit per class B/C neighbour with a night ratio
+    overlaps: tuple = ()  # OverlapCheck per second/third-adjacent neighbour
 
     def worst(self, kind: str | None = None, neighbour: str | None = None):
         rows = [r for r in self.rows if (kind is None or r.kind == kind)
@@ -295,7 +391,7 @@ class InterferenceResult:
         return min(rows, key=lambda r: r.margin_db) if rows else None
 
     def neighbour_summary(self) -> list[dict]:
-        """Worst margin per neighbour and kind."""
+        """Worst margin per neighbour and check, then the night-limit entries and overlaps."""
         out = []
         for name in dict.fromkeys(r.neighbour for r in self.rows):
             for kind in ("day received", "day caused", "night caused"):
@@ -303,8 +399,41 @@ class InterferenceResult:
                 if w is not None:
                     out.append({"neighbour": name, "kind": kind, "offset_channels": w.offset_channels,
                                 "ratio_db": w.ratio_db, "worst_margin_db": w.margin_db,
-                                "passed": w.passed, "lat": w.lat, "lon": w.lon})
+                                "passed": w.passed, "lat": w.lat, "lon": w.lon,
+                                "mechanism": w.mechanism if kind == "night caused" else "ground"})
+        for lim in self.neighbour_limits:
+            i = int(np.argmax(lim.with_dbu - lim.without_dbu)) if lim.with_dbu.size else 0
+            out.append({"neighbour": lim.neighbour, "kind": "night limit entry",
+                        "offset_channels": None, "ratio_db": None,
+                        "worst_margin_db": -lim.increase_db, "passed": lim.excluded,
+                        "lat": float(lim.lat[i]) if lim.lat.size else None,
+                        "lon": float(lim.lon[i]) if lim.lon.size else None,
+                        "mechanism": "RSS"})
+        for ov in self.overlaps:
+            lat, lon = ov.points[0] if ov.points else (None, None)
+            out.append({"neighbour": ov.neighbour, "kind": "day overlap",
+                        "offset_channels": ov.offset_channels, "ratio_db": None,
+                        "worst_margin_db": None, "overlap_km2": ov.area_km2,
+                        "passed": ov.passed, "lat": lat, "lon": lon, "mechanism": "ground"})
         return out
+
+
+def summary_cells(row: dict) -> dict:
+    """Display texts of one :meth:`InterferenceResult.neighbour_summary` row, shared by the
+    command line, the sheet and the window: offset, ratio, value, mechanism and result."""
+    off = "" if row["offset_channels"] is None else f"{row['offset_channels']:+d}".replace("+0", "0")
+    ratio = "" if row["ratio_db"] is None else f"{row['ratio_db']:g}"
+    if row["kind"] == "day overlap":
+        value = f"{row['overlap_km2']:.1f} km² overlap"
+    elif row["kind"] == "night limit entry":
+        value = "excluded" if row["passed"] else f"raises it {-row['worst_margin_db']:.2f} dB"
+    else:
+        value = f"{row['worst_margin_db']:.1f} dB"
+    by = {"ground": "ground wave", "sky": "sky wave", "RSS": "RSS"}.get(row["mechanism"],
+                                                                      row["mechanism"])
+    where = "" if row["lat"] is None else f"{row['lat']:.3f}, {row['lon']:.3f}"
+    return {"offset": off, "ratio": ratio, "value": value, "by": by,
+            "result": "pass" if row["passed"] else "FAILS", "at": where}
 
 
 def describe_max_power(period: str, mp: dict | None) -> str:
@@ -312,39 +441,104 @@ def describe_max_power(period: str, mp: dict | None) -> str:
     if mp is None:
         return f"Maximum {period} power: no neighbour with a {period} protection ratio limits it"
     where = f"{mp['limiting_neighbour']} at {mp['limiting_lat']:.4f}, {mp['limiting_lon']:.4f}"
+    check = mp.get("check", "")
+    by = f" ({check})" if check else ""
     if mp["max_power_kw"] > 100 * mp["current_power_kw"]:
-        return (f"Maximum {period} power: more than 100 × the present {mp['current_power_kw']:g} kW "
-                f"({mp['max_power_kw']:.3g} kW by the worst margin, {where}); other limits apply")
-    return (f"Maximum {period} power: {mp['max_power_kw']:.3g} kW (now {mp['current_power_kw']:g} "
-            f"kW), limited by {where}")
+        return (f"Maximum {period} power: more than 100 × the present "
+                f"{format_kw(mp['current_power_kw'])} kW ({format_kw(mp['max_power_kw'])} kW by "
+                f"the worst margin, {where}); other limits apply")
+    return (f"Maximum {period} power: {format_kw(mp['max_power_kw'])} kW (now "
+            f"{format_kw(mp['current_power_kw'])} kW), limited by {where}{by}")
 
 
-def _limit_at(points_lat, points_lon, plan: InterferencePlan, interferers, skipped=None):
-    """Night limit [dBµV/m] at points: RSS of (ratio × 10 % sky wave) of the interferers.
+def format_kw(kw: float) -> str:
+    """A power for reports, never in scientific notation: 8850 → "8,850", 0.871 → "0.871"."""
+    if kw >= 1000:
+        return f"{kw:,.0f}"
+    if kw >= 100:
+        return f"{kw:.0f}"
+    return f"{kw:.3g}" if kw >= 1e-3 else f"{kw:.6f}"
 
-    An interferer whose path to a point lies outside the sky-wave method's range contributes
-    nothing there; its name goes into ``skipped``.
+
+def _geometry(method: str) -> str:
+    return "cfr" if method == "cfr" else "geodesic"
+
+
+def night_contribution(tx: Station, pts_lat, pts_lon, spec, night: NightSettings,
+                       skipped: set | None = None):
+    """A transmitter's interfering field at night [dBµV/m] at the points, and what carries it.
+
+    The larger of its 10 % (or 50 %) sky wave and its night ground wave (mixed paths over the
+    study's zones, night power and antenna) at each point; ``mechanism`` is ``"sky"`` or
+    ``"ground"`` accordingly. The ground wave is computed only where an upper bound for it (the
+    homogeneous curve of the best ground of the map, with the strongest horizontal radiation)
+    exceeds the sky wave, so the result is exact while far stations cost no ground-wave work.
+    Points a sky-wave method cannot reach get no sky wave; the station's name goes into
+    ``skipped``.
     """
-    n_pts = np.size(points_lat)
-    if not interferers:
-        return np.full(n_pts, float(mv_m_to_dbu(plan.night.floor_mv_m))), [[] for _ in range(n_pts)]
-    prods = []
-    for n, ratio in interferers:
-        u = sky_dbu_from(n.lat, n.lon, n.freq_khz, n.antenna, n.power_night_kw, points_lat,
-                         points_lon, plan.night)
-        if np.isnan(u).any() and skipped is not None:
-            skipped.add(n.name)
-        with np.errstate(over="ignore"):
-            prods.append(np.nan_to_num(10 ** ((u + ratio) / 20.0), nan=0.0))  # µV/m
-    prods = np.array(prods)  # (n_interferers, n_pts)
-    limits = np.empty(n_pts)
-    used_names = []
-    floor = float(mv_m_to_dbu(plan.night.floor_mv_m))
+    pts_lat = np.atleast_1d(np.asarray(pts_lat, float))
+    pts_lon = np.atleast_1d(np.asarray(pts_lon, float))
+    if tx.power_night_kw <= 0 or pts_lat.size == 0:
+        return np.full(pts_lat.shape, -np.inf), np.full(pts_lat.shape, "sky", dtype=object)
+    sky = sky_dbu_from(tx.lat, tx.lon, tx.freq_khz, tx.antenna, tx.power_night_kw, pts_lat,
+                       pts_lon, night)
+    if np.isnan(sky).any() and skipped is not None:
+        skipped.add(tx.name)
+    sky = np.where(np.isnan(sky), -np.inf, sky)
+    d, _, _ = inverse(tx.lat, tx.lon, pts_lat, pts_lon)
+    best = max(spec.ground.grounds, key=lambda g: g.sigma_ms_m)
+    m = model(tx.freq_khz, best, spec.earth_k)
+    e_max = tx.antenna.horizontal_summary(tx.power_night_kw, step_deg=1.0)["max_mv_m"]
+    # beyond MAX_RADIAL_KM (2000 km) the ground wave is far below any sky wave at MF
+    near = (d >= m.wavelength_km) & (d <= MAX_RADIAL_KM)
+    bound = np.full(d.shape, -np.inf)
+    bound[near] = m.field_dbu(d[near], e_max)
+    need = near & (bound > sky)
+    ground = np.full(d.shape, -np.inf)
+    if need.any():
+        ground[need] = point_ground_dbu(tx.freq_khz, spec.ground, tx.lat, tx.lon, tx.antenna,
+                                        tx.power_night_kw, pts_lat[need], pts_lon[need],
+                                        spec.mixed_path, spec.earth_k)
+    ground = np.where(np.isnan(ground), -np.inf, ground)
+    mech = np.where(ground > sky, "ground", "sky").astype(object)
+    return np.maximum(sky, ground), mech
+
+
+def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: float):
+    """Per point: the RSS (with exclusion) of ratio × field [dBµV/m] of several stations, never
+    below ``floor_dbu``; with the names and mechanisms the rule kept."""
+    prods = np.asarray(products_dbu, dtype=float)  # (n_stations, n_points)
+    n_pts = prods.shape[1] if prods.ndim == 2 else 0
+    limits = np.full(n_pts, floor_dbu)
+    used_names, used_mechs, used_mask = [], [], np.zeros(prods.shape, dtype=bool)
+    lin = np.where(np.isfinite(prods), 10 ** (np.where(np.isfinite(prods), prods, 0.0) / 20.0), 0.0)
     for j in range(n_pts):
-        total, used = rss(prods[:, j], plan.night.exclusion_percent)
-        limits[j] = max(20 * np.log10(total) if total > 0 else -np.inf, floor)
-        used_names.append([interferers[i][0].name for i in np.flatnonzero(used)])
-    return limits, used_names
+        total, used = rss(lin[:, j], exclusion_percent)
+        if total > 0:
+            limits[j] = max(20 * np.log10(total), floor_dbu)
+        used_mask[:, j] = used
+        idx = np.flatnonzero(used)
+        used_names.append([names[i] for i in idx])
+        used_mechs.append([mechs[i][j] for i in idx])
+    return limits, used_names, used_mechs, used_mask
+
+
+def _limit_at(points_lat, points_lon, spec, plan: InterferencePlan, interferers, skipped=None):
+    """Night limit [dBµV/m] at points: RSS of ratio × (10 % sky wave or night ground wave,
+    whichever is larger) of the interferers, never below the floor."""
+    n_pts = np.size(points_lat)
+    floor = float(mv_m_to_dbu(plan.night.floor_mv_m))
+    if not interferers:
+        empty = [[] for _ in range(n_pts)]
+        return np.full(n_pts, floor), empty, empty
+    prods, mechs = [], []
+    for n, ratio in interferers:
+        u, mech = night_contribution(n, points_lat, points_lon, spec, plan.night, skipped)
+        prods.append(u + ratio)
+        mechs.append(mech)
+    limits, names, used_mechs, _ = _rss_limit(prods, [n.name for n, _ in interferers], mechs,
+                                              plan.night.exclusion_percent, floor)
+    return limits, names, used_mechs
 
 
 def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> NightResult:
@@ -357,28 +551,158 @@ def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> Ni
                               spec.earth_k)
     rad = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, bearings, e1, max_km,
                         max(spec.step_km, 0.25), spec.mixed_path, spec.earth_k)
-    limit, used = _limit_at(np.full(bearings.shape, st.lat), np.full(bearings.shape, st.lon),
-                            plan, interferers, skipped)
-    first = np.full(bearings.shape, np.nan)
-    further = [[] for _ in bearings]
+    limit, used, mechs = _limit_at(np.full(bearings.shape, st.lat),
+                                   np.full(bearings.shape, st.lon), spec, plan, interferers,
+                                   skipped)
     for _ in range(plan.night.iterations):
-        first, further = first_crossings(rad, limit)
+        first, _further = first_crossings(rad, limit)
         reach = np.where(np.isnan(first), 0.0, np.where(np.isinf(first), max_km, first))
         plat, plon = fwd_points(st.lat, st.lon, bearings, reach)
-        limit, used = _limit_at(plat, plon, plan, interferers, skipped)
-    first, further = first_crossings(rad, limit)
+        limit, used, mechs = _limit_at(plat, plon, spec, plan, interferers, skipped)
+    first, _further = first_crossings(rad, limit)
     proj = local_projection(st.lat, st.lon)
     poly = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu, limit)
     poly_ll, area, _ = contour_geometry(poly, proj)
-    return NightResult(p, bearings, limit, first, poly, poly_ll, area, used)
+    return NightResult(p, bearings, limit, first, poly, poly_ll, area, used, mechs)
+
+
+def skywave_service_points(n: Station, level_mv_m: float, bearings, night: NightSettings):
+    """Points (bearing, km, lat, lon) of a station's 50 % sky-wave service contour at
+    ``level_mv_m``: along each bearing the farthest distance where its 50 % sky wave (the
+    night method's, with its radiation at the departure angle) is still at the level."""
+    lo, hi = METHOD_DISTANCE_KM[night.method]
+    dist = np.arange(max(lo, 10.0), hi + 1e-9, 10.0)
+    bearings = np.asarray(bearings, dtype=float)
+    bb, dd = np.meshgrid(bearings, dist, indexing="ij")
+    plat, plon = fwd_points(n.lat, n.lon, bb.ravel(), dd.ravel())
+    half = dataclasses.replace(night, percent=50)
+    f = sky_dbu_from(n.lat, n.lon, n.freq_khz, n.antenna, n.power_night_kw, plat, plon,
+                     half).reshape(bb.shape)
+    level = float(mv_m_to_dbu(level_mv_m))
+    above = np.where(np.isnan(f), False, f >= level)
+    out_b, out_d = [], []
+    for i in range(bearings.size):
+        idx = np.flatnonzero(above[i])
+        if idx.size == 0:
+            continue
+        j = idx[-1]
+        if j + 1 < dist.size:  # interpolate in dB to the crossing
+            f0, f1 = f[i, j], f[i, j + 1]
+            t = (f0 - level) / (f0 - f1) if f0 != f1 else 0.0
+            out_d.append(dist[j] + t * (dist[j + 1] - dist[j]))
+        else:
+            out_d.append(dist[j])
+        out_b.append(bearings[i])
+    b, d = np.array(out_b), np.array(out_d)
+    plat, plon = fwd_points(n.lat, n.lon, b, d) if b.size else (np.array([]), np.array([]))
+    return b, d, np.atleast_1d(plat), np.atleast_1d(plon)
+
+
+def _neighbour_night_points(n: Neighbour, level_dbu, rad, max_km):
+    """Points of n's night ground-wave contour at a level per bearing (end of the radial where
+    it is still above)."""
+    first, _ = first_crossings(rad, level_dbu)
+    dist = np.where(np.isinf(first), max_km, first)
+    ok = np.isfinite(dist)
+    plat, plon = fwd_points(n.lat, n.lon, rad.bearings_deg[ok], dist[ok])
+    return ok, np.atleast_1d(plat), np.atleast_1d(plon)
+
+
+def neighbour_night_limit(n: Neighbour, others, proposal, ratio_prop: float, spec,
+                          plan: InterferencePlan, bearings, level_mv_m: float,
+                          skipped: set | None = None):
+    """A class B/C neighbour's night limit along its night contour, with and without the
+    proposal, and the points of that contour (iterated like the station's own night limit).
+
+    ``others``: (station, ratio dB) of the listed stations that interfere with n at night;
+    ``level_mv_m``: the class's fixed night level. Returns (NeighbourLimit, lat, lon).
+    """
+    e1 = n.antenna.field_mv_m(bearings, 0.0, n.power_night_kw)
+    max_km = radial_length_km(n.freq_khz, spec.ground, level_mv_m, float(e1.max()), spec.earth_k)
+    rad = radial_fields(n.freq_khz, spec.ground, n.lat, n.lon, bearings, e1, max_km, 0.5,
+                        spec.mixed_path, spec.earth_k)
+    fixed = float(mv_m_to_dbu(level_mv_m))
+    exclusion = plan.night.exclusion_percent
+    level = np.full(bearings.shape, fixed)
+    names = [o.name for o, _ in others]
+    for _ in range(plan.night.iterations):
+        ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
+        prods, mechs = [], []
+        for o, ratio in others:
+            u, mech = night_contribution(o, plat, plon, spec, plan.night, skipped)
+            prods.append(u + ratio)
+            mechs.append(mech)
+        without = (_rss_limit(prods, names, mechs, exclusion, fixed)[0] if others
+                   else np.full(plat.shape, fixed))
+        level = np.full(bearings.shape, fixed)
+        level[ok] = without
+    ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
+    prods, mechs = [], []
+    for o, ratio in others:
+        u, mech = night_contribution(o, plat, plon, spec, plan.night, skipped)
+        prods.append(u + ratio)
+        mechs.append(mech)
+    without = (_rss_limit(prods, names, mechs, exclusion, fixed)[0] if others
+               else np.full(plat.shape, fixed))
+    u_p, mech_p = night_contribution(proposal, plat, plon, spec, plan.night, skipped)
+    with_p, _, _, used = _rss_limit(prods + [u_p + ratio_prop], names + [proposal.name],
+                                    mechs + [mech_p], exclusion, fixed)
+    lim = NeighbourLimit(n.name, bearings[ok], plat, plon, without, with_p, used[-1],
+                         u_p + ratio_prop, np.array(prods).reshape(len(prods), plat.size), fixed,
+                         exclusion)
+    return lim, u_p, mech_p
+
+
+def _overlap(spec, n: Neighbour, offset: int, rule, common) -> OverlapCheck:
+    """Overlap of the proposal's and the neighbour's day contours (second/third adjacent)."""
+    from .contours import level_contour
+    from .geodesy import xy_to_lonlat_geometry
+
+    st = spec.station
+    own_mv, other_mv, source = rule
+    brg = np.arange(0.0, 360.0, 2.0)
+    polys = []
+    for s, lvl in ((st, own_mv), (n, other_mv)):
+        e1 = s.antenna.field_mv_m(brg, 0.0, s.power_day_kw)
+        max_km = radial_length_km(s.freq_khz, spec.ground, lvl, float(e1.max()), spec.earth_k,
+                                  min_km=2.0)
+        rad = radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg, e1, max_km, 0.1,
+                            spec.mixed_path, spec.earth_k)
+        polys.append(level_contour(rad, lvl, "", local_projection(s.lat, s.lon)).polygon_lonlat)
+    proj = local_projection(st.lat, st.lon)
+    own_xy, other_xy = proj.geom_to_xy(polys[0]), proj.geom_to_xy(polys[1])
+    inter = own_xy.intersection(other_xy) if not (own_xy.is_empty or other_xy.is_empty) else None
+    area, points = 0.0, ()
+    if inter is not None and not inter.is_empty and inter.area > 0:
+        import shapely
+
+        ll = xy_to_lonlat_geometry(inter, proj)
+        area = geodesic_area_km2(ll)
+        pts = []
+        for part in shapely.get_parts(inter):
+            if part.area > 0:
+                c = part.representative_point()
+                lon, lat = proj.to_lonlat(c.x, c.y)
+                pts.append((float(lat), float(lon)))
+        points = tuple(pts)
+    return OverlapCheck(n.name, offset, own_mv, other_mv, area, points, source)
 
 
 def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
-    """Day and night D/U margins to and from every neighbour, night limit and maximum powers."""
+    """Day and night checks to and from every neighbour, night limits and maximum powers.
+
+    Day: D/U of ground waves on the protected contours both ways (co-channel and first
+    adjacent), and contour overlap for second and third adjacent channels. Night: the station's
+    night limit and service contour; for each neighbour by its class — none (D), its 50 %
+    sky-wave service contour (A), or its night contour at the higher of the class level and its
+    own night limit (B, C) — the D/U of the station's larger of 10 % sky wave and night ground
+    wave, and whether the station enters the neighbour's RSS night limit.
+    """
     st = spec.station
     prot = plan.protection
+    classes = plan.classes or STATION_CLASSES
     notes = []
-    day_ok, night_ok = [], []
+    day_ok, night_ok, overlap_ok = [], [], []
     for n in plan.neighbours:
         off = channel_offset(st.freq_khz, n.freq_khz, prot.raster_khz)
         if off is None:
@@ -387,6 +711,9 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
             continue
         rd, rn = prot.ratio_db("day", off), prot.ratio_db("night", off)
         if rd is None and rn is None:
+            if abs(off) in OVERLAP_RULES:
+                overlap_ok.append((n, off))
+                continue
             notes.append(f"{n.name} ({n.freq_khz:g} kHz, offset {off:+d} channels): no protection "
                          "ratio defined for this offset; it contributes nothing")
             continue
@@ -397,11 +724,11 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
         elif rn is not None:
             night_ok.append((n, off, rn[0]))
 
+    rows: list[MarginRow] = []
+    protected: dict = {}  # (neighbour, "day" | "night") → lon/lat polygon of its protected contour
     if plan.night.method == "itu":
         notes.append("ITU-R P.1147 constants (k, A, b, L_p) are recalled from memory, not read in "
                      "the published text (docs/methods.md §4.2); check them before filing")
-    rows: list[MarginRow] = []
-    protected: dict = {}  # (neighbour, "day" | "night") → lon/lat polygon of its protected contour
     step = plan.contour_step_deg
     brg = np.arange(0.0, 360.0 - 1e-9, step)
     common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
@@ -419,44 +746,68 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                      if np.isfinite(x)]
         # interference caused by day on each neighbour's protected contour
         for n, off, ratio in day_ok:
+            level = n.day_level_mv_m(classes)
             nb, _, nlat, nlon = protected_contour_points(
                 n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw,
-                n.protected_day_mv_m, brg, step_km=0.5, polygons=protected,
-                key=(n.name, "day"), **common)
+                level, brg, step_km=0.5, polygons=protected, key=(n.name, "day"), **common)
             u = point_ground_dbu(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
                                  st.power_day_kw, nlat, nlon, **common)
-            wanted = float(mv_m_to_dbu(n.protected_day_mv_m))
+            wanted = float(mv_m_to_dbu(level))
             rows += [MarginRow("day caused", n.name, off, ratio, float(b), float(a), float(o),
                                wanted, float(x)) for b, a, o, x in zip(nb, nlat, nlon, u)
                      if np.isfinite(x)]
 
+    overlaps = tuple(_overlap(spec, n, off, OVERLAP_RULES[abs(off)], common)
+                     for n, off in overlap_ok)
+
     night = None
     skipped: list[dict] = []
+    limits: list[NeighbourLimit] = []
     if st.power_night_kw <= 0:
         notes.append(f"{st.name} has no night power (daytime only): no night service contour "
                      "and no night interference caused")
     else:
-        interferers = [(n, ratio) for n, _, ratio in night_ok]
-        out_of_range: set = set()
-        night = night_service(spec, plan, interferers, out_of_range)
         lo, hi = METHOD_DISTANCE_KM[plan.night.method]
+        out_of_range: set = set()
+        night = night_service(spec, plan, [(n, ratio) for n, _, ratio in night_ok], out_of_range)
         for name in sorted(out_of_range):
             skipped.append({"neighbour": name, "check": "night received",
                             "reason": f"sky-wave path outside {lo:g}–{hi:g} km"})
+        listed = [n for n in plan.neighbours if n.power_night_kw > 0]
         for n, off, ratio in night_ok:
-            nb, _, nlat, nlon = protected_contour_points(
-                n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_night_kw,
-                n.protected_night_mv_m, brg, step_km=0.5, polygons=protected,
-                key=(n.name, "night"), **common)
-            u = sky_dbu_from(st.lat, st.lon, st.freq_khz, st.antenna, st.power_night_kw, nlat,
-                             nlon, plan.night)
-            if np.isnan(u).any():
+            k = n.klass(classes)
+            caused_skip: set = set()
+            if k.night == "none":
+                notes.append(f"{n.name} is class {k.name}: no night protection, no night check")
+                continue
+            if k.night == "skywave50":
+                level = n.night_level_mv_m(classes)
+                nb, _, nlat, nlon = skywave_service_points(n, level, brg, plan.night)
+                u, mech = night_contribution(st, nlat, nlon, spec, plan.night, caused_skip)
+                wanted = np.full(nb.shape, float(mv_m_to_dbu(level)))
+            else:
+                others = []
+                for o in listed:
+                    if o.name == n.name:
+                        continue
+                    r = prot.ratio_db("night", channel_offset(n.freq_khz, o.freq_khz,
+                                                              prot.raster_khz))
+                    if r is not None:
+                        others.append((o, r[0]))
+                lim, u, mech = neighbour_night_limit(n, others, st, ratio, spec, plan, brg,
+                                                     n.night_level_mv_m(classes), caused_skip)
+                limits.append(lim)
+                nb, nlat, nlon, wanted = lim.bearings_deg, lim.lat, lim.lon, lim.without_dbu
+                if not lim.excluded:
+                    notes.append(f"{st.name} enters {n.name}'s night limit (RSS, "
+                                 f"{plan.night.exclusion_percent} % exclusion): raises it by up "
+                                 f"to {lim.increase_db:.2f} dB")
+            if caused_skip:
                 skipped.append({"neighbour": n.name, "check": "night caused",
-                                "reason": f"sky-wave path outside {lo:g}–{hi:g} km at "
-                                          f"{int(np.isnan(u).sum())} of {u.size} points"})
-            wanted = float(mv_m_to_dbu(n.protected_night_mv_m))
+                                "reason": f"sky-wave path outside {lo:g}–{hi:g} km"})
             rows += [MarginRow("night caused", n.name, off, ratio, float(b), float(a), float(o),
-                               wanted, float(x)) for b, a, o, x in zip(nb, nlat, nlon, u)
+                               float(w), float(x), str(mc))
+                     for b, a, o, w, x, mc in zip(nb, nlat, nlon, wanted, u, mech)
                      if np.isfinite(x)]
         for sk in skipped:
             notes.append(f"{sk['neighbour']}: {sk['check']} skipped where the "
@@ -474,6 +825,23 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
         max_power[period] = {"max_power_kw": p0 * 10 ** (w.margin_db / 10.0),
                              "current_power_kw": p0, "limiting_neighbour": w.neighbour,
                              "limiting_lat": w.lat, "limiting_lon": w.lon,
-                             "margin_db_now": w.margin_db}
+                             "margin_db_now": w.margin_db, "mechanism": w.mechanism,
+                             "check": kind}
+    if limits and max_power.get("night") is not None:
+        # the proposal must also stay out of each neighbour's RSS night limit: the power at which
+        # it would first raise the limit (its fields scale with sqrt(P))
+        p0 = st.power_night_kw
+        for lim in limits:
+            if not lim.proposal_dbu.size:
+                continue
+            scale = lim.entry_scale_db()
+            p_entry = p0 * 10 ** (scale / 10.0)
+            if p_entry < max_power["night"]["max_power_kw"]:
+                i = int(np.argmax(lim.proposal_dbu - lim.without_dbu))
+                max_power["night"] = {
+                    "max_power_kw": p_entry, "current_power_kw": p0,
+                    "limiting_neighbour": lim.neighbour, "limiting_lat": float(lim.lat[i]),
+                    "limiting_lon": float(lim.lon[i]), "margin_db_now": float(scale),
+                    "mechanism": "RSS", "check": "night limit entry"}
     return InterferenceResult(tuple(rows), night, max_power, tuple(notes), prot, plan.night,
-                              tuple(skipped), protected)
+                              tuple(skipped), protected, tuple(limits), overlaps)

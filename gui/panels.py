@@ -725,7 +725,7 @@ class InterferenceTable(_RowsView):
     """Every D/U check with its margin; sortable (worst first); failures in red."""
 
     HEAD = ["Check", "Neighbour", "Offset", "Bearing°", "Lat", "Lon", "Wanted dBµV/m",
-            "Unwanted dBµV/m", "Ratio dB", "Margin dB", "Result"]
+            "Unwanted dBµV/m", "Ratio dB", "Margin dB", "Result", "By"]
 
     def __init__(self, parent=None):
         super().__init__(True, parent)
@@ -736,7 +736,7 @@ class InterferenceTable(_RowsView):
         for r in (inter.rows if inter else ()):
             vals = (r.kind, r.neighbour, r.offset_channels, r.bearing_deg, r.lat, r.lon,
                     r.wanted_dbu, r.unwanted_dbu, r.ratio_db, r.margin_db,
-                    "pass" if r.passed else "FAILS")
+                    "pass" if r.passed else "FAILS", f"{r.mechanism} wave")
             keys.append(vals)
             rows.append(tuple(f"{v:.4f}" if j in (4, 5) else f"{v:g}" if j == 3 else
                               f"{v:.2f}" if isinstance(v, float) else str(v)

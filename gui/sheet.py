@@ -15,7 +15,7 @@ from PySide6.QtGui import QColor, QFont, QPageLayout, QPageSize, QPainter, QPdfW
 
 from mwreach.coverage.export import KM_PER_MI, version
 from mwreach.coverage.geodesy import dms
-from mwreach.coverage.interference import describe_max_power
+from mwreach.coverage.interference import describe_max_power, summary_cells
 
 from .render import MapOptions, draw_legend, draw_map, fit_view
 
@@ -320,8 +320,8 @@ def _page_night(doc: _Doc, result):
 
     y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Worst D/U margin per neighbour",
                   9.5, bold=True) + 2 * PT
-    cols = [("Neighbour", 0.24), ("Check", 0.15), ("Offset", 0.08), ("Ratio dB", 0.09),
-            ("Worst margin dB", 0.15), ("Result", 0.09), ("At (lat, lon)", 0.2)]
+    cols = [("Neighbour", 0.2), ("Check", 0.16), ("Offset", 0.06), ("Ratio dB", 0.07),
+            ("Worst margin", 0.15), ("By", 0.1), ("Result", 0.08), ("At (lat, lon)", 0.18)]
     x = page.left()
     doc.font(7.5, True)
     p.setPen(Qt.black)
@@ -334,10 +334,9 @@ def _page_night(doc: _Doc, result):
     for k, row in enumerate(inter.neighbour_summary()):
         if k % 2 == 0:
             p.fillRect(QRectF(page.left(), y, page.width(), 10 * PT), QColor(242, 242, 242))
-        vals = [row["neighbour"], row["kind"], f"{row['offset_channels']:+d}".replace("+0", "0"),
-                f"{row['ratio_db']:g}", f"{row['worst_margin_db']:.1f}",
-                "pass" if row["passed"] else "FAILS",
-                f"{row['lat']:.3f}, {row['lon']:.3f}"]
+        c = summary_cells(row)
+        vals = [row["neighbour"], row["kind"], c["offset"], c["ratio"], c["value"], c["by"],
+                c["result"], c["at"]]
         x = page.left()
         doc.font(7.5, not row["passed"])
         for (_name, w), v in zip(cols, vals):

@@ -19,6 +19,7 @@ from mwreach.coverage.interference import (
     rss,
     run_interference,
 )
+from mwreach.coverage.groundwave import mv_m_to_dbu
 from mwreach.coverage.skywave import sky_field_dbu, sky_path
 from mwreach.coverage.inputs import load_study, read_neighbours_csv
 from mwreach.coverage.study import Study
@@ -114,9 +115,9 @@ def test_one_interferer_sets_the_limit_to_ratio_times_field():
 
 
 def test_undefined_ratio_contributes_nothing_and_is_reported():
-    spec = _spec([_nb("B", 1410.0)])
+    spec = _spec([_nb("B", 1430.0)])  # four channels off: no ratio, no overlap rule
     res = run_interference(spec, spec.interference)
-    assert not res.rows
+    assert not res.rows and not res.overlaps
     assert any("B" in n and "no protection ratio" in n for n in res.notes)
     assert np.allclose(res.night.limit_mv_m, 0.5)  # the floor
 
@@ -167,7 +168,7 @@ def test_demo_night_outputs(demo_run):
     assert len(night["bearings"]) == 72
     rows = list(csv.DictReader((tmp_path / "interference.csv").open()))
     kinds = {r["kind"] for r in rows}
-    assert kinds == {"day received", "day caused", "night caused"}
+    assert kinds == {"day received", "day caused", "night caused", "day overlap"}
     r = rows[0]
     assert float(r["margin_db"]) == pytest.approx(
         float(r["wanted_dbu"]) - float(r["unwanted_dbu"]) - float(r["ratio_db"]), abs=0.02)
@@ -249,3 +250,122 @@ def test_itu_night_limit_is_the_rss_of_ratio_times_sky_wave_on_the_demo():
     # the limit was evaluated at the previous iteration's contour, which moves < 0.1 km
     np.testing.assert_allclose(night.limit_dbu, expected, atol=0.02)  # dB
     assert res.settings.method == "itu"
+
+
+# --- the night rules (docs/methods.md §5) --------------------------------------------------------
+
+def _north_of_site(spec, km):
+    from mwreach.coverage.geodesy import fwd_points
+
+    lat, lon = fwd_points(spec.station.lat, spec.station.lon, 0.0, km)
+    return float(lat), float(lon)
+
+
+def test_first_adjacent_40_km_fails_at_night_by_ground_wave():
+    # a first-adjacent class B neighbour 20 km due north, 1 kW day and night; the proposal at
+    # 1 kW day and night. Its protected night contour is 2.5 mV/m (class B, nothing else
+    # listed, so its night limit is the class level; 47 CFR 73.182, from memory); the 10 % sky
+    # wave at such short range is far weaker than the ground wave.
+    spec = _spec([])
+    spec = dataclasses.replace(spec, station=dataclasses.replace(spec.station, power_night_kw=1.0,
+                                                                 power_day_kw=1.0))
+    lat, lon = _north_of_site(spec, 20.0)
+    n = Neighbour("Close", lat, lon, 1400.0, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(
+        spec.interference, neighbours=(n,), contour_step_deg=10.0))
+    res = run_interference(spec, spec.interference)
+    rows = [r for r in res.rows if r.kind == "night caused"]
+    assert rows and any(not r.passed for r in rows)
+    r180 = next(r for r in rows if r.bearing_deg == 180.0)  # toward the proposal
+    assert r180.mechanism == "ground"
+    # by hand on the homogeneous land of this study (3 mS/m, εr 22; ITU-R P.368 class, from
+    # memory): the neighbour's 2.5 mV/m radius, then the proposal's ground wave 20 km − r away
+    from mwreach.coverage import groundwave as gw
+
+    g = ground_class("land")
+    e_n = n.antenna.field_mv_m(180.0, 0.0, 1.0)
+    e_p = spec.station.antenna.field_mv_m(0.0, 0.0, 1.0)
+    r = gw.model(1400.0, g, spec.earth_k).distance_to_field_km(2.5, float(e_n))
+    u = float(gw.model(1390.0, g, spec.earth_k).field_dbu(20.0 - r, float(e_p)))
+    margin = float(gw.mv_m_to_dbu(2.5)) - u - 6.0  # 6 dB first adjacent
+    # 0.1 dB: 0.5 km radial grid and the geodesic vs straight-line 20 km − r
+    assert r180.margin_db == pytest.approx(margin, abs=0.1)
+    assert margin < -3.0
+    assert res.worst("night caused").mechanism == "ground"
+
+
+def test_co_channel_class_d_neighbour_has_no_night_check():
+    n = dataclasses.replace(_nb("D", 1390.0), station_class="D")
+    spec = _spec([n])
+    res = run_interference(spec, spec.interference)
+    assert not [r for r in res.rows if r.kind == "night caused"]
+    assert any("class D: no night protection" in x for x in res.notes)
+    assert [r for r in res.rows if r.kind == "day caused"]  # day protection stays
+
+
+def test_class_a_neighbour_is_protected_to_its_50_percent_sky_wave_contour():
+    n = dataclasses.replace(_nb("Clear", 1390.0, lat=45.0, lon=-60.0, p=50.0), station_class="A")
+    spec = _spec([n])
+    res = run_interference(spec, spec.interference)
+    rows = [r for r in res.rows if r.kind == "night caused"]
+    assert rows
+    # the wanted field is 0.5 mV/m (class A, from memory) and each point lies where the
+    # neighbour's 50 % sky wave (47 CFR 73.190 Formula 1) is 0.5 mV/m
+    assert all(r.wanted_dbu == pytest.approx(float(mv_m_to_dbu(0.5)), abs=1e-9) for r in rows)
+    r = rows[0]
+    path = sky_path(n.lat, n.lon, r.lat, r.lon, geometry="cfr")
+    e_dep = n.antenna.field_mv_m(path.azimuth_deg, path.departure_deg, n.power_night_kw)
+    assert float(sky_field_dbu(path, e_dep, "cfr", 50)) == pytest.approx(
+        float(mv_m_to_dbu(0.5)), abs=0.05)  # dB: interpolation on a 10 km grid
+    assert all(r.mechanism == "sky" for r in rows)
+
+
+def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
+    # two single towers 3 km apart on homogeneous land, third adjacent: their 25 mV/m contours
+    # (47 CFR 73.37, from memory) are circles; the overlap is the lens of two circles
+    spec = _spec([])
+    lat, lon = _north_of_site(spec, 3.0)
+    n = Neighbour("Third", lat, lon, 1420.0, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(
+        spec.interference, neighbours=(n,)))
+    res = run_interference(spec, spec.interference)
+    (ov,) = res.overlaps
+    from mwreach.coverage import groundwave as gw
+
+    g = ground_class("land")
+    r1 = gw.model(1390.0, g, spec.earth_k).distance_to_field_km(
+        25.0, float(spec.station.antenna.field_mv_m(0.0, 0.0, spec.station.power_day_kw)))
+    r2 = gw.model(1420.0, g, spec.earth_k).distance_to_field_km(
+        25.0, float(n.antenna.field_mv_m(0.0, 0.0, 1.0)))
+    d = 3.0
+    lens = (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
+            + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
+            - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))
+    assert ov.area_km2 == pytest.approx(lens, rel=0.02)  # 2° polygons of small circles
+    assert not ov.passed and ov.offset_channels == 3 and ov.points
+    assert any(row["kind"] == "day overlap" and not row["passed"]
+               for row in res.neighbour_summary())
+
+
+def test_exclusion_flips_when_the_proposal_crosses_half_the_rss():
+    # neighbour N (class B) has one co-channel interferer O setting its night limit; the
+    # proposal enters N's RSS once its product reaches 50 % of O's (47 CFR 73.182(k), from
+    # memory), i.e. −6.02 dB. Fields scale with sqrt(P): the flip is at a computable power.
+    o = _nb("O", 1390.0, lat=44.0, lon=-55.0, p=5.0)
+    nn = _nb("N", 1390.0, lat=42.0, lon=-51.0, p=5.0)
+    spec = _spec([nn, o])
+    res = run_interference(spec, spec.interference)
+    lim = next(x for x in res.neighbour_limits if x.neighbour == "N")
+    x = float(np.max(lim.proposal_dbu - lim.without_dbu))  # dB at the most exposed point
+    threshold = 20 * np.log10(0.5)
+    p0 = spec.station.power_night_kw
+    # the maximum night power stops just short of entering N's RSS (or of a D/U limit)
+    p_flip = p0 * 10 ** ((threshold - x) / 10)
+    assert res.max_power["night"]["max_power_kw"] <= p_flip * 10 ** (0.01 / 10)
+    for delta, enters in ((-1.0, False), (+1.0, True)):
+        p = p0 * 10 ** ((threshold - x + delta) / 10)
+        sp = dataclasses.replace(spec, station=dataclasses.replace(spec.station, power_night_kw=p))
+        got = next(x for x in run_interference(sp, sp.interference).neighbour_limits
+                   if x.neighbour == "N")
+        assert got.excluded is (not enters)
+        assert (got.increase_db > 0) is enters
