@@ -13,6 +13,7 @@ ITU-R BS.560).
 from __future__ import annotations
 
 import dataclasses
+import functools
 from dataclasses import dataclass, field, fields
 
 import numpy as np
@@ -28,11 +29,23 @@ from .contours import (
     radial_fields,
     radial_length_km,
 )
-from .geodesy import fwd_points, geodesic_area_km2, inverse, local_projection
+from .geodesy import fwd_points, geodesic_area_km2, inverse, local_projection, midpoint
 from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
-from .mixedpath import path_field_db
-from .skywave import METHOD_DISTANCE_KM, SkyPath, in_method_range, sky_field_dbu, sky_path
+from .mixedpath import millington_points_db, path_field_db
+from .skywave import (
+    METHOD_DISTANCE_KM,
+    SkyPath,
+    cfr_field_dbu,
+    cfr_geometry,
+    coupling_loss_db,
+    departure_deg,
+    geomagnetic_lat_deg,
+    in_method_range,
+    itu_field_dbu,
+    sky_field_dbu,
+    sky_path,
+)
 from .station import Station
 
 __all__ = [
@@ -180,12 +193,16 @@ def point_ground_dbu(freq_khz, ground: GroundMap, lat, lon, array: Array, power_
     if d.size == 0:
         return out
     e1 = array.field_mv_m(az, 0.0, power_kw)
-    secs = ground.radial_sections(lat, lon, az, float(d.max()) + 1.0)
     lam = model(freq_khz, ground.default, earth_k).wavelength_km
-    for i in range(d.size):
-        if d[i] < lam:
-            continue
-        out[i] = path_field_db(method, secs[i], [d[i]], freq_khz, earth_k)[0] + mv_m_to_dbu(e1[i])
+    far = np.flatnonzero(d >= lam)
+    if far.size == 0:
+        return out
+    secs = ground.radial_sections(lat, lon, az[far], float(d[far].max()) + 1.0)
+    if method == "millington":  # all paths in one pass
+        out[far] = millington_points_db(secs, d[far], freq_khz, earth_k) + mv_m_to_dbu(e1[far])
+        return out
+    for k, i in enumerate(far):
+        out[i] = path_field_db(method, secs[k], [d[i]], freq_khz, earth_k)[0] + mv_m_to_dbu(e1[i])
     return out
 
 
@@ -464,63 +481,156 @@ def _geometry(method: str) -> str:
     return "cfr" if method == "cfr" else "geodesic"
 
 
-def night_contribution(tx: Station, pts_lat, pts_lon, spec, night: NightSettings,
-                       skipped: set | None = None):
-    """A transmitter's interfering field at night [dBµV/m] at the points, and what carries it.
+@functools.lru_cache(maxsize=4096)
+def _max_horizontal_mv_m(antenna: Array, power_kw: float) -> float:
+    """Strongest horizontal radiation [mV/m at 1 km] (cached per antenna and power)."""
+    return float(antenna.horizontal_summary(power_kw, step_deg=1.0)["max_mv_m"])
 
-    The larger of its 10 % (or 50 %) sky wave and its night ground wave (mixed paths over the
-    study's zones, night power and antenna) at each point; ``mechanism`` is ``"sky"`` or
-    ``"ground"`` accordingly. The ground wave is computed only where an upper bound for it (the
-    homogeneous curve of the best ground of the map, with the strongest horizontal radiation)
-    exceeds the sky wave, so the result is exact while far stations cost no ground-wave work.
-    Points a sky-wave method cannot reach get no sky wave; the station's name goes into
-    ``skipped``.
+
+def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set | None = None):
+    """Interfering fields at night of several transmitters at several points, in one pass.
+
+    For every (transmitter, point) pair: the larger of its 10 % (or 50 %) sky wave and its
+    night ground wave (mixed paths over the study's zones, night power and antenna). The path
+    geometry, the sky-wave formula and the antenna patterns are evaluated for all pairs at once
+    (transmitters with the same antenna, power and frequency share one call). The ground wave
+    is computed only for pairs where an upper bound exceeds the sky wave: first the homogeneous
+    curve of the best ground of the whole map, then that of the best ground the path crosses,
+    both with the strongest horizontal radiation; so the result is exact while distant stations
+    cost no ground-wave work. Ground wave beyond 2000 km (``MAX_RADIAL_KM``) is taken as
+    negligible. Pairs a sky-wave method cannot reach get no sky wave, and the transmitter's name
+    goes into ``skipped``.
+
+    Returns
+    -------
+    field_dbu : (n_tx, n_pts) [dBµV/m], −inf where a transmitter has no night power
+    ground : (n_tx, n_pts) bool, True where the ground wave is the larger
     """
     pts_lat = np.atleast_1d(np.asarray(pts_lat, float))
     pts_lon = np.atleast_1d(np.asarray(pts_lon, float))
-    if tx.power_night_kw <= 0 or pts_lat.size == 0:
-        return np.full(pts_lat.shape, -np.inf), np.full(pts_lat.shape, "sky", dtype=object)
-    sky = sky_dbu_from(tx.lat, tx.lon, tx.freq_khz, tx.antenna, tx.power_night_kw, pts_lat,
-                       pts_lon, night)
-    if np.isnan(sky).any() and skipped is not None:
-        skipped.add(tx.name)
-    sky = np.where(np.isnan(sky), -np.inf, sky)
-    d, _, _ = inverse(tx.lat, tx.lon, pts_lat, pts_lon)
+    n_tx, n_pts = len(txs), pts_lat.size
+    out = np.full((n_tx, n_pts), -np.inf)
+    if n_tx == 0 or n_pts == 0:
+        return out, np.zeros(out.shape, dtype=bool)
+    tlat = np.array([t.lat for t in txs])[:, None]
+    tlon = np.array([t.lon for t in txs])[:, None]
+    if night.method == "cfr":
+        d, az, back, mlat, mlon = cfr_geometry(tlat, tlon, pts_lat[None, :], pts_lon[None, :])
+    else:
+        d, az, back = inverse(tlat, tlon, pts_lat[None, :], pts_lon[None, :])
+        mlat, mlon = midpoint(tlat, tlon, pts_lat[None, :], pts_lon[None, :])
+    phi = geomagnetic_lat_deg(mlat, mlon)
+    dep = np.maximum(departure_deg(d, 1, night.layer_height_km), 0.0)
+    ok = in_method_range(d, night.method)
+    if skipped is not None:
+        for i in np.flatnonzero(~ok.all(axis=1)):
+            skipped.add(txs[i].name)
+    groups: dict = {}
+    for i, t in enumerate(txs):
+        if t.power_night_kw > 0:
+            groups.setdefault((t.antenna, float(t.power_night_kw), float(t.freq_khz)), []).append(i)
+    sky = np.full((n_tx, n_pts), -np.inf)
+    for (antenna, power, freq), rows in groups.items():
+        rows = np.array(rows)
+        m = ok[rows]
+        if not m.any():
+            continue
+        e_dep = antenna.field_mv_m(az[rows][m], dep[rows][m], power)
+        with np.errstate(divide="ignore"):
+            gain = 20 * np.log10(e_dep)
+        if night.method == "cfr":
+            f = cfr_field_dbu(d[rows][m], phi[rows][m], night.percent) + gain - 40.0  # /100 mV/m
+        else:
+            ri, pj = np.nonzero(m)
+            lp = (coupling_loss_db(tlat[rows][ri, 0], tlon[rows][ri, 0], az[rows][m])
+                  + coupling_loss_db(pts_lat[pj], pts_lon[pj], back[rows][m]))
+            f = gain - float(mv_m_to_dbu(300.0)) + 60.0 + itu_field_dbu(
+                d[rows][m], freq, phi[rows][m], night.percent, lp_db=lp, **night.itu_kwargs)
+        block = sky[rows]
+        block[m] = f
+        sky[rows] = block
+    # ground wave where it can matter
     best = max(spec.ground.grounds, key=lambda g: g.sigma_ms_m)
-    m = model(tx.freq_khz, best, spec.earth_k)
-    e_max = tx.antenna.horizontal_summary(tx.power_night_kw, step_deg=1.0)["max_mv_m"]
-    # beyond MAX_RADIAL_KM (2000 km) the ground wave is far below any sky wave at MF
-    near = (d >= m.wavelength_km) & (d <= MAX_RADIAL_KM)
-    bound = np.full(d.shape, -np.inf)
-    bound[near] = m.field_dbu(d[near], e_max)
-    need = near & (bound > sky)
-    ground = np.full(d.shape, -np.inf)
-    if need.any():
-        ground[need] = point_ground_dbu(tx.freq_khz, spec.ground, tx.lat, tx.lon, tx.antenna,
-                                        tx.power_night_kw, pts_lat[need], pts_lon[need],
-                                        spec.mixed_path, spec.earth_k)
+    ground = np.full((n_tx, n_pts), -np.inf)
+    for i, t in enumerate(txs):
+        if t.power_night_kw <= 0:
+            continue
+        mod = model(t.freq_khz, best, spec.earth_k)
+        e_max = _max_horizontal_mv_m(t.antenna, float(t.power_night_kw))
+        near = (d[i] >= mod.wavelength_km) & (d[i] <= MAX_RADIAL_KM)
+        if not near.any():
+            continue
+        bound = np.full(n_pts, -np.inf)
+        bound[near] = mod.curve_db(d[i][near]) + mv_m_to_dbu(e_max)
+        need = np.flatnonzero(near & (bound > sky[i]))
+        if need.size == 0:
+            continue
+        secs = spec.ground.radial_sections(t.lat, t.lon, az[i][need], float(d[i][need].max()) + 1.0)
+        tight = np.array([float(model(t.freq_khz, max((sc.ground for sc in sec),
+                                                      key=lambda g: g.sigma_ms_m),
+                                      spec.earth_k).curve_db(d[i][j]))
+                          for sec, j in zip(secs, need)]) + mv_m_to_dbu(e_max)
+        need = need[tight > sky[i][need]]
+        if need.size:
+            ground[i, need] = point_ground_dbu(t.freq_khz, spec.ground, t.lat, t.lon, t.antenna,
+                                               t.power_night_kw, pts_lat[need], pts_lon[need],
+                                               spec.mixed_path, spec.earth_k)
     ground = np.where(np.isnan(ground), -np.inf, ground)
-    mech = np.where(ground > sky, "ground", "sky").astype(object)
-    return np.maximum(sky, ground), mech
+    return np.maximum(sky, ground), ground > sky
+
+
+def night_contribution(tx: Station, pts_lat, pts_lon, spec, night: NightSettings,
+                       skipped: set | None = None):
+    """One transmitter's interfering field at night [dBµV/m] at the points and what carries it
+    (``"sky"`` or ``"ground"``); see :func:`night_fields`."""
+    f, g = night_fields([tx], pts_lat, pts_lon, spec, night, skipped)
+    return f[0], np.where(g[0], "ground", "sky").astype(object)
+
+
+def rss_columns(lin, exclusion_percent: int):
+    """Column-wise :func:`rss` of a (n_values, n_points) array of linear values: the RSS of
+    each column with the exclusion rule and the mask of the values it keeps."""
+    lin = np.asarray(lin, dtype=float)
+    if lin.size == 0:
+        return np.zeros(lin.shape[1:]), np.zeros(lin.shape, dtype=bool)
+    order = np.argsort(-lin, axis=0, kind="stable")
+    v = np.take_along_axis(lin, order, axis=0)
+    csum = np.cumsum(v**2, axis=0)
+    prev = np.sqrt(np.vstack([np.zeros((1, v.shape[1])), csum[:-1]]))
+    stop = v <= 0
+    if exclusion_percent:
+        stop |= (prev > 0) & (v < exclusion_percent / 100.0 * prev)
+    stop = np.vstack([stop, np.ones((1, v.shape[1]), dtype=bool)])
+    k = np.argmax(stop, axis=0)  # values kept per column
+    total = np.where(k > 0, np.sqrt(np.take_along_axis(
+        csum, np.maximum(k - 1, 0)[None, :], axis=0)[0]), 0.0)
+    kept_sorted = np.arange(v.shape[0])[:, None] < k[None, :]
+    used = np.zeros(lin.shape, dtype=bool)
+    np.put_along_axis(used, order, kept_sorted, axis=0)
+    return total, used
 
 
 def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: float):
     """Per point: the RSS (with exclusion) of ratio × field [dBµV/m] of several stations, never
     below ``floor_dbu``; with the names and mechanisms the rule kept."""
     prods = np.asarray(products_dbu, dtype=float)  # (n_stations, n_points)
-    n_pts = prods.shape[1] if prods.ndim == 2 else 0
-    limits = np.full(n_pts, floor_dbu)
-    used_names, used_mechs, used_mask = [], [], np.zeros(prods.shape, dtype=bool)
-    lin = np.where(np.isfinite(prods), 10 ** (np.where(np.isfinite(prods), prods, 0.0) / 20.0), 0.0)
-    for j in range(n_pts):
-        total, used = rss(lin[:, j], exclusion_percent)
-        if total > 0:
-            limits[j] = max(20 * np.log10(total), floor_dbu)
-        used_mask[:, j] = used
-        idx = np.flatnonzero(used)
+    if prods.ndim != 2 or prods.shape[0] == 0:
+        n_pts = prods.shape[1] if prods.ndim == 2 else 0
+        return (np.full(n_pts, floor_dbu), [[] for _ in range(n_pts)],
+                [[] for _ in range(n_pts)], np.zeros(prods.shape, dtype=bool))
+    finite = np.isfinite(prods)
+    lin = np.where(finite, 10 ** (np.where(finite, prods, 0.0) / 20.0), 0.0)
+    total, used = rss_columns(lin, exclusion_percent)
+    with np.errstate(divide="ignore"):
+        limits = np.maximum(np.where(total > 0, 20 * np.log10(np.maximum(total, 1e-300)),
+                                     -np.inf), floor_dbu)
+    mechs = np.asarray(mechs, dtype=object).reshape(prods.shape)
+    used_names, used_mechs = [], []
+    for j in range(prods.shape[1]):
+        idx = np.flatnonzero(used[:, j])
         used_names.append([names[i] for i in idx])
-        used_mechs.append([mechs[i][j] for i in idx])
-    return limits, used_names, used_mechs, used_mask
+        used_mechs.append([mechs[i, j] for i in idx])
+    return limits, used_names, used_mechs, used
 
 
 def _limit_at(points_lat, points_lon, spec, plan: InterferencePlan, interferers, skipped=None):
@@ -531,11 +641,10 @@ def _limit_at(points_lat, points_lon, spec, plan: InterferencePlan, interferers,
     if not interferers:
         empty = [[] for _ in range(n_pts)]
         return np.full(n_pts, floor), empty, empty
-    prods, mechs = [], []
-    for n, ratio in interferers:
-        u, mech = night_contribution(n, points_lat, points_lon, spec, plan.night, skipped)
-        prods.append(u + ratio)
-        mechs.append(mech)
+    f, g = night_fields([n for n, _ in interferers], points_lat, points_lon, spec, plan.night,
+                        skipped)
+    prods = f + np.array([r for _, r in interferers])[:, None]
+    mechs = np.where(g, "ground", "sky")
     limits, names, used_mechs, _ = _rss_limit(prods, [n.name for n, _ in interferers], mechs,
                                               plan.night.exclusion_percent, floor)
     return limits, names, used_mechs
@@ -625,25 +734,23 @@ def neighbour_night_limit(n: Neighbour, others, proposal, ratio_prop: float, spe
     exclusion = plan.night.exclusion_percent
     level = np.full(bearings.shape, fixed)
     names = [o.name for o, _ in others]
+    ratios = np.array([r for _, r in others])[:, None] if others else np.zeros((0, 1))
+
+    def others_at(plat, plon):
+        f, g = night_fields([o for o, _ in others], plat, plon, spec, plan.night, skipped)
+        prods = f + ratios
+        return prods, np.where(g, "ground", "sky"), (
+            _rss_limit(prods, names, np.where(g, "ground", "sky"), exclusion, fixed)[0]
+            if others else np.full(np.size(plat), fixed))
+
     for _ in range(plan.night.iterations):
         ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
-        prods, mechs = [], []
-        for o, ratio in others:
-            u, mech = night_contribution(o, plat, plon, spec, plan.night, skipped)
-            prods.append(u + ratio)
-            mechs.append(mech)
-        without = (_rss_limit(prods, names, mechs, exclusion, fixed)[0] if others
-                   else np.full(plat.shape, fixed))
+        without = others_at(plat, plon)[2]
         level = np.full(bearings.shape, fixed)
         level[ok] = without
     ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
-    prods, mechs = [], []
-    for o, ratio in others:
-        u, mech = night_contribution(o, plat, plon, spec, plan.night, skipped)
-        prods.append(u + ratio)
-        mechs.append(mech)
-    without = (_rss_limit(prods, names, mechs, exclusion, fixed)[0] if others
-               else np.full(plat.shape, fixed))
+    prods, mechs, without = others_at(plat, plon)
+    prods, mechs = list(prods), list(mechs)
     u_p, mech_p = night_contribution(proposal, plat, plon, spec, plan.night, skipped)
     with_p, _, _, used = _rss_limit(prods + [u_p + ratio_prop], names + [proposal.name],
                                     mechs + [mech_p], exclusion, fixed)

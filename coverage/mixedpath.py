@@ -22,7 +22,7 @@ import numpy as np
 from .ground import Section
 from .groundwave import GroundWaveModel, model
 
-__all__ = ["METHODS", "path_field_db", "millington_db", "kirke_db"]
+__all__ = ["METHODS", "path_field_db", "millington_db", "millington_points_db", "kirke_db"]
 
 METHODS = ("millington", "kirke")
 
@@ -78,6 +78,43 @@ def millington_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k
         r = d[beyond] - b
         rev[beyond] += ms[j + 1].gain_db(r) - ms[j].gain_db(r)  # Eq. reverse term
     return 0.5 * (fwd + rev)
+
+
+def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
+    """Millington's field [dB re unattenuated field at 1 km] for many paths at once: path k
+    with its own ``paths[k]`` sections, to its own receiver distance ``dist_km[k]``.
+
+    The same formula as :func:`millington_db`, written as a sum of curve look-ups
+    (−20·log10 D + ½·[g_n(D) + g_1(D) + Σ_j (g_j(b_j) − g_{j+1}(b_j) + g_{j+1}(D − b_j)
+    − g_j(D − b_j))], g the attenuation of a section's ground in dB); the look-ups of every path
+    are grouped by ground and done in one interpolation per ground.
+    """
+    d = np.asarray(dist_km, dtype=float)
+    keys, xs, ws, idx = [], [], [], []
+    grounds = {}
+    for k, (secs, dk) in enumerate(zip(paths, d)):
+        _check_sections(secs)
+        bounds = [sc.end_km for sc in secs[:-1] if sc.end_km < dk]
+        n = len(bounds)
+        g_first, g_last = secs[0].ground, secs[n].ground
+        for g, x, w in ((g_last, dk, 0.5), (g_first, dk, 0.5)):
+            grounds[g.key] = g
+            keys.append(g.key), xs.append(x), ws.append(w), idx.append(k)
+        for j, b in enumerate(bounds):
+            gj, gk = secs[j].ground, secs[j + 1].ground
+            grounds[gj.key], grounds[gk.key] = gj, gk
+            for g, x, w in ((gj, b, 0.5), (gk, b, -0.5), (gk, dk - b, 0.5), (gj, dk - b, -0.5)):
+                keys.append(g.key), xs.append(x), ws.append(w), idx.append(k)
+    out = -20 * np.log10(d)
+    if not keys:
+        return out
+    xs, ws, idx = np.array(xs), np.array(ws), np.array(idx)
+    keys_arr = np.empty(len(keys), dtype=object)
+    keys_arr[:] = keys
+    for key, g in grounds.items():
+        sel = np.array([kk == key for kk in keys])
+        np.add.at(out, idx[sel], ws[sel] * model(freq_khz, g, earth_k).gain_db(xs[sel]))
+    return out
 
 
 def kirke_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k: float = 4 / 3):
