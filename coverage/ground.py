@@ -116,24 +116,13 @@ def ray_intervals(geom_xy, bearings_deg, max_km: float):
     bearings_deg : (nb,) [deg true]
     max_km : radial length [km]
     """
-    import shapely
-
     b = np.mod(np.atleast_1d(np.asarray(bearings_deg, dtype=float)), 360.0)
     if geom_xy is None or geom_xy.is_empty or b.size == 0:
         return []
-    edges = []
-    for poly in shapely.get_parts(geom_xy):
-        if poly.geom_type != "Polygon":
-            continue
-        for ring in (poly.exterior, *poly.interiors):
-            c = np.asarray(ring.coords)[:, :2]
-            edges.append(np.column_stack([c[:-1], c[1:]]))
-    if not edges:
+    e, ap, aq, inside0 = _edge_table(geom_xy)
+    if e.shape[0] == 0:
         return []
-    e = np.vstack(edges)
     p, q = e[:, :2], e[:, 2:]
-    ap = np.mod(np.degrees(np.arctan2(p[:, 0], p[:, 1])), 360.0)
-    aq = np.mod(np.degrees(np.arctan2(q[:, 0], q[:, 1])), 360.0)
     lo, hi = np.minimum(ap, aq), np.maximum(ap, aq)
     wraps = hi - lo > 180.0  # the edge spans north: bearings in [hi, 360) and [0, lo)
     order = np.argsort(b, kind="stable")
@@ -163,19 +152,51 @@ def ray_intervals(geom_xy, bearings_deg, max_km: float):
         ri, r = ri[ok], r[ok]
     else:
         r = np.empty(0)
-    inside0 = bool(shapely.contains_xy(geom_xy, 0.0, 0.0))
+    # every radial's crossings in order, with 0 first where the origin is inside and +inf
+    # last; consecutive pairs (0,1), (2,3), … are then the stretches inside
+    all_i = np.arange(b.size)
+    ri = np.concatenate([ri, all_i] + ([all_i] if inside0 else []))
+    r = np.concatenate([r, np.full(b.size, np.inf)] + ([np.zeros(b.size)] if inside0 else []))
     srt = np.lexsort((r, ri))
     ri, r = ri[srt], r[srt]
-    out = []
-    bounds = np.searchsorted(ri, np.arange(b.size + 1))
-    for i in range(b.size):
-        cr = r[bounds[i]:bounds[i + 1]]
-        pts = np.concatenate([[0.0], cr]) if inside0 else cr
-        for a, z in zip(pts[0::2], np.append(pts[1::2], np.inf)[: len(pts[0::2])]):
-            a, z = float(a), float(min(z, max_km))
-            if a < max_km and z - a > 1e-9:
-                out.append((i, a, z))
-    return out
+    rank = np.arange(ri.size) - np.searchsorted(ri, ri)
+    start = (rank % 2 == 0) & (np.arange(ri.size) + 1 < ri.size)
+    start[:-1] &= ri[1:] == ri[:-1]
+    start[-1] = False
+    a = r[start]
+    z = np.minimum(r[np.flatnonzero(start) + 1], max_km)
+    i = ri[start]
+    keep = (a < max_km) & (z - a > 1e-9)
+    return list(zip(i[keep].tolist(), a[keep].tolist(), z[keep].tolist()))
+
+
+_EDGE_CACHE: dict = {}
+
+
+def _edge_table(geom_xy):
+    """Ring edges of a (multi)polygon as (n, 4) [x0, y0, x1, y1], their end angles from the
+    origin [deg] and whether the origin is inside; cached per geometry object."""
+    import shapely
+
+    key = id(geom_xy)
+    hit = _EDGE_CACHE.get(key)
+    if hit is not None and hit[0] is geom_xy:
+        return hit[1]
+    edges = []
+    for poly in shapely.get_parts(geom_xy):
+        if poly.geom_type != "Polygon":
+            continue
+        for ring in (poly.exterior, *poly.interiors):
+            c = np.asarray(ring.coords)[:, :2]
+            edges.append(np.column_stack([c[:-1], c[1:]]))
+    e = np.vstack(edges) if edges else np.empty((0, 4))
+    ap = np.mod(np.degrees(np.arctan2(e[:, 0], e[:, 1])), 360.0)
+    aq = np.mod(np.degrees(np.arctan2(e[:, 2], e[:, 3])), 360.0)
+    table = (e, ap, aq, bool(shapely.contains_xy(geom_xy, 0.0, 0.0)))
+    if len(_EDGE_CACHE) > 512:
+        _EDGE_CACHE.clear()
+    _EDGE_CACHE[key] = (geom_xy, table)
+    return table
 
 
 @dataclass(frozen=True)

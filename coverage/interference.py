@@ -340,9 +340,8 @@ class NeighbourLimit:
         """The limit [dBµV/m] with the proposal's product raised by ``scale_db``."""
         others = self.others_dbu if self.others_dbu is not None else np.empty((0, self.lat.size))
         prods = np.vstack([others, self.proposal_dbu[None, :] + scale_db])
-        names = [""] * prods.shape[0]
-        mechs = [[""] * prods.shape[1]] * prods.shape[0]
-        return _rss_limit(prods, names, mechs, self.exclusion_percent, self.fixed_dbu)[0]
+        return _rss_limit(prods, None, None, self.exclusion_percent, self.fixed_dbu,
+                          want_names=False)[0]
 
     def entry_scale_db(self) -> float:
         """How far [dB] the proposal's product may change before it raises the limit anywhere
@@ -610,9 +609,11 @@ def rss_columns(lin, exclusion_percent: int):
     return total, used
 
 
-def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: float):
+def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: float,
+               want_names: bool = True):
     """Per point: the RSS (with exclusion) of ratio × field [dBµV/m] of several stations, never
-    below ``floor_dbu``; with the names and mechanisms the rule kept."""
+    below ``floor_dbu``; with the names and mechanisms the rule kept (empty lists unless
+    ``want_names``)."""
     prods = np.asarray(products_dbu, dtype=float)  # (n_stations, n_points)
     if prods.ndim != 2 or prods.shape[0] == 0:
         n_pts = prods.shape[1] if prods.ndim == 2 else 0
@@ -624,8 +625,10 @@ def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: fl
     with np.errstate(divide="ignore"):
         limits = np.maximum(np.where(total > 0, 20 * np.log10(np.maximum(total, 1e-300)),
                                      -np.inf), floor_dbu)
-    mechs = np.asarray(mechs, dtype=object).reshape(prods.shape)
     used_names, used_mechs = [], []
+    if not want_names:
+        return limits, used_names, used_mechs, used
+    mechs = np.asarray(mechs, dtype=object).reshape(prods.shape)
     for j in range(prods.shape[1]):
         idx = np.flatnonzero(used[:, j])
         used_names.append([names[i] for i in idx])
@@ -740,7 +743,7 @@ def neighbour_night_limit(n: Neighbour, others, proposal, ratio_prop: float, spe
         f, g = night_fields([o for o, _ in others], plat, plon, spec, plan.night, skipped)
         prods = f + ratios
         return prods, np.where(g, "ground", "sky"), (
-            _rss_limit(prods, names, np.where(g, "ground", "sky"), exclusion, fixed)[0]
+            _rss_limit(prods, names, None, exclusion, fixed, want_names=False)[0]
             if others else np.full(np.size(plat), fixed))
 
     for _ in range(plan.night.iterations):
@@ -753,7 +756,7 @@ def neighbour_night_limit(n: Neighbour, others, proposal, ratio_prop: float, spe
     prods, mechs = list(prods), list(mechs)
     u_p, mech_p = night_contribution(proposal, plat, plon, spec, plan.night, skipped)
     with_p, _, _, used = _rss_limit(prods + [u_p + ratio_prop], names + [proposal.name],
-                                    mechs + [mech_p], exclusion, fixed)
+                                    None, exclusion, fixed, want_names=False)
     lim = NeighbourLimit(n.name, bearings[ok], plat, plon, without, with_p, used[-1],
                          u_p + ratio_prop, np.array(prods).reshape(len(prods), plat.size), fixed,
                          exclusion)
