@@ -309,10 +309,16 @@ class GroundMap:
                 for i, a, e in ray_intervals(g, bearings, max_km):
                     intervals[i].append((a, e, zi))
         grounds = self.grounds
+        gkeys = [g.key for g in grounds]
+        whole = [Section(0.0, float(max_km), grounds[0])]
         out = []
         for ivs in intervals:
+            if not ivs:  # the radial stays on the default ground
+                out.append(list(whole))
+                continue
             cuts = sorted({0.0, float(max_km), *(v for a, e, _ in ivs for v in (a, e))})
             secs: list[Section] = []
+            last_key = None
             for a, e in zip(cuts[:-1], cuts[1:]):
                 if e - a <= 1e-9:
                     continue
@@ -321,10 +327,10 @@ class GroundMap:
                 for s0, s1, zi in ivs:  # later zones win
                     if s0 <= mid <= s1:
                         zone = zi
-                g = grounds[zone]
-                if secs and secs[-1].ground.key == g.key:
+                if secs and gkeys[zone] == last_key:
                     secs[-1] = Section(secs[-1].start_km, e, secs[-1].ground)
                 else:
-                    secs.append(Section(a, e, g))
+                    secs.append(Section(a, e, grounds[zone]))
+                    last_key = gkeys[zone]
             out.append(secs)
         return out
