@@ -110,7 +110,6 @@ class NightSettings:
     sunspot: float = 0.0
     floor_mv_m: float = 0.5  # night limit when no interferer is stronger
     bearing_step_deg: float = 5.0
-    iterations: int = 3
 
     KEYS = ("method", "percent", "exclusion_percent", "layer_height_km", "itu_region", "solar",
             "sunspot", "floor_mv_m", "bearing_step_deg")
@@ -476,8 +475,10 @@ def format_kw(kw: float) -> str:
     return f"{kw:.3g}" if kw >= 1e-3 else f"{kw:.6f}"
 
 
-def _geometry(method: str) -> str:
-    return "cfr" if method == "cfr" else "geodesic"
+#: Night limits are iterated (contour → limit on the contour → contour …) until no bearing's
+#: limit moves by more than this [dB], at most MAX_ITERATIONS times.
+CONVERGED_DB = 0.01
+MAX_ITERATIONS = 8
 
 
 @functools.lru_cache(maxsize=4096)
@@ -674,11 +675,15 @@ def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> Ni
     limit, used, mechs = _limit_at(np.full(bearings.shape, st.lat),
                                    np.full(bearings.shape, st.lon), spec, plan, interferers,
                                    skipped)
-    for _ in range(plan.night.iterations):
+    for _ in range(MAX_ITERATIONS):  # until the limit moves less than CONVERGED_DB
         first, _further = first_crossings(rad, limit)
         reach = np.where(np.isnan(first), 0.0, np.where(np.isinf(first), max_km, first))
         plat, plon = fwd_points(st.lat, st.lon, bearings, reach)
-        limit, used, mechs = _limit_at(plat, plon, spec, plan, interferers, skipped)
+        new, used, mechs = _limit_at(plat, plon, spec, plan, interferers, skipped)
+        done = np.max(np.abs(new - limit)) < CONVERGED_DB
+        limit = new
+        if done:
+            break
     first, _further = first_crossings(rad, limit)
     proj = local_projection(st.lat, st.lon)
     poly = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu, limit)
@@ -754,13 +759,19 @@ def neighbour_night_limit(n: Neighbour, others, proposal, ratio_prop: float, spe
             _rss_limit(prods, names, None, exclusion, fixed, want_names=False)[0]
             if others else np.full(np.size(plat), fixed))
 
-    for _ in range(plan.night.iterations):
+    # contour → limit on it → contour …, until the limit moves less than CONVERGED_DB
+    for _ in range(MAX_ITERATIONS):
         ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
-        without = others_at(plat, plon)[2]
-        level = np.full(bearings.shape, fixed)
-        level[ok] = without
+        prods, mechs, without = others_at(plat, plon)
+        new = np.full(bearings.shape, fixed)
+        new[ok] = without
+        done = np.max(np.abs(new - level)) < CONVERGED_DB
+        level = new
+        if done:
+            break
     ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
-    prods, mechs, without = others_at(plat, plon)
+    if not done:
+        prods, mechs, without = others_at(plat, plon)
     prods, mechs = list(prods), list(mechs)
     u_p, mech_p = night_contribution(proposal, plat, plon, spec, plan.night, skipped)
     with_p, _, _, used = _rss_limit(prods + [u_p + ratio_prop], names + [proposal.name],
