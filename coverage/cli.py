@@ -233,16 +233,17 @@ def _print_interference(result) -> None:
     summary = inter.neighbour_summary()
     if not summary:
         print("  no neighbour with a protection ratio or overlap rule: no checks")
-    else:
-        print(f"  {'neighbour':<20} {'check':<18} {'offset':>6} {'D/U dB':>7} "
-              f"{'worst margin':>13}  by")
+    width = max([20] + [len(r["neighbour"]) for r in summary])
+    if summary:
+        print(f"  {'neighbour':<{width}} {'check':<18} {'offset':>6} {'D/U dB':>7} "
+              f"{'worst margin':>16}  by")
     from .interference import summary_cells
 
     for row in summary:
         c = summary_cells(row)
         flag = "" if row["passed"] else "  FAILS"
-        print(f"  {row['neighbour']:<20} {row['kind']:<18} {c['offset']:>6} {c['ratio']:>7} "
-              f"{c['value']:>13}  {c['by']}{flag}")
+        print(f"  {row['neighbour']:<{width}} {row['kind']:<18} {c['offset']:>6} {c['ratio']:>7} "
+              f"{c['value']:>16}  {c['by']}{flag}")
     from .interference import describe_max_power
 
     for period, mp in inter.max_power.items():

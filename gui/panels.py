@@ -30,6 +30,7 @@ from mwreach.coverage.antenna import height_m, quarter_wave_m
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
+from mwreach.coverage.interference import summary_cells
 
 from .render import conductivity_colour, level_colour
 
@@ -742,7 +743,24 @@ class InterferenceTable(_RowsView):
                               f"{v:.2f}" if isinstance(v, float) else str(v)
                               for j, v in enumerate(vals)))
             bad.append(not r.passed)
-        order = sorted(range(len(rows)), key=lambda i: keys[i][9])  # worst margin first
+        # the checks that are not a D/U at a point: entry into a neighbour's night limit and
+        # day contour overlap (margin column: minus the rise in dB, minus the overlap in km²)
+        for row in (inter.neighbour_summary() if inter else ()):
+            if row["kind"] not in ("night limit entry", "day overlap"):
+                continue
+            c = summary_cells(row)
+            margin = (row["worst_margin_db"] if row["kind"] == "night limit entry"
+                      else -row["overlap_km2"])
+            vals = (row["kind"], row["neighbour"], c["offset"], "", row["lat"] or 0.0,
+                    row["lon"] or 0.0, "", "", "", margin, c["result"], c["by"])
+            keys.append(vals)
+            rows.append((row["kind"], row["neighbour"], c["offset"], "", c["at"].split(", ")[0],
+                         c["at"].split(", ")[-1], "", "", "", c["value"], c["result"], c["by"]))
+            bad.append(not row["passed"])
+        n_du = len(inter.rows) if inter else 0
+        # the per-neighbour checks first (failures on top), then every D/U, worst margin first
+        order = (sorted(range(n_du, len(rows)), key=lambda i: (not bad[i], keys[i][9]))
+                 + sorted(range(n_du), key=lambda i: keys[i][9]))
         self.proxy.sort(-1)  # no re-sort by the proxy on reset: rows arrive sorted
         self.model_.set_rows(self.HEAD, [rows[i] for i in order],
                              sort_keys=[keys[i] for i in order], bad=[bad[i] for i in order])

@@ -182,10 +182,11 @@ def test_out_that_is_not_a_folder(demo_copy, kind):
         ("percent = 10 ", "percent = true ", "percent must be one of 10, 50 (got true)"),
         ("exclusion_percent = 50", "exclusion_percent = false",
          "exclusion_percent must be one of 0, 25, 50 (got false)"),
-        ("protected_day_mv_m = 0.5\nprotected_night", "protected_day_mv_m = 0\nprotected_night",
+        ('class = "B"', 'class = "B"\nprotected_day_mv_m = 0',
          "protected_day_mv_m must be >= 0.01 and <= 100 (got 0) in [[neighbour]] 1"),
-        ("protected_night_mv_m = 2.5", "protected_night_mv_m = 0",
+        ('class = "B"', 'class = "B"\nprotected_night_mv_m = 0',
          "protected_night_mv_m must be >= 0.01"),
+        ('class = "B"', 'class = "Q"', "class must be one of 'A', 'B', 'C', 'D' (got 'Q')"),
         ('zones = "zones.geojson"', "zones = 5", "zones must be a file name in quotes (got 5)"),
         ('boundary = "community.geojson"', 'boundary = ["community.geojson"]',
          "boundary must be a file name in quotes"),
@@ -228,7 +229,7 @@ def test_daytime_only_neighbour_and_station_run(demo_copy):
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o1")
     assert rc == 0, err
     assert "Varnholt Radio has no night power (daytime only): no night checks" in out
-    f.write_text(text.replace("power_night_kw = 0.25", "power_night_kw = 0"))
+    f.write_text(text.replace("power_night_kw = 0.2\n", "power_night_kw = 0\n"))
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o2")
     assert rc == 0, err
     assert "has no night power (daytime only): no night service contour" in out
@@ -337,7 +338,7 @@ def test_byte_order_marks_are_accepted(demo_copy):
     f = demo_copy / "bom.toml"
     f.write_text(bom + DEMO_TEXT, encoding="utf-8")
     spec = load_study(f)
-    assert len(spec.interference.neighbours) == 5 and spec.ground.zones
+    assert len(spec.interference.neighbours) == 7 and spec.ground.zones
 
 
 def test_semicolon_csv_gets_a_hint(tmp_path):
@@ -439,10 +440,10 @@ def test_cli_version_help_and_case():
 
 def test_fail_on_violation_exit_status(demo_copy):
     # ten times the demo's night power: the night caused to Varnholt Radio (margin +0.1 dB at
-    # 0.25 kW) falls by 10 dB and fails
+    # 0.2 kW) falls by 11 dB and fails
     f = demo_copy / "quick.toml"
     f.write_text(DEMO_TEXT.replace("bearing_step_deg = 1.0", "bearing_step_deg = 15.0")
-                 .replace("power_night_kw = 0.25", "power_night_kw = 2.5"))
+                 .replace("power_night_kw = 0.2\n", "power_night_kw = 2.5\n"))
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o")
     assert rc == 0 and "FAILS" in out
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o", "--fail-on-violation")

@@ -55,9 +55,15 @@ def test_radial_table_matches_study(qtbot, window):
             assert window.radial_table.cell_value(bearing, k) == expected
     assert res.interference is not None
     window.results_tabs.setCurrentWidget(window.interference_table)  # filled when shown
-    assert window.interference_table.rowCount() == len(res.interference.rows)
-    first = window.interference_table.model().index(0, 9).data()
-    assert float(first) == pytest.approx(min(r.margin_db for r in res.interference.rows), abs=0.01)
+    inter = res.interference
+    extra = len(inter.neighbour_limits) + len(inter.overlaps)
+    assert window.interference_table.rowCount() == len(inter.rows) + extra
+    model = window.interference_table.model()
+    # the overlap and night-limit checks come first, failures on top (the demo's third-adjacent
+    # overlap fails), then the D/U rows with the worst margin first
+    assert model.index(0, 0).data() == "day overlap" and model.index(0, 10).data() == "FAILS"
+    first = model.index(extra, 9).data()
+    assert float(first) == pytest.approx(min(r.margin_db for r in inter.rows), abs=0.01)
 
 
 def test_drag_site_moves_contours(qtbot, window):
