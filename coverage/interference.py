@@ -91,9 +91,14 @@ class ProtectionTable:
         for p in ("day", "night"):
             for i in range(4):
                 r = self.ratios.get((p, i))
+                if r is not None:
+                    source = r[1]
+                elif p == "day" and i in OVERLAP_RULES:
+                    source = f"no ratio: day contour overlap instead — {OVERLAP_RULES[i][2]}"
+                else:
+                    source = "not defined: contributes nothing"
                 out.append({"period": p, "offset_channels": i,
-                            "ratio_db": None if r is None else r[0],
-                            "source": "not defined: contributes nothing" if r is None else r[1]})
+                            "ratio_db": None if r is None else r[0], "source": source})
         return out
 
 
