@@ -738,187 +738,167 @@ def _neighbour_night_points(n: Neighbour, level_dbu, rad, max_km):
     return ok, np.atleast_1d(plat), np.atleast_1d(plon)
 
 
-def neighbour_night_limit(n: Neighbour, others, proposal, ratio_prop: float, spec,
-                          plan: InterferencePlan, bearings, level_mv_m: float,
-                          skipped: set | None = None):
-    """A class B/C neighbour's night limit along its night contour, with and without the
-    proposal, and the points of that contour (iterated like the station's own night limit).
+@dataclass(frozen=True)
+class NeighbourNightBase:
+    """A class B/C neighbour's night contour and its night limit from the other listed stations
+    (without the proposal): independent of where the proposal is."""
 
-    ``others``: (station, ratio dB) of the listed stations that interfere with n at night;
-    ``level_mv_m``: the class's fixed night level. Returns (NeighbourLimit, lat, lon).
-    """
+    neighbour: str
+    bearings_deg: np.ndarray
+    lat: np.ndarray
+    lon: np.ndarray
+    without_dbu: np.ndarray
+    others_dbu: np.ndarray  # (n_others, n_points) ratio × interfering field
+    fixed_dbu: float
+    exclusion_percent: int
+
+    def with_proposal(self, proposal_dbu) -> NeighbourLimit:
+        """The limit with the proposal's ratio × field [dBµV/m] at the points added."""
+        prods = np.vstack([self.others_dbu, np.asarray(proposal_dbu, float)[None, :]])
+        with_p, _, _, used = _rss_limit(prods, None, None, self.exclusion_percent,
+                                        self.fixed_dbu, want_names=False)
+        return NeighbourLimit(self.neighbour, self.bearings_deg, self.lat, self.lon,
+                              self.without_dbu, with_p, used[-1], np.asarray(proposal_dbu, float),
+                              self.others_dbu, self.fixed_dbu, self.exclusion_percent)
+
+
+def neighbour_night_base(n: Neighbour, others, spec, plan: InterferencePlan, bearings,
+                         level_mv_m: float, skipped: set | None = None) -> NeighbourNightBase:
+    """A class B/C neighbour's night contour at the higher of ``level_mv_m`` and its own night
+    limit from ``others`` ((station, ratio dB) of the listed stations that interfere with it),
+    iterated (contour → limit on it → contour) until the limit moves less than CONVERGED_DB."""
     e1 = n.antenna.field_mv_m(bearings, 0.0, n.power_night_kw)
     max_km = radial_length_km(n.freq_khz, spec.ground, level_mv_m, float(e1.max()), spec.earth_k)
     rad = radial_fields(n.freq_khz, spec.ground, n.lat, n.lon, bearings, e1, max_km, 0.5,
                         spec.mixed_path, spec.earth_k)
     fixed = float(mv_m_to_dbu(level_mv_m))
     exclusion = plan.night.exclusion_percent
-    level = np.full(bearings.shape, fixed)
-    names = [o.name for o, _ in others]
     ratios = np.array([r for _, r in others])[:, None] if others else np.zeros((0, 1))
 
     def others_at(plat, plon):
-        f, g = night_fields([o for o, _ in others], plat, plon, spec, plan.night, skipped)
+        f, _g = night_fields([o for o, _ in others], plat, plon, spec, plan.night, skipped)
         prods = f + ratios
-        return prods, np.where(g, "ground", "sky"), (
-            _rss_limit(prods, names, None, exclusion, fixed, want_names=False)[0]
-            if others else np.full(np.size(plat), fixed))
+        limit = (_rss_limit(prods, None, None, exclusion, fixed, want_names=False)[0]
+                 if others else np.full(np.size(plat), fixed))
+        return prods, limit
 
-    # contour → limit on it → contour …, until the limit moves less than CONVERGED_DB
+    level = np.full(bearings.shape, fixed)
     for _ in range(MAX_ITERATIONS):
         ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
-        prods, mechs, without = others_at(plat, plon)
+        prods, without = others_at(plat, plon)
         new = np.full(bearings.shape, fixed)
         new[ok] = without
         done = np.max(np.abs(new - level)) < CONVERGED_DB
         level = new
         if done:
             break
-    ok, plat, plon = _neighbour_night_points(n, level, rad, max_km)
-    if not done:
-        prods, mechs, without = others_at(plat, plon)
-    prods, mechs = list(prods), list(mechs)
-    u_p, mech_p = night_contribution(proposal, plat, plon, spec, plan.night, skipped)
-    with_p, _, _, used = _rss_limit(prods + [u_p + ratio_prop], names + [proposal.name],
-                                    None, exclusion, fixed, want_names=False)
-    lim = NeighbourLimit(n.name, bearings[ok], plat, plon, without, with_p, used[-1],
-                         u_p + ratio_prop, np.array(prods).reshape(len(prods), plat.size), fixed,
-                         exclusion)
-    return lim, u_p, mech_p
+    return NeighbourNightBase(n.name, bearings[ok], plat, plon, without,
+                              np.asarray(prods).reshape(len(others), plat.size), fixed, exclusion)
 
 
-def _overlap(spec, n: Neighbour, offset: int, rule, common) -> OverlapCheck:
-    """Overlap of the proposal's and the neighbour's day contours (second/third adjacent)."""
+def _day_polygon(s: Station, level_mv_m: float, spec, power_kw: float | None = None):
+    """A station's day contour at ``level_mv_m`` as lon/lat geometry (2° radials), with the
+    radial fields it came from (for other levels at other powers)."""
     from .contours import level_contour
+
+    brg = np.arange(0.0, 360.0, 2.0)
+    p = s.power_day_kw if power_kw is None else power_kw
+    e1 = s.antenna.field_mv_m(brg, 0.0, p)
+    max_km = radial_length_km(s.freq_khz, spec.ground, level_mv_m / 10.0, float(e1.max()),
+                              spec.earth_k, min_km=2.0)
+    rad = radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg, e1, max_km, 0.1,
+                        spec.mixed_path, spec.earth_k)
+    return level_contour(rad, level_mv_m, "", local_projection(s.lat, s.lon)).polygon_lonlat, rad
+
+
+def _overlap_area(own_rad, own_site, level_dbu: float, other_lonlat):
+    """Overlap [km², geodesic] of the proposal's contour at ``level_dbu`` (from its radial
+    fields) with another station's contour (lon/lat), and a point in each overlapping part."""
+    import shapely
+
     from .geodesy import xy_to_lonlat_geometry
 
-    st = spec.station
-    own_mv, other_mv, source = rule
-    brg = np.arange(0.0, 360.0, 2.0)
-    polys = []
-    for s, lvl in ((st, own_mv), (n, other_mv)):
-        e1 = s.antenna.field_mv_m(brg, 0.0, s.power_day_kw)
-        max_km = radial_length_km(s.freq_khz, spec.ground, lvl, float(e1.max()), spec.earth_k,
-                                  min_km=2.0)
-        rad = radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg, e1, max_km, 0.1,
-                            spec.mixed_path, spec.earth_k)
-        polys.append(level_contour(rad, lvl, "", local_projection(s.lat, s.lon)).polygon_lonlat)
-    proj = local_projection(st.lat, st.lon)
-    own_xy, other_xy = proj.geom_to_xy(polys[0]), proj.geom_to_xy(polys[1])
-    inter = own_xy.intersection(other_xy) if not (own_xy.is_empty or other_xy.is_empty) else None
-    area, points = 0.0, ()
-    if inter is not None and not inter.is_empty and inter.area > 0:
-        import shapely
-
-        ll = xy_to_lonlat_geometry(inter, proj)
-        area = geodesic_area_km2(ll)
-        pts = []
-        for part in shapely.get_parts(inter):
-            if part.area > 0:
-                c = part.representative_point()
-                lon, lat = proj.to_lonlat(c.x, c.y)
-                pts.append((float(lat), float(lon)))
-        points = tuple(pts)
-    return OverlapCheck(n.name, offset, own_mv, other_mv, area, points, source)
+    proj = local_projection(*own_site)
+    own_xy = polar_region(own_rad.bearings_deg, own_rad.dist_km, own_rad.field_dbu, level_dbu)
+    other_xy = proj.geom_to_xy(other_lonlat)
+    if own_xy.is_empty or other_xy.is_empty:
+        return 0.0, ()
+    inter = own_xy.intersection(other_xy)
+    if inter.is_empty or inter.area <= 0:
+        return 0.0, ()
+    area = geodesic_area_km2(xy_to_lonlat_geometry(inter, proj))
+    pts = []
+    for part in shapely.get_parts(inter):
+        if part.area > 0:
+            c = part.representative_point()
+            lon, lat = proj.to_lonlat(c.x, c.y)
+            pts.append((float(lat), float(lon)))
+    return area, tuple(pts)
 
 
-def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
-    """Day and night checks to and from every neighbour, night limits and maximum powers.
+class NeighbourChecks:
+    """The neighbour side of the interference checks, built once per study: which neighbour
+    gets which check, their protected day contours, their night contours and night limits
+    without the proposal, class A sky-wave service contours, and the contours that second and
+    third adjacent channels must not overlap. None of it depends on where the proposal is, so a
+    site search builds it once (per worker) and calls :meth:`assess` for every candidate."""
 
-    Day: D/U of ground waves on the protected contours both ways (co-channel and first
-    adjacent), and contour overlap for second and third adjacent channels. Night: the station's
-    night limit and service contour; for each neighbour by its class — none (D), its 50 %
-    sky-wave service contour (A), or its night contour at the higher of the class level and its
-    own night limit (B, C) — the D/U of the station's larger of 10 % sky wave and night ground
-    wave, and whether the station enters the neighbour's RSS night limit.
-    """
-    st = spec.station
-    prot = plan.protection
-    classes = plan.classes or STATION_CLASSES
-    notes = []
-    day_ok, night_ok, overlap_ok = [], [], []
-    for n in plan.neighbours:
-        off = channel_offset(st.freq_khz, n.freq_khz, prot.raster_khz)
-        if off is None:
-            notes.append(f"{n.name} ({n.freq_khz:g} kHz) is off the {prot.raster_khz:g} kHz "
-                         "raster: no protection ratio applies; it contributes nothing")
-            continue
-        rd, rn = prot.ratio_db("day", off), prot.ratio_db("night", off)
-        if rd is None and rn is None:
-            if abs(off) in OVERLAP_RULES:
-                overlap_ok.append((n, off))
+    def __init__(self, spec, plan: InterferencePlan):
+        st = spec.station
+        self.plan = plan
+        prot = plan.protection
+        classes = self.classes = plan.classes or STATION_CLASSES
+        notes = self.notes = []
+        self.day_ok, self.night_ok, self.overlap_ok = [], [], []
+        for n in plan.neighbours:
+            off = channel_offset(st.freq_khz, n.freq_khz, prot.raster_khz)
+            if off is None:
+                notes.append(f"{n.name} ({n.freq_khz:g} kHz) is off the {prot.raster_khz:g} kHz "
+                             "raster: no protection ratio applies; it contributes nothing")
                 continue
-            notes.append(f"{n.name} ({n.freq_khz:g} kHz, offset {off:+d} channels): no protection "
-                         "ratio defined for this offset; it contributes nothing")
-            continue
-        if rd is not None:
-            day_ok.append((n, off, rd[0]))
-        if rn is not None and n.power_night_kw <= 0:
-            notes.append(f"{n.name} has no night power (daytime only): no night checks")
-        elif rn is not None:
-            night_ok.append((n, off, rn[0]))
-
-    rows: list[MarginRow] = []
-    protected: dict = {}  # (neighbour, "day" | "night") → lon/lat polygon of its protected contour
-    if plan.night.method == "itu":
-        notes.append("ITU-R P.1147 constants (k, A, b, L_p) are recalled from memory, not read in "
-                     "the published text (docs/methods.md §4.2); check them before filing")
-    step = plan.contour_step_deg
-    brg = np.arange(0.0, 360.0 - 1e-9, step)
-    common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
-    if day_ok:
-        # interference received by day on the proposed station's protected contour
-        ob, _, olat, olon = protected_contour_points(
-            st.freq_khz, spec.ground, st.lat, st.lon, st.antenna, st.power_day_kw,
-            plan.protected_day_mv_m, brg, step_km=max(spec.step_km, 0.25), **common)
-        wanted = float(mv_m_to_dbu(plan.protected_day_mv_m))
-        for n, off, ratio in day_ok:
-            u = point_ground_dbu(n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw,
-                                 olat, olon, **common)
-            rows += [MarginRow("day received", n.name, off, ratio, float(b), float(a), float(o),
-                               wanted, float(x)) for b, a, o, x in zip(ob, olat, olon, u)
-                     if np.isfinite(x)]
-        # interference caused by day on each neighbour's protected contour
-        for n, off, ratio in day_ok:
+            rd, rn = prot.ratio_db("day", off), prot.ratio_db("night", off)
+            if rd is None and rn is None:
+                if abs(off) in OVERLAP_RULES:
+                    self.overlap_ok.append((n, off))
+                    continue
+                notes.append(f"{n.name} ({n.freq_khz:g} kHz, offset {off:+d} channels): no "
+                             "protection ratio defined for this offset; it contributes nothing")
+                continue
+            if rd is not None:
+                self.day_ok.append((n, off, rd[0]))
+            if rn is not None and n.power_night_kw <= 0:
+                notes.append(f"{n.name} has no night power (daytime only): no night checks")
+            elif rn is not None:
+                self.night_ok.append((n, off, rn[0]))
+        if plan.night.method == "itu":
+            notes.append("ITU-R P.1147 constants (k, A, b, L_p) are recalled from memory, not "
+                         "read in the published text (docs/methods.md §4.2); check them before "
+                         "filing")
+        self.brg = np.arange(0.0, 360.0 - 1e-9, plan.contour_step_deg)
+        common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
+        self.protected: dict = {}
+        # neighbours' protected day contours
+        self.day_points = {}
+        for n, off, ratio in self.day_ok:
             level = n.day_level_mv_m(classes)
-            nb, _, nlat, nlon = protected_contour_points(
-                n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw,
-                level, brg, step_km=0.5, polygons=protected, key=(n.name, "day"), **common)
-            u = point_ground_dbu(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
-                                 st.power_day_kw, nlat, nlon, **common)
-            wanted = float(mv_m_to_dbu(level))
-            rows += [MarginRow("day caused", n.name, off, ratio, float(b), float(a), float(o),
-                               wanted, float(x)) for b, a, o, x in zip(nb, nlat, nlon, u)
-                     if np.isfinite(x)]
-
-    overlaps = tuple(_overlap(spec, n, off, OVERLAP_RULES[abs(off)], common)
-                     for n, off in overlap_ok)
-
-    night = None
-    skipped: list[dict] = []
-    limits: list[NeighbourLimit] = []
-    if st.power_night_kw <= 0:
-        notes.append(f"{st.name} has no night power (daytime only): no night service contour "
-                     "and no night interference caused")
-    else:
+            self.day_points[n.name] = protected_contour_points(
+                n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw, level,
+                self.brg, step_km=0.5, polygons=self.protected, key=(n.name, "day"), **common)
+        # neighbours' night protection
         lo, hi = METHOD_DISTANCE_KM[plan.night.method]
-        out_of_range: set = set()
-        night = night_service(spec, plan, [(n, ratio) for n, _, ratio in night_ok], out_of_range)
-        for name in sorted(out_of_range):
-            skipped.append({"neighbour": name, "check": "night received",
-                            "reason": f"sky-wave path outside {lo:g}–{hi:g} km"})
+        self.range_text = f"{lo:g}–{hi:g} km"
+        self.night_targets = {}  # name → ("sky", points, wanted) or ("nif", base)
+        self.base_skipped: set = set()
         listed = [n for n in plan.neighbours if n.power_night_kw > 0]
-        for n, off, ratio in night_ok:
+        for n, off, ratio in self.night_ok:
             k = n.klass(classes)
-            caused_skip: set = set()
             if k.night == "none":
                 notes.append(f"{n.name} is class {k.name}: no night protection, no night check")
-                continue
-            if k.night == "skywave50":
+            elif k.night == "skywave50":
                 level = n.night_level_mv_m(classes)
-                nb, _, nlat, nlon = skywave_service_points(n, level, brg, plan.night)
-                u, mech = night_contribution(st, nlat, nlon, spec, plan.night, caused_skip)
-                wanted = np.full(nb.shape, float(mv_m_to_dbu(level)))
+                nb, _, nlat, nlon = skywave_service_points(n, level, self.brg, plan.night)
+                self.night_targets[n.name] = ("sky", (nb, nlat, nlon),
+                                              np.full(nb.shape, float(mv_m_to_dbu(level))))
             else:
                 others = []
                 for o in listed:
@@ -928,25 +908,144 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                                                               prot.raster_khz))
                     if r is not None:
                         others.append((o, r[0]))
-                lim, u, mech = neighbour_night_limit(n, others, st, ratio, spec, plan, brg,
-                                                     n.night_level_mv_m(classes), caused_skip)
-                limits.append(lim)
-                nb, nlat, nlon, wanted = lim.bearings_deg, lim.lat, lim.lon, lim.without_dbu
-                if not lim.excluded:
-                    notes.append(f"{st.name} enters {n.name}'s night limit (RSS, "
-                                 f"{plan.night.exclusion_percent} % exclusion): raises it by up "
-                                 f"to {lim.increase_db:.2f} dB")
-            if caused_skip:
-                skipped.append({"neighbour": n.name, "check": "night caused",
-                                "reason": f"sky-wave path outside {lo:g}–{hi:g} km"})
-            rows += [MarginRow("night caused", n.name, off, ratio, float(b), float(a), float(o),
-                               float(w), float(x), str(mc))
-                     for b, a, o, w, x, mc in zip(nb, nlat, nlon, wanted, u, mech)
-                     if np.isfinite(x)]
+                self.night_targets[n.name] = ("nif", neighbour_night_base(
+                    n, others, spec, plan, self.brg, n.night_level_mv_m(classes),
+                    self.base_skipped))
+        # the contours second and third adjacent neighbours protect
+        self.overlap_polygons = {n.name: _day_polygon(n, OVERLAP_RULES[abs(off)][1], spec)[0]
+                                 for n, off in self.overlap_ok}
+
+    def assess(self, spec, night_service_too: bool = True) -> InterferenceResult:
+        """All checks for the study's station where it stands now."""
+        st = spec.station
+        plan = self.plan
+        common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
+        notes = list(self.notes)
+        rows: list[MarginRow] = []
+        if self.day_ok:
+            # received by day on the proposal's protected contour
+            ob, _, olat, olon = protected_contour_points(
+                st.freq_khz, spec.ground, st.lat, st.lon, st.antenna, st.power_day_kw,
+                plan.protected_day_mv_m, self.brg, step_km=max(spec.step_km, 0.25), **common)
+            wanted = float(mv_m_to_dbu(plan.protected_day_mv_m))
+            for n, off, ratio in self.day_ok:
+                u = point_ground_dbu(n.freq_khz, spec.ground, n.lat, n.lon, n.antenna,
+                                     n.power_day_kw, olat, olon, **common)
+                rows += [MarginRow("day received", n.name, off, ratio, float(b), float(a),
+                                   float(o), wanted, float(x))
+                         for b, a, o, x in zip(ob, olat, olon, u) if np.isfinite(x)]
+            # caused by day on each neighbour's protected contour: one pass over all points
+            names = [n.name for n, _, _ in self.day_ok]
+            pts = [self.day_points[x] for x in names]
+            if pts:
+                alat = np.concatenate([p[2] for p in pts])
+                alon = np.concatenate([p[3] for p in pts])
+                u_all = point_ground_dbu(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
+                                         st.power_day_kw, alat, alon, **common)
+                k = 0
+                for (n, off, ratio), (nb, _, nlat, nlon) in zip(self.day_ok, pts):
+                    u = u_all[k:k + nb.size]
+                    k += nb.size
+                    wanted = float(mv_m_to_dbu(n.day_level_mv_m(self.classes)))
+                    rows += [MarginRow("day caused", n.name, off, ratio, float(b), float(a),
+                                       float(o), wanted, float(x))
+                             for b, a, o, x in zip(nb, nlat, nlon, u) if np.isfinite(x)]
+        overlaps, overlap_power = [], None
+        if self.overlap_ok:
+            own_rad = None
+            for n, off in self.overlap_ok:
+                own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
+                if own_rad is None:
+                    own_rad = _day_polygon(st, min(r[0] for r in OVERLAP_RULES.values()), spec)[1]
+                lvl = float(mv_m_to_dbu(own_mv))
+                area, points = _overlap_area(own_rad, (st.lat, st.lon), lvl,
+                                             self.overlap_polygons[n.name])
+                overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
+                # the day power at which the overlap would begin or end: the contour at
+                # level − x dB is the contour at the present level with 10^(x/10) × the power
+                def touches(x_db):
+                    return _overlap_area(own_rad, (st.lat, st.lon), lvl - x_db,
+                                         self.overlap_polygons[n.name])[0] > 0
+
+                if touches(0.0):
+                    lo, hi = -60.0, 0.0
+                else:
+                    lo, hi = 0.0, 40.0
+                if touches(hi) and not touches(lo):
+                    for _ in range(20):  # bisection to 6e-5 dB
+                        mid = 0.5 * (lo + hi)
+                        lo, hi = (lo, mid) if touches(mid) else (mid, hi)
+                    p_max = st.power_day_kw * 10 ** (lo / 10.0)
+                    if overlap_power is None or p_max < overlap_power[0]:
+                        overlap_power = (p_max, n.name, points[0] if points else (st.lat, st.lon))
+        night = None
+        skipped: list[dict] = []
+        limits: list[NeighbourLimit] = []
+        for name in sorted(self.base_skipped):
+            skipped.append({"neighbour": name, "check": "night limit of a neighbour",
+                            "reason": f"sky-wave path outside {self.range_text}"})
+        if st.power_night_kw <= 0:
+            notes.append(f"{st.name} has no night power (daytime only): no night service contour "
+                         "and no night interference caused")
+        else:
+            if night_service_too:
+                out_of_range: set = set()
+                night = night_service(spec, plan,
+                                      [(n, ratio) for n, _, ratio in self.night_ok], out_of_range)
+                for name in sorted(out_of_range):
+                    skipped.append({"neighbour": name, "check": "night received",
+                                    "reason": f"sky-wave path outside {self.range_text}"})
+            # everything the proposal causes at night, in one pass over all points
+            targets = [(n, off, ratio) for n, off, ratio in self.night_ok
+                       if n.name in self.night_targets]
+            plist = []
+            for n, _, _ in targets:
+                kind, data, *rest = self.night_targets[n.name]
+                plist.append(data[1:] if kind == "sky" else (data.lat, data.lon))
+            caused_skip: set = set()
+            if plist:
+                alat = np.concatenate([p[0] for p in plist])
+                alon = np.concatenate([p[1] for p in plist])
+                f, g = night_fields([st], alat, alon, spec, plan.night, caused_skip)
+                u_all, g_all = f[0], g[0]
+                geo = (cfr_geometry(st.lat, st.lon, alat, alon)[0] if plan.night.method == "cfr"
+                       else inverse(st.lat, st.lon, alat, alon)[0])
+                reach = in_method_range(geo, plan.night.method)
+            k = 0
+            for (n, off, ratio), (plat, plon) in zip(targets, plist):
+                u, mech = u_all[k:k + plat.size], g_all[k:k + plat.size]
+                k += plat.size
+                kind, data, *rest = self.night_targets[n.name]
+                if kind == "sky":
+                    nb, wanted = data[0], rest[0]
+                else:
+                    lim = data.with_proposal(u + ratio)
+                    limits.append(lim)
+                    nb, wanted = data.bearings_deg, data.without_dbu
+                    if not lim.excluded:
+                        notes.append(f"{st.name} enters {n.name}'s night limit (RSS, "
+                                     f"{plan.night.exclusion_percent} % exclusion): raises it by "
+                                     f"up to {lim.increase_db:.2f} dB")
+                out = int((~reach[k - plat.size:k]).sum())
+                if out:
+                    skipped.append({"neighbour": n.name, "check": "night caused",
+                                    "reason": f"sky-wave path outside {self.range_text} at {out} "
+                                              f"of {plat.size} points"})
+                rows += [MarginRow("night caused", n.name, off, ratio, float(b), float(a),
+                                   float(o), float(w), float(x), "ground" if gg else "sky")
+                         for b, a, o, w, x, gg in zip(nb, plat, plon, wanted, u, mech)
+                         if np.isfinite(x)]
         for sk in skipped:
             notes.append(f"{sk['neighbour']}: {sk['check']} skipped where the "
                          f"{sk['reason']} (the method does not cover it)")
+        max_power = _max_powers(st, rows, limits, overlap_power)
+        return InterferenceResult(tuple(rows), night, max_power, tuple(notes), plan.protection,
+                                  plan.night, tuple(skipped), dict(self.protected),
+                                  tuple(limits), tuple(overlaps))
 
+
+def _max_powers(st, rows, limits, overlap_power) -> dict:
+    """The largest day and night powers every check allows, and what limits each."""
     max_power = {}
     for period, kind, p0 in (("day", "day caused", st.power_day_kw),
                              ("night", "night caused", st.power_night_kw)):
@@ -961,9 +1060,18 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                              "limiting_lat": w.lat, "limiting_lon": w.lon,
                              "margin_db_now": w.margin_db, "mechanism": w.mechanism,
                              "check": kind}
+    if overlap_power is not None:
+        p_max, name, (lat, lon) = overlap_power
+        cur = max_power.get("day")
+        if cur is None or p_max < cur["max_power_kw"]:
+            max_power["day"] = {"max_power_kw": p_max, "current_power_kw": st.power_day_kw,
+                                "limiting_neighbour": name, "limiting_lat": lat,
+                                "limiting_lon": lon,
+                                "margin_db_now": 10 * np.log10(p_max / st.power_day_kw),
+                                "mechanism": "ground", "check": "day overlap"}
     if limits and max_power.get("night") is not None:
-        # the proposal must also stay out of each neighbour's RSS night limit: the power at which
-        # it would first raise the limit (its fields scale with sqrt(P))
+        # the proposal must also stay out of each neighbour's RSS night limit: the power at
+        # which it would first raise the limit (its fields scale with sqrt(P))
         p0 = st.power_night_kw
         for lim in limits:
             if not lim.proposal_dbu.size:
@@ -977,5 +1085,17 @@ def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
                     "limiting_neighbour": lim.neighbour, "limiting_lat": float(lim.lat[i]),
                     "limiting_lon": float(lim.lon[i]), "margin_db_now": float(scale),
                     "mechanism": "RSS", "check": "night limit entry"}
-    return InterferenceResult(tuple(rows), night, max_power, tuple(notes), prot, plan.night,
-                              tuple(skipped), protected, tuple(limits), overlaps)
+    return max_power
+
+
+def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:
+    """Day and night checks to and from every neighbour, night limits and maximum powers.
+
+    Day: D/U of ground waves on the protected contours both ways (co-channel and first
+    adjacent), and contour overlap for second and third adjacent channels. Night: the station's
+    night limit and service contour; for each neighbour by its class — none (D), its 50 %
+    sky-wave service contour (A), or its night contour at the higher of the class level and its
+    own night limit (B, C) — the D/U of the station's larger of 10 % sky wave and night ground
+    wave, and whether the station enters the neighbour's RSS night limit.
+    """
+    return NeighbourChecks(spec, plan).assess(spec)
