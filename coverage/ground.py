@@ -236,6 +236,16 @@ class GroundMap:
         self._lock = threading.RLock()
         self.overlaps = self._find_overlaps()
 
+    def __getstate__(self):  # for process pools: the lock and the caches stay behind
+        state = dict(self.__dict__)
+        state.pop("_lock", None)
+        state.pop("_xy_cache", None)
+        return state
+
+    def __setstate__(self, state):
+        self.__dict__.update(state)
+        self._lock = threading.RLock()
+
     def _find_overlaps(self) -> list[tuple[str, str]]:
         """Pairs (earlier, later) of zones whose areas overlap; the later one wins there."""
         out = []

@@ -836,6 +836,26 @@ def _overlap_area(own_rad, own_site, level_dbu: float, other_lonlat):
     return area, tuple(pts)
 
 
+def _overlap_onset_dbu(own_rad, own_site, other_lonlat):
+    """The strongest own field [dBµV/m] at the points where the own radials first enter another
+    station's contour (ray cast against its polygon in the own plane); None if no radial
+    reaches it. The own contour overlaps the other one exactly when its level is at or below
+    this value."""
+    from .ground import ray_intervals
+
+    proj = local_projection(*own_site)
+    other_xy = proj.geom_to_xy(other_lonlat)
+    end = float(own_rad.dist_km[-1])
+    best = None
+    for i, a, _e in ray_intervals(other_xy, own_rad.bearings_deg, end):
+        if a <= own_rad.dist_km[0]:
+            f = float(own_rad.field_dbu[i, 0])  # the other contour covers the site itself
+        else:
+            f = float(own_rad.field_at(i, a))
+        best = f if best is None else max(best, f)
+    return best
+
+
 class NeighbourChecks:
     """The neighbour side of the interference checks, built once per study: which neighbour
     gets which check, their protected day contours, their night contours and night limits
@@ -961,23 +981,15 @@ class NeighbourChecks:
                 area, points = _overlap_area(own_rad, (st.lat, st.lon), lvl,
                                              self.overlap_polygons[n.name])
                 overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
-                # the day power at which the overlap would begin or end: the contour at
-                # level − x dB is the contour at the present level with 10^(x/10) × the power
-                def touches(x_db):
-                    return _overlap_area(own_rad, (st.lat, st.lon), lvl - x_db,
-                                         self.overlap_polygons[n.name])[0] > 0
-
-                if touches(0.0):
-                    lo, hi = -60.0, 0.0
-                else:
-                    lo, hi = 0.0, 40.0
-                if touches(hi) and not touches(lo):
-                    for _ in range(20):  # bisection to 6e-5 dB
-                        mid = 0.5 * (lo + hi)
-                        lo, hi = (lo, mid) if touches(mid) else (mid, hi)
-                    p_max = st.power_day_kw * 10 ** (lo / 10.0)
+                # the day power at which the overlap begins: the largest own field where a
+                # radial first enters the other contour, against the level (fields ∝ √P)
+                onset = _overlap_onset_dbu(own_rad, (st.lat, st.lon),
+                                           self.overlap_polygons[n.name])
+                if onset is not None:
+                    p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
                     if overlap_power is None or p_max < overlap_power[0]:
-                        overlap_power = (p_max, n.name, points[0] if points else (st.lat, st.lon))
+                        where = points[0] if points else (st.lat, st.lon)
+                        overlap_power = (p_max, n.name, where)
         night = None
         skipped: list[dict] = []
         limits: list[NeighbourLimit] = []

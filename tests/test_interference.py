@@ -347,6 +347,7 @@ def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
                for row in res.neighbour_summary())
 
 
+
 def test_exclusion_flips_when_the_proposal_crosses_half_the_rss():
     # neighbour N (class B) has one co-channel interferer O setting its night limit; the
     # proposal enters N's RSS once its product reaches 50 % of O's (47 CFR 73.182(k), from
@@ -369,3 +370,28 @@ def test_exclusion_flips_when_the_proposal_crosses_half_the_rss():
                    if x.neighbour == "N")
         assert got.excluded is (not enters)
         assert (got.increase_db > 0) is enters
+
+
+def test_third_adjacent_maximum_day_power_makes_the_contours_touch():
+    # 25 km apart, no overlap at 1 kW; the maximum day power grows the proposal's 25 mV/m
+    # circle until it touches the neighbour's: radius 25 km − r2, so
+    # P = P0·(25 mV/m / its field there at P0)² (fields ∝ √P)
+    from mwreach.coverage import groundwave as gw
+
+    spec = _spec([])
+    lat, lon = _north_of_site(spec, 25.0)
+    n = Neighbour("Third", lat, lon, 1420.0, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(
+        spec.interference, neighbours=(n,)))
+    res = run_interference(spec, spec.interference)
+    assert res.overlaps[0].passed
+    g = ground_class("land")
+    r2 = gw.model(1420.0, g, spec.earth_k).distance_to_field_km(
+        25.0, float(n.antenna.field_mv_m(0.0, 0.0, 1.0)))
+    e1 = float(spec.station.antenna.field_mv_m(0.0, 0.0, spec.station.power_day_kw))
+    f = float(gw.model(1390.0, g, spec.earth_k).field_mv_m(25.0 - r2, e1))
+    p_touch = spec.station.power_day_kw * (25.0 / f) ** 2
+    mp = res.max_power["day"]
+    assert mp["check"] == "day overlap" and mp["limiting_neighbour"] == "Third"
+    # 0.05 dB: the radial grid (0.1 km) and 2° bearings of the contours
+    assert 10 * np.log10(mp["max_power_kw"] / p_touch) == pytest.approx(0.0, abs=0.05)
