@@ -206,6 +206,7 @@ class Zone:
     name: str
     ground: Ground
     geometry: object  # shapely Polygon or MultiPolygon
+    buildable: bool = True  # a site search may put a tower here
 
 
 @dataclass(frozen=True)

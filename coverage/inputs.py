@@ -271,7 +271,7 @@ def _features(data, path) -> list:
     return features
 
 
-ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note")
+ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note", "buildable")
 
 
 def load_zones(path, default, notes: list | None = None):
@@ -302,7 +302,10 @@ def load_zones(path, default, notes: list | None = None):
                                      where=pw),
                         check_finite("permittivity", props["permittivity"], 1.0, 100.0, where=pw),
                         name=name, source=str(path.name))
-        zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes)))
+        buildable = props.get("buildable", True)
+        if not isinstance(buildable, bool):
+            raise ValueError(f"buildable must be true or false (got {_show(buildable)}) in {pw}")
+        zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes), buildable))
     return GroundMap(default, zones, source=str(path))
 
 

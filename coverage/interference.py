@@ -358,7 +358,7 @@ class NeighbourLimit:
             return lo
         if not raises(hi):
             return hi
-        for _ in range(28):  # bisection to 6e-7 dB
+        for _ in range(22):  # bisection to 4e-5 dB
             mid = 0.5 * (lo + hi)
             lo, hi = (lo, mid) if raises(mid) else (mid, hi)
         return lo
@@ -796,19 +796,52 @@ def neighbour_night_base(n: Neighbour, others, spec, plan: InterferencePlan, bea
                               np.asarray(prods).reshape(len(others), plat.size), fixed, exclusion)
 
 
-def _day_polygon(s: Station, level_mv_m: float, spec, power_kw: float | None = None):
-    """A station's day contour at ``level_mv_m`` as lon/lat geometry (2° radials), with the
-    radial fields it came from (for other levels at other powers)."""
-    from .contours import level_contour
+#: Bearings of the day contours that second/third adjacent channels compare (every 2°).
+OVERLAP_BEARINGS = np.arange(0.0, 360.0, 2.0)
 
-    brg = np.arange(0.0, 360.0, 2.0)
-    p = s.power_day_kw if power_kw is None else power_kw
-    e1 = s.antenna.field_mv_m(brg, 0.0, p)
+
+def _day_radials(s: Station, level_mv_m: float, spec, bearings=OVERLAP_BEARINGS):
+    """A station's day radial fields for a contour at ``level_mv_m`` (reaching far enough for
+    the contour at 1/100 of the power), on the given bearings."""
+    brg = np.asarray(bearings, dtype=float)
+    e1 = s.antenna.field_mv_m(OVERLAP_BEARINGS, 0.0, s.power_day_kw)
     max_km = radial_length_km(s.freq_khz, spec.ground, level_mv_m / 10.0, float(e1.max()),
                               spec.earth_k, min_km=2.0)
-    rad = radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg, e1, max_km, 0.1,
-                        spec.mixed_path, spec.earth_k)
+    return radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg,
+                         s.antenna.field_mv_m(brg, 0.0, s.power_day_kw), max_km, 0.1,
+                         spec.mixed_path, spec.earth_k)
+
+
+def _day_polygon(s: Station, level_mv_m: float, spec):
+    """A station's day contour at ``level_mv_m`` as lon/lat geometry (2° radials), with the
+    radial fields it came from."""
+    from .contours import level_contour
+
+    rad = _day_radials(s, level_mv_m, spec)
     return level_contour(rad, level_mv_m, "", local_projection(s.lat, s.lon)).polygon_lonlat, rad
+
+
+def _bearings_toward(site, other_lonlat, bearings=OVERLAP_BEARINGS):
+    """The bearings of ``bearings`` (plus one on each side) that can reach a geometry, seen from
+    ``site``; all of them when the geometry surrounds the site."""
+    import shapely
+
+    proj = local_projection(*site)
+    g = proj.geom_to_xy(other_lonlat)
+    if g.is_empty:
+        return np.array([])
+    if g.contains(shapely.Point(0.0, 0.0)) or g.distance(shapely.Point(0.0, 0.0)) < 1e-6:
+        return np.asarray(bearings, dtype=float)
+    xy = shapely.get_coordinates(g)
+    ang = np.mod(np.degrees(np.arctan2(xy[:, 0], xy[:, 1])), 360.0)
+    # the smallest arc that holds every vertex angle
+    srt = np.sort(ang)
+    gaps = np.diff(np.concatenate([srt, srt[:1] + 360.0]))
+    k = int(np.argmax(gaps))
+    start, span = srt[(k + 1) % srt.size], 360.0 - gaps[k]
+    step = float(bearings[1] - bearings[0]) if len(bearings) > 1 else 360.0
+    rel = np.mod(np.asarray(bearings, dtype=float) - start + step, 360.0)
+    return np.asarray(bearings, dtype=float)[rel <= span + 2 * step]
 
 
 def _overlap_area(own_rad, own_site, level_dbu: float, other_lonlat):
@@ -935,14 +968,16 @@ class NeighbourChecks:
         self.overlap_polygons = {n.name: _day_polygon(n, OVERLAP_RULES[abs(off)][1], spec)[0]
                                  for n, off in self.overlap_ok}
 
-    def assess(self, spec, night_service_too: bool = True) -> InterferenceResult:
-        """All checks for the study's station where it stands now."""
+    def assess(self, spec, night_service_too: bool = True, received: bool = True,
+               overlap_area: bool = True) -> InterferenceResult:
+        """All checks for the study's station where it stands now (without the interference it
+        receives by day, or its own night service contour, when not asked for)."""
         st = spec.station
         plan = self.plan
         common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
         notes = list(self.notes)
         rows: list[MarginRow] = []
-        if self.day_ok:
+        if self.day_ok and received:
             # received by day on the proposal's protected contour
             ob, _, olat, olon = protected_contour_points(
                 st.freq_khz, spec.ground, st.lat, st.lon, st.antenna, st.power_day_kw,
@@ -954,6 +989,7 @@ class NeighbourChecks:
                 rows += [MarginRow("day received", n.name, off, ratio, float(b), float(a),
                                    float(o), wanted, float(x))
                          for b, a, o, x in zip(ob, olat, olon, u) if np.isfinite(x)]
+        if self.day_ok:
             # caused by day on each neighbour's protected contour: one pass over all points
             names = [n.name for n, _, _ in self.day_ok]
             pts = [self.day_points[x] for x in names]
@@ -971,25 +1007,30 @@ class NeighbourChecks:
                                        float(o), wanted, float(x))
                              for b, a, o, x in zip(nb, nlat, nlon, u) if np.isfinite(x)]
         overlaps, overlap_power = [], None
-        if self.overlap_ok:
-            own_rad = None
-            for n, off in self.overlap_ok:
-                own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
+        own_rad = None
+        for n, off in self.overlap_ok:
+            own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
+            lvl = float(mv_m_to_dbu(own_mv))
+            other = self.overlap_polygons[n.name]
+            lowest = min(r[0] for r in OVERLAP_RULES.values())
+            if overlap_area:
                 if own_rad is None:
-                    own_rad = _day_polygon(st, min(r[0] for r in OVERLAP_RULES.values()), spec)[1]
-                lvl = float(mv_m_to_dbu(own_mv))
-                area, points = _overlap_area(own_rad, (st.lat, st.lon), lvl,
-                                             self.overlap_polygons[n.name])
-                overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
-                # the day power at which the overlap begins: the largest own field where a
-                # radial first enters the other contour, against the level (fields ∝ √P)
-                onset = _overlap_onset_dbu(own_rad, (st.lat, st.lon),
-                                           self.overlap_polygons[n.name])
-                if onset is not None:
-                    p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
-                    if overlap_power is None or p_max < overlap_power[0]:
-                        where = points[0] if points else (st.lat, st.lon)
-                        overlap_power = (p_max, n.name, where)
+                    own_rad = _day_radials(st, lowest, spec)
+                rad = own_rad
+                area, points = _overlap_area(own_rad, (st.lat, st.lon), lvl, other)
+            else:  # the onset power only, from the radials that can reach the other contour
+                brg = _bearings_toward((st.lat, st.lon), other)
+                rad = _day_radials(st, lowest, spec, brg) if brg.size else None
+                area, points = float("nan"), ()
+            overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
+            # the day power at which the overlap begins: the largest own field where a radial
+            # first enters the other contour, against the level (fields ∝ √P)
+            onset = _overlap_onset_dbu(rad, (st.lat, st.lon), other) if rad is not None else None
+            if onset is not None:
+                p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
+                if overlap_power is None or p_max < overlap_power[0]:
+                    where = points[0] if points else (st.lat, st.lon)
+                    overlap_power = (p_max, n.name, where)
         night = None
         skipped: list[dict] = []
         limits: list[NeighbourLimit] = []

@@ -1,0 +1,255 @@
+"""Where to put the station: the study evaluated at every candidate site of an area.
+
+Candidates are a regular grid in the study site's azimuthal-equidistant plane, inside a search
+area (a radius or a GeoJSON polygon), on buildable ground (zones marked ``buildable = false``
+and sea-like ground, σ ≥ 1 S/m, are left out) and outside an optional exclusion GeoJSON.
+
+Each candidate gets the study's frequency, antenna and powers moved there and is assessed with
+the same code as a full run (:class:`~.interference.NeighbourChecks`, built once per worker):
+maximum day and night powers every neighbour's protection allows, with the limiting neighbour
+and check; the community share inside the service contour at the study's power and at the
+maximum day power; the protected-contour area; the distance to the community; and a score.
+
+Work is sent in chunks of candidates to any ``concurrent.futures.Executor``: a local process
+pool by default, or a Dask distributed cluster's executor (``client.get_executor()``) — one
+code path. Every candidate is computed independently and deterministically, so the results do
+not depend on the number of workers.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import os
+import time
+from concurrent.futures import FIRST_COMPLETED, Executor, wait
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .contours import contour_geometry, polar_region, radial_fields, radial_length_km
+from .geodesy import geodesic_area_km2, inverse, local_projection
+from .groundwave import mv_m_to_dbu
+
+__all__ = ["SearchSettings", "Candidate", "SearchResult", "candidate_sites", "evaluate_chunk",
+           "run_search", "SCORES", "SEA_LIKE_MS_M"]
+
+SCORES = ("community_share", "area", "max_power")
+#: Ground at or above this conductivity is sea water and not a place for a tower [mS/m]
+#: (ITU-R P.368 sea classes: 1 and 5 S/m; fresh water 3 mS/m must be marked by the user).
+SEA_LIKE_MS_M = 1000.0
+#: Radials per candidate for its own contours (every 5°).
+SEARCH_BEARING_STEP_DEG = 5.0
+CHUNK = 24  # candidates per task
+
+
+@dataclass(frozen=True)
+class SearchSettings:
+    """What to search and how to rank it."""
+
+    step_km: float = 2.0
+    radius_km: float | None = None  # search within this distance of the study site …
+    area_lonlat: object = None  # … or inside this polygon (lon/lat)
+    exclusion_lonlat: object = None  # never here (airports, protected land …)
+    score: str = "community_share"
+    service_mv_m: float = 5.0  # the service contour whose community share counts
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One evaluated site."""
+
+    index: int
+    lat: float
+    lon: float
+    max_day_kw: float | None
+    day_limited_by: str
+    max_night_kw: float | None
+    night_limited_by: str
+    share_at_study_power: float | None
+    share_at_max_power: float | None
+    protected_area_km2: float
+    community_km: float | None
+    score: float
+
+    def row(self) -> dict:
+        return dataclasses.asdict(self)
+
+
+@dataclass
+class SearchResult:
+    settings: SearchSettings
+    candidates: list = field(default_factory=list)  # ranked, best first
+    total: int = 0  # candidates in the area
+    elapsed_s: float = 0.0
+    stopped_early: bool = False
+    workers: int = 1
+
+
+def candidate_sites(spec, settings: SearchSettings):
+    """(lat, lon) of the candidates: a grid every ``step_km`` in the study site's plane, inside
+    the area, on buildable ground, outside the exclusion. Order: row by row from the south-west."""
+    import shapely
+
+    proj = local_projection(spec.station.lat, spec.station.lon)
+    if settings.area_lonlat is not None:
+        area_xy = proj.geom_to_xy(settings.area_lonlat)
+        x0, y0, x1, y1 = area_xy.bounds
+    else:
+        r = float(settings.radius_km)
+        area_xy = shapely.Point(0.0, 0.0).buffer(r, 256)
+        x0, y0, x1, y1 = -r, -r, r, r
+    s = settings.step_km
+    xs = np.arange(math.floor(x0 / s) * s, x1 + 1e-9, s)
+    ys = np.arange(math.floor(y0 / s) * s, y1 + 1e-9, s)
+    xx, yy = np.meshgrid(xs, ys)
+    xx, yy = xx.ravel(), yy.ravel()
+    keep = shapely.contains_xy(area_xy, xx, yy)
+    lon, lat = proj.to_lonlat(xx[keep], yy[keep])
+    lon, lat = np.atleast_1d(lon), np.atleast_1d(lat)
+    ok = np.ones(lat.shape, dtype=bool)
+    gm = spec.ground
+    with gm._lock:
+        for z in gm.zones:
+            unbuildable = (not getattr(z, "buildable", True)) or z.ground.sigma_ms_m >= SEA_LIKE_MS_M
+            if unbuildable:
+                ok &= ~shapely.contains_xy(z.geometry, lon, lat)
+    if gm.default.sigma_ms_m >= SEA_LIKE_MS_M:  # default ground is sea: only zones are land
+        on_land = np.zeros(lat.shape, dtype=bool)
+        for z in gm.zones:
+            if getattr(z, "buildable", True) and z.ground.sigma_ms_m < SEA_LIKE_MS_M:
+                on_land |= shapely.contains_xy(z.geometry, lon, lat)
+        ok &= on_land
+    if settings.exclusion_lonlat is not None:
+        ok &= ~shapely.contains_xy(settings.exclusion_lonlat, lon, lat)
+    return lat[ok], lon[ok]
+
+
+# --- the work of one worker ------------------------------------------------------------------
+
+_WORKER: dict = {}
+
+
+def _checks_for(spec, token: str):
+    """The per-study tables (neighbour checks), built once per worker process."""
+    from .interference import NeighbourChecks
+
+    hit = _WORKER.get(token)
+    if hit is None:
+        _WORKER.clear()
+        checks = NeighbourChecks(spec, spec.interference) if spec.interference else None
+        hit = _WORKER[token] = checks
+    return hit
+
+
+def _share(rad, level_dbu, proj, community):
+    if community is None:
+        return None
+    poly = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu, level_dbu)
+    return contour_geometry(poly, proj, community)[2]
+
+
+def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float,
+                  lon: float) -> Candidate:
+    """One candidate: the study moved to (lat, lon), assessed like a full run."""
+    moved = spec.with_site(lat, lon)
+    st = moved.station
+    max_day = max_night = None
+    day_by = night_by = ""
+    if checks is not None:
+        inter = checks.assess(moved, night_service_too=False, received=False,
+                              overlap_area=False)
+        mp = inter.max_power
+        if mp.get("day"):
+            max_day = mp["day"]["max_power_kw"]
+            day_by = f"{mp['day']['limiting_neighbour']} ({mp['day']['check']})"
+        if mp.get("night"):
+            max_night = mp["night"]["max_power_kw"]
+            night_by = f"{mp['night']['limiting_neighbour']} ({mp['night']['check']})"
+    # own day contours on 72 radials, long enough for the service contour at the highest power
+    # considered (the maximum day power, at most 100 × the study's)
+    p0 = st.power_day_kw
+    gain_db = 0.0 if max_day is None else 10 * np.log10(min(max(max_day / p0, 1e-6), 100.0))
+    plan = spec.interference
+    protected_mv = plan.protected_day_mv_m if plan is not None else 0.5
+    lowest = min(protected_mv, settings.service_mv_m * 10 ** (-gain_db / 20))
+    brg = np.arange(0.0, 360.0, SEARCH_BEARING_STEP_DEG)
+    e1 = st.antenna.field_mv_m(brg, 0.0, p0)
+    max_km = radial_length_km(st.freq_khz, moved.ground, lowest, float(e1.max()), spec.earth_k,
+                              min_km=5.0)
+    rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km,
+                        max(spec.step_km, 0.5), spec.mixed_path, spec.earth_k)
+    proj = local_projection(st.lat, st.lon)
+    community = spec.community.geometry if spec.community else None
+    service_dbu = float(mv_m_to_dbu(settings.service_mv_m))
+    share0 = _share(rad, service_dbu, proj, community)
+    share_max = share0 if max_day is None else _share(rad, service_dbu - gain_db, proj, community)
+    prot = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu,
+                        float(mv_m_to_dbu(protected_mv)))
+    area = contour_geometry(prot, proj)[1]
+    dist = None
+    if community is not None:
+        c = community.representative_point()
+        dist = float(inverse(lat, lon, c.y, c.x)[0])
+    if settings.score == "community_share":
+        score = share_max if share_max is not None else 0.0
+    elif settings.score == "area":
+        score = area
+    else:
+        score = max_day if max_day is not None else float("inf")
+    return Candidate(index, float(lat), float(lon), max_day, day_by, max_night, night_by,
+                     share0, share_max, float(area), dist, float(score))
+
+
+def evaluate_chunk(spec, settings: SearchSettings, token: str, items) -> list[Candidate]:
+    """A chunk of candidates ((index, lat, lon), …) in one task; per-study tables are built
+    once per worker and kept for the next chunk of the same study."""
+    checks = _checks_for(spec, token)
+    return [evaluate_site(spec, settings, checks, i, la, lo) for i, la, lo in items]
+
+
+# --- the driver ------------------------------------------------------------------------------
+
+def _rank(cands: list[Candidate]) -> list[Candidate]:
+    return sorted(cands, key=lambda c: (-c.score if np.isfinite(c.score) else -1e300, c.index))
+
+
+def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
+               progress=None, workers: int = 1) -> SearchResult:
+    """Evaluate every candidate, in chunks, on ``executor`` (None: in this process).
+
+    ``progress(done, total, elapsed_s)`` is called as chunks come back. A KeyboardInterrupt
+    stops the search: the candidates done so far are returned, ``stopped_early`` set.
+    """
+    t0 = time.perf_counter()
+    lat, lon = candidate_sites(spec, settings)
+    items = [(i, float(a), float(o)) for i, (a, o) in enumerate(zip(lat, lon))]
+    chunks = [items[k:k + CHUNK] for k in range(0, len(items), CHUNK)]
+    token = f"{os.getpid()}-{id(spec)}-{t0}"
+    out: list[Candidate] = []
+    result = SearchResult(settings, total=len(items), workers=workers)
+    try:
+        if executor is None:
+            for ch in chunks:
+                out += evaluate_chunk(spec, settings, token, ch)
+                if progress:
+                    progress(len(out), len(items), time.perf_counter() - t0)
+        else:
+            pending = {executor.submit(evaluate_chunk, spec, settings, token, ch)
+                       for ch in chunks}
+            try:
+                while pending:
+                    done, pending = wait(pending, return_when=FIRST_COMPLETED)
+                    for fut in done:
+                        out += fut.result()
+                    if progress:
+                        progress(len(out), len(items), time.perf_counter() - t0)
+            except KeyboardInterrupt:
+                for fut in pending:
+                    fut.cancel()
+                raise
+    except KeyboardInterrupt:
+        result.stopped_early = True
+    result.candidates = _rank(out)
+    result.elapsed_s = time.perf_counter() - t0
+    return result
