@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 
 import numpy as np
@@ -326,6 +327,127 @@ def _cmd_sheet(args) -> int:
     return 0
 
 
+class _Eta:
+    """A progress bar with the time left, on a terminal only."""
+
+    def __init__(self, stream=None):
+        self.stream = stream or sys.stderr
+        self.active = self.stream.isatty()
+
+    def __call__(self, done, total, elapsed):
+        if not self.active or not total:
+            return
+        left = elapsed / max(done, 1) * (total - done)
+        bar = "#" * int(25 * done / total)
+        self.stream.write(f"\rsearching [{bar:<25}] {done}/{total}, about {left:.0f} s left ")
+        if done >= total:
+            self.stream.write("\n")
+        self.stream.flush()
+
+
+def _cmd_search(args) -> int:
+    import json
+    import pathlib
+
+    from .export import OUTPUT_NAMES  # noqa: F401  (the run's names stay distinct)
+    from .inputs import load_study, read_boundary
+    from .safefiles import refuse_overwriting_inputs, writable_folder, write_set
+    from .search import (
+        SCORES,
+        SearchSettings,
+        candidate_sites,
+        candidates_csv,
+        candidates_geojson,
+        run_search,
+        search_summary,
+    )
+
+    spec = load_study(args.study)
+    if (args.area is None) == (args.radius_km is None):
+        raise UsageError("give exactly one of --area FILE or --radius-km R")
+    notes: list = []
+    inputs = list(spec.input_files)
+    area = excl = None
+    if args.area:
+        area = read_boundary(args.area, notes, "search area")
+        inputs.append(args.area)
+    if args.exclude:
+        excl = read_boundary(args.exclude, notes, "exclusion")
+        inputs.append(args.exclude)
+    settings = SearchSettings(
+        step_km=check_finite("--step-km", args.step_km, 0.05, 100.0),
+        radius_km=None if args.radius_km is None else check_finite("--radius-km", args.radius_km,
+                                                                   0.1, 2000.0),
+        area_lonlat=area, exclusion_lonlat=excl, score=args.score,
+        service_mv_m=check_finite("--service-mv-m", args.service_mv_m, 1e-3, 1e3))
+    names = ["candidates.csv", "candidates.geojson", "search.json", "heatmap.png"]
+    refuse_overwriting_inputs(args.out, names, inputs)
+    writable_folder(args.out)
+    n = len(candidate_sites(spec, settings)[0])
+    if n == 0:
+        raise UsageError("no candidate site in the area (all water, excluded or outside)")
+    if n > 200_000:
+        raise UsageError(f"{n} candidates: use a larger --step-km (at most 200000)")
+    workers = os.cpu_count() or 1 if args.workers is None else int(args.workers)
+    if workers < 1:
+        raise UsageError(f"--workers must be >= 1 (got {workers})")
+    print(f"{n} candidate sites every {settings.step_km:g} km; score: {settings.score}")
+    if args.scheduler:
+        try:
+            from dask.distributed import Client
+        except ImportError:
+            raise UsageError("--scheduler needs the cluster extra: pip install -e '.[cluster]'") from None
+        try:
+            client = Client(args.scheduler, timeout=10)
+        except OSError as exc:
+            raise UsageError(f"--scheduler {args.scheduler}: cannot connect ({exc})") from None
+        with client:
+            workers = len(client.scheduler_info().get("workers", {})) or 1
+            search = run_search(spec, settings, client.get_executor(), _Eta(), workers)
+    elif workers == 1:
+        search = run_search(spec, settings, None, _Eta(), 1)
+    else:
+        from concurrent.futures import ProcessPoolExecutor
+        import multiprocessing as mp
+
+        with ProcessPoolExecutor(workers, mp_context=mp.get_context("spawn")) as pool:
+            search = run_search(spec, settings, pool, _Eta(), workers)
+    from .study import Study
+
+    files = {
+        "candidates.csv": candidates_csv(search),
+        "candidates.geojson": json.dumps(candidates_geojson(search)) + "\n",
+        "search.json": json.dumps(search_summary(search, spec), indent=1,
+                                  ensure_ascii=False) + "\n",
+    }
+    base = Study(spec).run(bearings=np.arange(0.0, 360.0, 5.0), interference=False)
+    from mwreach.gui.qt import ensure_app  # Qt only for the picture
+
+    ensure_app()
+    from mwreach.gui.heatmap import heatmap_png
+
+    files["heatmap.png"] = heatmap_png(base, search)
+    written = write_set(pathlib.Path(args.out), files, inputs=inputs)
+    for note in notes:
+        print(f"note: {note}")
+    done = len(search.candidates)
+    per = search.elapsed_s * search.workers / max(done, 1)
+    print(f"{done} of {n} candidates in {search.elapsed_s:.1f} s on {search.workers} worker(s) "
+          f"({per * 1e3:.0f} ms of one core each)" + (" — stopped early, partial results"
+                                                      if search.stopped_early else ""))
+    print(f"{'rank':>4} {'lat':>10} {'lon':>11} {'score':>9} {'max day kW':>11} "
+          f"{'max night kW':>13}  limited by (day / night)")
+    for k, c in enumerate(search.candidates[:5], 1):
+        day = "—" if c.max_day_kw is None else f"{c.max_day_kw:.3g}"
+        night = "—" if c.max_night_kw is None else f"{c.max_night_kw:.3g}"
+        print(f"{k:>4} {c.lat:>10.5f} {c.lon:>11.5f} {c.score:>9.4g} {day:>11} {night:>13}  "
+              f"{c.day_limited_by or '—'} / {c.night_limited_by or '—'}")
+    print("wrote " + ", ".join(str(f) for f in written))
+    print("Planning estimate only: a site needs field checks, land rights, local codes and a "
+          "licensed engineer's review.")
+    return 130 if search.stopped_early else 0
+
+
 def _cmd_gui(args) -> int:
     if args.screenshot:
         # batch use never waits for a person: check the study before any window opens
@@ -457,6 +579,25 @@ def build_parser() -> argparse.ArgumentParser:
                     help="page orientation (default: [output] orientation of the study, "
                          "else portrait)")
     sh.set_defaults(func=_cmd_sheet)
+
+    se = sub.add_parser("search", help="site search: the study at every candidate site of an "
+                        "area, ranked", **fmt)
+    se.add_argument("study", help="study file (TOML)")
+    where = se.add_mutually_exclusive_group()
+    where.add_argument("--area", help="search area: GeoJSON polygon")
+    where.add_argument("--radius-km", type=float, help="search within this distance of the "
+                       "study's site [km]")
+    se.add_argument("--step-km", type=float, default=2.0, help="candidate grid spacing [km]")
+    se.add_argument("--exclude", help="GeoJSON polygons where no tower may stand")
+    se.add_argument("--score", type=_choices("community_share", "area", "max_power"),
+                    default="community_share", help="what ranks the sites")
+    se.add_argument("--service-mv-m", type=float, default=5.0,
+                    help="service contour whose community share counts [mV/m]")
+    se.add_argument("-o", "--out", required=True, help="output folder")
+    se.add_argument("--workers", type=int, help="local worker processes (default: all cores)")
+    se.add_argument("--scheduler", help="tcp://HOST:PORT of a Dask distributed scheduler "
+                    "(needs the cluster extra)")
+    se.set_defaults(func=_cmd_search)
 
     g = sub.add_parser("gui", help="the desktop application", **fmt)
     g.add_argument("study", nargs="?", help="study file to open (default: the demo, unsaved)")

@@ -309,8 +309,9 @@ def load_zones(path, default, notes: list | None = None):
     return GroundMap(default, zones, source=str(path))
 
 
-def read_boundary(path, notes: list | None = None):
-    """A community boundary (GeoJSON Polygon/MultiPolygon, Feature or FeatureCollection)."""
+def read_boundary(path, notes: list | None = None, what: str = "community boundary"):
+    """A polygon file: GeoJSON Polygon/MultiPolygon, Feature or FeatureCollection (a community
+    boundary, a search area, an exclusion …; ``what`` names it in messages)."""
     import shapely
 
     notes = [] if notes is None else notes
@@ -325,8 +326,8 @@ def read_boundary(path, notes: list | None = None):
         geoms = [data]
     if not geoms:
         raise ValueError(f"{path}: no boundary polygon found")
-    parts = [_polygon(g, f"community boundary {i} of {path}" if len(geoms) > 1
-                      else f"community boundary in {path}", notes)
+    parts = [_polygon(g, f"{what} {i} of {path}" if len(geoms) > 1 else f"{what} in {path}",
+                      notes)
              for i, g in enumerate(geoms, 1)]
     return shapely.union_all(parts)
 

@@ -211,7 +211,15 @@ def evaluate_chunk(spec, settings: SearchSettings, token: str, items) -> list[Ca
 # --- the driver ------------------------------------------------------------------------------
 
 def _rank(cands: list[Candidate]) -> list[Candidate]:
-    return sorted(cands, key=lambda c: (-c.score if np.isfinite(c.score) else -1e300, c.index))
+    """Best first: by score, then (ties) the share at the study's power, the maximum day
+    power, and the candidate's place in the grid."""
+    def key(c):
+        score = c.score if np.isfinite(c.score) else 1e300
+        share = c.share_at_study_power if c.share_at_study_power is not None else -1.0
+        day = c.max_day_kw if c.max_day_kw is not None else 1e300
+        return (-score, -share, -day, c.index)
+
+    return sorted(cands, key=key)
 
 
 def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
@@ -253,3 +261,67 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
     result.candidates = _rank(out)
     result.elapsed_s = time.perf_counter() - t0
     return result
+
+
+# --- outputs ----------------------------------------------------------------------------------
+
+CSV_COLUMNS = ("rank", "lat", "lon", "score", "max_day_kw", "day_limited_by", "max_night_kw",
+               "night_limited_by", "share_at_study_power", "share_at_max_power",
+               "protected_area_km2", "community_km")
+
+
+def _fmt(v, digits=4):
+    if v is None or (isinstance(v, float) and not np.isfinite(v)):
+        return ""
+    if isinstance(v, float):
+        return f"{v:.{digits}f}"
+    return str(v)
+
+
+def candidates_csv(search: SearchResult) -> str:
+    """Ranked candidates, one row each (best first)."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(CSV_COLUMNS)
+    for rank, c in enumerate(search.candidates, 1):
+        w.writerow([rank, f"{c.lat:.6f}", f"{c.lon:.6f}", _fmt(c.score, 6),
+                    _fmt(c.max_day_kw, 4), c.day_limited_by, _fmt(c.max_night_kw, 5),
+                    c.night_limited_by, _fmt(c.share_at_study_power, 4),
+                    _fmt(c.share_at_max_power, 4), _fmt(c.protected_area_km2, 1),
+                    _fmt(c.community_km, 2)])
+    return buf.getvalue()
+
+
+def candidates_geojson(search: SearchResult) -> dict:
+    """Candidates as GeoJSON Points (RFC 7946) with every figure as properties."""
+    feats = []
+    for rank, c in enumerate(search.candidates, 1):
+        props = {k: (None if isinstance(v, float) and not np.isfinite(v) else v)
+                 for k, v in c.row().items() if k not in ("lat", "lon")}
+        props["rank"] = rank
+        feats.append({"type": "Feature", "properties": props,
+                      "geometry": {"type": "Point",
+                                   "coordinates": [round(c.lon, 6), round(c.lat, 6)]}})
+    return {"type": "FeatureCollection", "features": feats}
+
+
+def search_summary(search: SearchResult, spec) -> dict:
+    s = search.settings
+    best = [dict(c.row(), rank=k) for k, c in enumerate(search.candidates[:10], 1)]
+    return {
+        "study_file": spec.path, "title": spec.title,
+        "settings": {"step_km": s.step_km, "radius_km": s.radius_km,
+                     "area": s.area_lonlat is not None, "exclusion": s.exclusion_lonlat is not None,
+                     "score": s.score, "service_mv_m": s.service_mv_m},
+        "candidates_in_area": search.total, "candidates_done": len(search.candidates),
+        "stopped_early": search.stopped_early, "workers": search.workers,
+        "elapsed_s": round(search.elapsed_s, 3),
+        "seconds_per_candidate": (round(search.elapsed_s * search.workers
+                                        / max(len(search.candidates), 1), 5)),
+        "best": best,
+        "caution": "Planning estimate only; sites need field checks, land rights, local codes "
+                   "and a licensed engineer's review.",
+    }

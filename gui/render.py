@@ -19,7 +19,7 @@ from mwreach.coverage.geodesy import local_projection
 from mwreach.coverage.levels import level_style
 
 __all__ = ["View", "MapOptions", "draw_map", "fit_view", "conductivity_colour",
-           "level_pen", "level_colour", "zone_legend_rows"]
+           "level_pen", "level_colour", "zone_legend_rows", "HeatLayer", "heat_colour"]
 
 #: Contour colours, strongest level first (chosen for print and screen; colour-blind safe set).
 _DASH = {"solid": Qt.SolidLine, "dash": Qt.DashLine, "dot": Qt.DotLine,
@@ -92,9 +92,52 @@ class MapOptions:
     scale_bar: bool = True
     north_arrow: bool = True
     field_shading: bool = False  # translucent field raster under the contours
+    heat: object = None  # a HeatLayer of site-search candidates, drawn over the zones
     font_pt: float = 8.0
     line_scale: float = 1.0  # device units per point
     distance_units: str = "km"
+
+
+@dataclass(frozen=True)
+class HeatLayer:
+    """Site-search candidates as squares coloured by score, in the study site's plane [km]."""
+
+    x_km: np.ndarray
+    y_km: np.ndarray
+    value: np.ndarray  # the score; NaN: not evaluated
+    cell_km: float
+    vmin: float
+    vmax: float
+    label: str
+
+
+#: Colour ramp of heat layers, low → high: readable on the zone colours and in greyscale
+#: (lightness rises monotonically).
+HEAT_RAMP = ((48, 18, 59), (70, 99, 218), (27, 174, 167), (164, 219, 54), (253, 231, 37))
+
+
+def heat_colour(t: float) -> QColor:
+    """Colour of a value scaled to 0..1 on :data:`HEAT_RAMP`."""
+    t = float(np.clip(t, 0.0, 1.0)) * (len(HEAT_RAMP) - 1)
+    i = min(int(t), len(HEAT_RAMP) - 2)
+    f = t - i
+    a, b = HEAT_RAMP[i], HEAT_RAMP[i + 1]
+    return QColor(*(int(round(a[k] + f * (b[k] - a[k]))) for k in range(3)))
+
+
+def _draw_heat(p: QPainter, view: View, heat: HeatLayer):
+    span = max(heat.vmax - heat.vmin, 1e-12)
+    h = heat.cell_km / 2.0
+    p.setPen(Qt.NoPen)
+    for x, y, v in zip(heat.x_km, heat.y_km, heat.value):
+        if not np.isfinite(v):
+            continue
+        c = heat_colour((v - heat.vmin) / span)
+        c.setAlpha(215)
+        p.setBrush(c)
+        x0, y0 = view.to_dev(x - h, y + h)
+        x1, y1 = view.to_dev(x + h, y - h)
+        p.drawRect(QRectF(QPointF(float(x0), float(y0)), QPointF(float(x1), float(y1))))
 
 
 def fit_view(result, rect: QRectF, level_index: int | None = None, margin: float = 1.08) -> View:
@@ -292,6 +335,9 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
 
     if opts.field_shading:
         _draw_field(p, view, result)
+
+    if opts.heat is not None:
+        _draw_heat(p, view, opts.heat)
 
     if opts.graticule:
         _draw_graticule(p, view, proj, opts)
