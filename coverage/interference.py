@@ -800,16 +800,31 @@ def neighbour_night_base(n: Neighbour, others, spec, plan: InterferencePlan, bea
 OVERLAP_BEARINGS = np.arange(0.0, 360.0, 2.0)
 
 
-def _day_radials(s: Station, level_mv_m: float, spec, bearings=OVERLAP_BEARINGS):
-    """A station's day radial fields for a contour at ``level_mv_m`` (reaching far enough for
-    the contour at 1/100 of the power), on the given bearings."""
+def _day_radials(s: Station, level_mv_m: float, spec, bearings=OVERLAP_BEARINGS,
+                 max_km: float | None = None):
+    """A station's day radial fields on the given bearings (0.25 km steps), long enough for a
+    contour at ``level_mv_m`` unless ``max_km`` is given."""
     brg = np.asarray(bearings, dtype=float)
-    e1 = s.antenna.field_mv_m(OVERLAP_BEARINGS, 0.0, s.power_day_kw)
-    max_km = radial_length_km(s.freq_khz, spec.ground, level_mv_m / 10.0, float(e1.max()),
-                              spec.earth_k, min_km=2.0)
+    if max_km is None:
+        e1 = s.antenna.field_mv_m(OVERLAP_BEARINGS, 0.0, s.power_day_kw)
+        max_km = radial_length_km(s.freq_khz, spec.ground, level_mv_m, float(e1.max()),
+                                  spec.earth_k, min_km=2.0)
     return radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg,
-                         s.antenna.field_mv_m(brg, 0.0, s.power_day_kw), max_km, 0.1,
+                         s.antenna.field_mv_m(brg, 0.0, s.power_day_kw), max_km, 0.25,
                          spec.mixed_path, spec.earth_k)
+
+
+def _onset_radials(st: Station, spec, other_lonlat):
+    """The proposal's radials toward another station's contour (2° bearings that can reach
+    it), as far as its farthest point: all that the overlap onset needs."""
+    import shapely
+
+    brg = _bearings_toward((st.lat, st.lon), other_lonlat)
+    if brg.size == 0:
+        return None
+    xy = shapely.get_coordinates(local_projection(st.lat, st.lon).geom_to_xy(other_lonlat))
+    far = float(np.hypot(xy[:, 0], xy[:, 1]).max()) + 1.0
+    return _day_radials(st, 0.0, spec, brg, max_km=far)
 
 
 def _day_polygon(s: Station, level_mv_m: float, spec):
@@ -1012,19 +1027,16 @@ class NeighbourChecks:
             own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
             lvl = float(mv_m_to_dbu(own_mv))
             other = self.overlap_polygons[n.name]
-            lowest = min(r[0] for r in OVERLAP_RULES.values())
             if overlap_area:
                 if own_rad is None:
-                    own_rad = _day_radials(st, lowest, spec)
-                rad = own_rad
+                    own_rad = _day_radials(st, min(r[0] for r in OVERLAP_RULES.values()), spec)
                 area, points = _overlap_area(own_rad, (st.lat, st.lon), lvl, other)
-            else:  # the onset power only, from the radials that can reach the other contour
-                brg = _bearings_toward((st.lat, st.lon), other)
-                rad = _day_radials(st, lowest, spec, brg) if brg.size else None
+            else:
                 area, points = float("nan"), ()
             overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
             # the day power at which the overlap begins: the largest own field where a radial
             # first enters the other contour, against the level (fields ∝ √P)
+            rad = _onset_radials(st, spec, other)
             onset = _overlap_onset_dbu(rad, (st.lat, st.lon), other) if rad is not None else None
             if onset is not None:
                 p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
