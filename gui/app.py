@@ -75,6 +75,9 @@ class MainWindow(QMainWindow):
         self.map.siteDragged.connect(self._on_site_drag)
         self.map.siteDropped.connect(self._on_site_drop)
         self.map.hovered.connect(self._on_hover)
+        self.map.candidateClicked.connect(self._on_candidate)
+        self.search_thread = None
+        self.last_search = None
         self.resize(1400, 900)
         self._update_title()
 
@@ -152,6 +155,13 @@ class MainWindow(QMainWindow):
         self.map.options.field_shading = self.act_shade.isChecked()
         self.act_dbu = self._action(v, "Fields in dBµV/m", lambda: self.set_field_units("dBu"))
         self.act_mvm = self._action(v, "Fields in mV/m", lambda: self.set_field_units("mV/m"))
+        t = mb.addMenu("&Tools")
+        self._action(t, "Site search…", self.site_search_dialog)
+        self.act_stop_search = self._action(t, "Stop the site search", self.stop_search)
+        self.act_stop_search.setEnabled(False)
+        self.act_heat = self._action(t, "Show the site-search heat map", self.toggle_heat)
+        self.act_heat.setCheckable(True)
+        self.act_heat.setEnabled(False)
         h = mb.addMenu("&Help")
         self._action(h, "Cautions", self.show_cautions)
         self._action(h, "About mwreach", self.show_about)
@@ -276,6 +286,9 @@ class MainWindow(QMainWindow):
         if not self._confirm_discard():
             ev.ignore()
             return
+        if self.search_thread is not None:  # keep what it found; do not leave it running
+            self.search_thread.stop()
+            self.search_thread.wait(30_000)
         self.computer.shutdown()
         super().closeEvent(ev)
 
@@ -293,6 +306,71 @@ class MainWindow(QMainWindow):
 
     def _on_site_drop(self, lat, lon):
         self.document.set_site_quiet(lat, lon)  # full recompute through `changed`
+
+    # --- site search ------------------------------------------------------------------------
+    def site_search_dialog(self):
+        from PySide6.QtWidgets import QInputDialog
+
+        radius, ok = QInputDialog.getDouble(self, "Site search",
+                                            "Search within [km] of the present site:", 30.0,
+                                            1.0, 500.0, 1)
+        if not ok:
+            return
+        step, ok = QInputDialog.getDouble(self, "Site search", "Candidate spacing [km]:",
+                                          max(radius / 10.0, 0.5), 0.1, 100.0, 2)
+        if ok:
+            self.start_search(radius, step)
+
+    def start_search(self, radius_km: float, step_km: float):
+        """Run a site search around the present site in a background thread; its heat map is
+        shown when it is done (click a candidate to move the site there)."""
+        from mwreach.coverage.search import SearchSettings
+
+        from .worker import SearchThread
+
+        if self.search_thread is not None:
+            return
+        settings = SearchSettings(step_km=step_km, radius_km=radius_km)
+        self.search_thread = SearchThread(self.document.spec, settings, self)
+        self.search_thread.progressed.connect(
+            lambda done, total: self.statusBar().showMessage(
+                f"Site search: {done} of {total} candidates…"))
+        self.search_thread.done.connect(self._on_search)
+        self.search_thread.failed.connect(self._on_search_failed)
+        self.act_stop_search.setEnabled(True)
+        self.search_thread.start()
+
+    def stop_search(self):
+        if self.search_thread is not None:
+            self.search_thread.stop()
+
+    def _on_search(self, search):
+        self.search_thread.wait()
+        self.search_thread = None
+        self.act_stop_search.setEnabled(False)
+        self.last_search = search
+        self.act_heat.setEnabled(True)
+        self.act_heat.setChecked(True)
+        self.map.set_search(search)
+        self.map.fit_heat()
+        best = search.candidates[0] if search.candidates else None
+        more = " (stopped early)" if search.stopped_early else ""
+        self.statusBar().showMessage(
+            f"Site search{more}: {len(search.candidates)} candidates; best at "
+            f"{best.lat:.4f}, {best.lon:.4f} — click a square to move the site there"
+            if best else "Site search: no candidate in the area")
+
+    def _on_search_failed(self, msg):
+        self.search_thread.wait()
+        self.search_thread = None
+        self.act_stop_search.setEnabled(False)
+        QMessageBox.warning(self, "Site search failed", msg)
+
+    def toggle_heat(self):
+        self.map.set_search(self.last_search if self.act_heat.isChecked() else None)
+
+    def _on_candidate(self, lat, lon):
+        self.document.set_site_quiet(lat, lon)  # the full study runs for the new site
 
     def _on_result(self, req, result):
         self.result = result

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtGui import QColor, QPainter
 from PySide6.QtWidgets import QWidget
@@ -21,6 +23,7 @@ class MapWidget(QWidget):
     siteDragged = Signal(float, float)  # lat, lon while dragging
     siteDropped = Signal(float, float)  # lat, lon on release
     hovered = Signal(float, float)  # x_km, y_km in the displayed result's projection
+    candidateClicked = Signal(float, float)  # lat, lon of a site-search candidate clicked
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -31,6 +34,48 @@ class MapWidget(QWidget):
         self.options = MapOptions(font_pt=8.0, line_scale=1.0)
         self._drag = None  # ("site" | "pan", start QPointF, start view centre)
         self._site_offset = (0.0, 0.0)  # km, while dragging the site
+        self._search = None  # the last site search shown as a heat layer (lon/lat candidates)
+
+    def set_search(self, search) -> None:
+        """Show a site search's candidates as a heat layer (None hides it)."""
+        self._search = search
+        self._rebuild_heat()
+        self.update()
+
+    def _rebuild_heat(self):
+        """The heat layer in the projection of the result shown now (the site may have moved
+        since the search)."""
+        if self._search is None or self.result is None:
+            self.options.heat = None
+            return
+        from .heatmap import heat_layer
+
+        self.options.heat = heat_layer(self._search, self.result.spec)
+
+    def fit_heat(self) -> None:
+        """Frame the search area."""
+        heat = self.options.heat
+        if heat is None or heat.x_km.size == 0 or self.view is None:
+            return
+        x0, x1 = heat.x_km.min() - heat.cell_km, heat.x_km.max() + heat.cell_km
+        y0, y1 = heat.y_km.min() - heat.cell_km, heat.y_km.max() + heat.cell_km
+        r = self.view.rect
+        self.view.cx_km, self.view.cy_km = (x0 + x1) / 2, (y0 + y1) / 2
+        self.view.km_per_unit = max((x1 - x0) * 1.15 / max(r.width(), 1.0),
+                                    (y1 - y0) * 1.15 / max(r.height(), 1.0))
+        self.update()
+
+    def candidate_at(self, pos):
+        """(lat, lon) of the candidate under a widget position, or None."""
+        heat = self.options.heat
+        if heat is None or self.view is None or heat.x_km.size == 0:
+            return None
+        x, y = self.view.to_world(pos.x(), pos.y())
+        i = int(np.argmax(-np.maximum(np.abs(heat.x_km - x), np.abs(heat.y_km - y))))
+        if max(abs(heat.x_km[i] - x), abs(heat.y_km[i] - y)) > heat.cell_km / 2:
+            return None
+        c = self._search.candidates[i]
+        return c.lat, c.lon
 
     # --- data -------------------------------------------------------------------------------
     def set_result(self, result, refit: bool = False) -> None:
@@ -48,6 +93,8 @@ class MapWidget(QWidget):
             if self._drag and self._drag[0] == "site":
                 # the site is at the origin of the new projection: drag continues from there
                 self._site_offset = (0.0, 0.0)
+        if self._search is not None:
+            self._rebuild_heat()
         self.update()
 
     def fit(self) -> None:
@@ -119,6 +166,14 @@ class MapWidget(QWidget):
         self.hovered.emit(float(x), float(y))
 
     def mouseReleaseEvent(self, ev):  # noqa: N802
+        if (self._drag and self._drag[0] == "pan" and ev.button() == Qt.LeftButton
+                and (ev.position() - self._drag[1]).manhattanLength() < 4):
+            hit = self.candidate_at(ev.position())  # a click, not a pan: a candidate?
+            if hit is not None:
+                self._drag = None
+                self.unsetCursor()
+                self.candidateClicked.emit(*hit)
+                return
         if self._drag and self._drag[0] == "site":
             lat, lon = self._pos_to_lonlat(ev.position())
             self._drag = None

@@ -16,7 +16,7 @@ from PySide6.QtCore import QObject, QThread, Signal, Slot
 
 from mwreach.coverage.study import Study, StudySpec
 
-__all__ = ["Request", "Worker", "Computer"]
+__all__ = ["Request", "Worker", "Computer", "SearchThread"]
 
 
 class Cancelled(Exception):
@@ -170,3 +170,33 @@ class Computer(QObject):
         self._thread.wait()
         self._requests.clear()
         gc.enable()
+
+
+class SearchThread(QThread):
+    """A site search off the GUI thread: ``done(SearchResult)`` when finished (or stopped:
+    the candidates done so far), ``failed(message)`` on an error."""
+
+    progressed = Signal(int, int)
+    done = Signal(object)
+    failed = Signal(str)
+
+    def __init__(self, spec, settings, parent=None):
+        super().__init__(parent)
+        self.spec, self.settings = spec, settings
+        self._stop = False
+
+    def stop(self):
+        self._stop = True
+
+    def run(self):
+        from mwreach.coverage.search import run_search
+
+        def progress(done, total, _elapsed):
+            self.progressed.emit(done, total)
+            if self._stop:
+                raise KeyboardInterrupt  # run_search keeps what is done
+
+        try:
+            self.done.emit(run_search(self.spec, self.settings, None, progress))
+        except Exception as exc:  # shown to the user as a message, not a console trace
+            self.failed.emit(f"{type(exc).__name__}: {exc}")

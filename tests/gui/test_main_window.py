@@ -9,6 +9,7 @@ pytest.importorskip("PySide6")
 from PySide6.QtCore import QPointF, QSettings, Qt  # noqa: E402
 from PySide6.QtTest import QTest  # noqa: E402
 
+from mwreach.coverage.geodesy import local_projection  # noqa: E402
 from mwreach.coverage.inputs import load_study  # noqa: E402
 from mwreach.coverage.study import Study  # noqa: E402
 
@@ -332,3 +333,27 @@ def test_open_and_export_errors_show_a_dialog(qtbot, window, tmp_path, monkeypat
     assert not window.export_sheet(str(blocker / "sheet.pdf"))
     assert warnings[-1][0] == "Cannot write the contour sheet"
     assert blocker.read_text() == "x"
+
+
+def test_site_search_heat_layer_and_click_to_move(qtbot, window):
+    _open_and_wait(qtbot, window)
+    window.start_search(12.0, 6.0)
+    qtbot.waitUntil(lambda: window.last_search is not None, timeout=120_000)
+    search = window.last_search
+    assert search.candidates and window.map.options.heat is not None
+    assert window.map.options.heat.x_km.size == len(search.candidates)
+    # click a candidate's square (one away from the site symbol, which a press would drag):
+    # the site moves there and the full study runs
+    st = window.document.spec.station
+    proj = local_projection(st.lat, st.lon)
+    for best in search.candidates:
+        x, y = proj.to_xy(best.lon, best.lat)
+        dx, dy = window.map.view.to_dev(x, y)
+        sx, sy = window.map.view.to_dev(0.0, 0.0)
+        if np.hypot(dx - sx, dy - sy) > 30:
+            break
+    with qtbot.waitSignal(window.computer.result, timeout=60_000,
+                          check_params_cb=lambda req, res: req.bearings is None):
+        QTest.mouseClick(window.map, Qt.LeftButton, pos=QPointF(float(dx), float(dy)).toPoint())
+    moved = window.document.spec.station
+    assert (moved.lat, moved.lon) == pytest.approx((best.lat, best.lon), abs=1e-6)
