@@ -448,6 +448,105 @@ def _cmd_search(args) -> int:
     return 130 if search.stopped_early else 0
 
 
+def _cmd_fit(args) -> int:
+    import pathlib
+
+    from .fit import fit_all, fit_combined, fit_csv, fit_json, near_field_km, unknown_grounds
+    from .inputs import load_study, read_measurements
+    from .safefiles import refuse_overwriting_inputs, writable_folder, write_set
+
+    spec = load_study(args.study)
+    groups = read_measurements(args.measurements, spec)
+    inputs = list(spec.input_files) + [args.measurements]
+    names = ["fit.json", "fit.csv", "fit.pdf"] + [f"fit_{_safe(n)}.png" for n in groups]
+    refuse_overwriting_inputs(args.out, names, inputs)
+    if args.write_zones:
+        refuse_overwriting_inputs(pathlib.Path(args.write_zones).parent,
+                                  [pathlib.Path(args.write_zones).name], inputs)
+    writable_folder(args.out)
+    unknown = unknown_grounds(spec)
+    default_eps = next(iter(unknown))[1]  # the ground key is (σ, εr)
+    eps = check_finite("--eps-r", args.eps_r, 1.0, 100.0) if args.eps_r is not None else default_eps
+    tower_m = max(float(e.tower.height_deg) / 360.0 * 299_792.458 / spec.station.freq_khz
+                  for e in spec.station.antenna.elements)
+    near = near_field_km(spec.station.freq_khz, tower_m)
+    fits = fit_all(spec, groups, eps, near)
+    combined = fit_combined(spec, groups, eps, near) if len(groups) > 1 else None
+    files = {"fit.json": json.dumps(fit_json(fits, combined, spec, eps, near), indent=1,
+                                    ensure_ascii=False) + "\n",
+             "fit.csv": fit_csv(fits)}
+    from mwreach.gui.qt import ensure_app  # Qt only for the plots
+
+    ensure_app()
+    from mwreach.gui.fitplot import fit_pdf, fit_png
+
+    for f in fits:
+        files[f"fit_{_safe(f.radial)}.png"] = fit_png(spec, f, eps)
+    files["fit.pdf"] = fit_pdf(spec, fits, eps, near)
+    written = write_set(pathlib.Path(args.out), files, inputs=inputs)
+    print(f"{spec.station.name}, {spec.station.freq_khz:g} kHz: {sum(len(g) for g in groups.values())} "
+          f"readings on {len(groups)} radial(s); εr {eps:g}; near field < {near:.2f} km")
+    print(f"{'radial':<18} {'σ mS/m':>8} {'95 % interval':>17} {'E0 mV/m':>9} {'RMS dB':>7}  used")
+    for f in fits:
+        flag = "" if f.constrained else "  NOT CONSTRAINED"
+        print(f"{f.radial:<18} {f.sigma_ms_m:>8.3g} {f.sigma_low_ms_m:>8.3g}–{f.sigma_high_ms_m:<8.3g} "
+              f"{f.e0_mv_m:>9.1f} {f.rms_db:>7.2f}  {len(f.used)}{flag}")
+        for w in f.warnings:
+            print(f"  warning: {w}")
+        for r in f.outliers:
+            print(f"  outlier left out: line {r.line}, {r.dist_km:.2f} km"
+                  + (f" ({r.note})" if r.note else ""))
+    if combined is not None:
+        for name, sg in combined.sigma_ms_m.items():
+            print(f"all radials together: {name} σ {sg:.3g} mS/m "
+                  f"({combined.sigma_low_ms_m[name]:.3g}–{combined.sigma_high_ms_m[name]:.3g}); "
+                  f"RMS field at 1 km {combined.e1km_rms_mv_m:.1f} mV/m")
+    if args.write_zones:
+        _write_fitted_zones(spec, combined, fits, args.write_zones, unknown)
+        written.append(pathlib.Path(args.write_zones))
+    print("wrote " + ", ".join(str(f) for f in written))
+    print("Planning estimate only: measurements for a filing follow the regulator's procedures "
+          "and a licensed engineer's review.")
+    return 0
+
+
+def _safe(name: str) -> str:
+    return "".join(c if c.isalnum() or c in "-_" else "_" for c in name)
+
+
+def _write_fitted_zones(spec, combined, fits, target, unknown) -> None:
+    """The study's zones with the fitted conductivities written into the zones marked fit (or
+    a note when the default ground was fitted: it lives in the study file, not the zones)."""
+    import json as _json
+    import pathlib
+
+    from .inputs import read_json
+    from .safefiles import atomic_write
+
+    if not spec.zones_path:
+        raise UsageError("--write-zones needs a study with a zones file")
+    src = pathlib.Path(spec.path).parent / spec.zones_path
+    data = read_json(src)
+    by_name = {}
+    if combined is not None:
+        by_name = dict(combined.sigma_ms_m)
+    elif fits:
+        by_name = {v[1]: fits[0].sigma_ms_m for v in unknown.values()}
+    changed = 0
+    for feat in data.get("features", []):
+        props = feat.get("properties") or {}
+        name = props.get("name")
+        if props.get("fit") and name in by_name:
+            props["conductivity_ms_m"] = round(float(by_name[name]), 4)
+            props["note"] = (props.get("note") or "") + " conductivity fitted to measurements"
+            changed += 1
+    atomic_write(target, _json.dumps(data, indent=1, ensure_ascii=False) + "\n",
+                 check=lambda b: _json.loads(b.decode("utf-8")))
+    if not changed:
+        print("note: no zone is marked \"fit\": true; the fitted σ belongs to [ground] "
+              "sigma_ms_m of the study (zones written unchanged)")
+
+
 def _cmd_gui(args) -> int:
     if args.screenshot:
         # batch use never waits for a person: check the study before any window opens
@@ -598,6 +697,18 @@ def build_parser() -> argparse.ArgumentParser:
     se.add_argument("--scheduler", help="tcp://HOST:PORT of a Dask distributed scheduler "
                     "(needs the cluster extra)")
     se.set_defaults(func=_cmd_search)
+
+    fi = sub.add_parser("fit", help="ground conductivity and E0 from field-strength "
+                        "measurements", **fmt)
+    fi.add_argument("study", help="study file (TOML)")
+    fi.add_argument("measurements", help="CSV: lat, lon, field_mv_m or field_dbu, "
+                    "[bearing_deg, dist_km, radial, note]")
+    fi.add_argument("-o", "--out", required=True, help="output folder")
+    fi.add_argument("--eps-r", type=float, help="relative permittivity (default: the fitted "
+                    "ground's)")
+    fi.add_argument("--write-zones", help="write the zones with fitted conductivities to this "
+                    "GeoJSON file")
+    fi.set_defaults(func=_cmd_fit)
 
     g = sub.add_parser("gui", help="the desktop application", **fmt)
     g.add_argument("study", nargs="?", help="study file to open (default: the demo, unsaved)")

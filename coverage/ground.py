@@ -207,6 +207,7 @@ class Zone:
     ground: Ground
     geometry: object  # shapely Polygon or MultiPolygon
     buildable: bool = True  # a site search may put a tower here
+    fit: bool = False  # its conductivity is unknown: fitted to field-strength measurements
 
 
 @dataclass(frozen=True)

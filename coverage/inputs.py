@@ -271,7 +271,7 @@ def _features(data, path) -> list:
     return features
 
 
-ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note", "buildable")
+ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note", "buildable", "fit")
 
 
 def load_zones(path, default, notes: list | None = None):
@@ -305,7 +305,11 @@ def load_zones(path, default, notes: list | None = None):
         buildable = props.get("buildable", True)
         if not isinstance(buildable, bool):
             raise ValueError(f"buildable must be true or false (got {_show(buildable)}) in {pw}")
-        zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes), buildable))
+        fit = props.get("fit", False)
+        if not isinstance(fit, bool):
+            raise ValueError(f"fit must be true or false (got {_show(fit)}) in {pw}")
+        zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes), buildable,
+                          fit))
     return GroundMap(default, zones, source=str(path))
 
 
@@ -473,6 +477,52 @@ def read_neighbours_csv(path, inputs: list | None = None, classes: dict | None =
         out.append(neighbour_from_table(_csv_numbers(row, _NEIGHBOUR_NUMBERS, where), where,
                                         path.parent, inputs, classes))
     return out
+
+
+# --- field-strength measurements -----------------------------------------------------------
+
+MEASUREMENT_COLUMNS = ("lat", "lon", "field_mv_m", "field_dbu", "bearing_deg", "dist_km",
+                       "radial", "note")
+
+
+def read_measurements(path, spec) -> dict:
+    """Readings from a CSV file, grouped by radial: {radial name: [Reading, …]}.
+
+    Columns: ``lat``, ``lon`` and one of ``field_mv_m`` or ``field_dbu``; optional
+    ``bearing_deg`` and ``dist_km`` (else computed from the study's site), ``radial`` (a name
+    grouping readings; else the bearing rounded to the degree), ``note``.
+    """
+    from .fit import Reading
+    from .geodesy import check_site, inverse
+    from .groundwave import mv_m_to_dbu
+
+    path = pathlib.Path(path)
+    st = spec.station
+    groups: dict = {}
+    for where, row in read_csv(path, MEASUREMENT_COLUMNS, ("lat", "lon")):
+        num = _csv_numbers(row, ("lat", "lon", "field_mv_m", "field_dbu", "bearing_deg",
+                                 "dist_km"), where)
+        lat, lon = check_site(num["lat"], num["lon"], where=where)
+        if ("field_mv_m" in num) == ("field_dbu" in num):
+            raise ValueError(f"give one of field_mv_m or field_dbu in {where}")
+        if "field_mv_m" in num:
+            f = float(mv_m_to_dbu(check_finite("field_mv_m", num["field_mv_m"], 0.0, 1e6,
+                                               where=where, low_open=True)))
+        else:
+            f = check_finite("field_dbu", num["field_dbu"], -60.0, 240.0, where=where)
+        dist, az, _ = inverse(st.lat, st.lon, lat, lon)
+        d = (check_finite("dist_km", num["dist_km"], 0.0, 20_000.0, where=where, low_open=True)
+             if "dist_km" in num else float(dist))
+        b = (check_finite("bearing_deg", num["bearing_deg"], 0.0, 360.0, where=where)
+             if "bearing_deg" in num else float(az))
+        if d <= 0:
+            raise ValueError(f"the reading is at the site itself in {where}")
+        name = row.get("radial") or f"{round(b) % 360:03d}°"
+        line = int(where.split()[1])
+        groups.setdefault(name, []).append(Reading(d, f, lat, lon, b, row.get("note", ""), line))
+    if not groups:
+        raise ValueError(f"{path}: no readings")
+    return groups
 
 
 # --- night and protection --------------------------------------------------------------------
