@@ -112,6 +112,10 @@ class MainWindow(QMainWindow):
         self.results_tabs.addTab(self.profile, "Field along a bearing")
         self.results_tabs.addTab(self.pattern, "Antenna pattern")
         self.results_tabs.addTab(self.interference_table, "Interference checks")
+        from .measurements import MeasurementsView
+
+        self.measurements = MeasurementsView(self.document)
+        self.results_tabs.addTab(self.measurements, "Measurements")
         self._stale_views: set[int] = set()
         self.results_tabs.currentChanged.connect(self._refresh_view)
         rdock = QDockWidget("Results", self)

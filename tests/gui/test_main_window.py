@@ -357,3 +357,26 @@ def test_site_search_heat_layer_and_click_to_move(qtbot, window):
         QTest.mouseClick(window.map, Qt.LeftButton, pos=QPointF(float(dx), float(dy)).toPoint())
     moved = window.document.spec.station
     assert (moved.lat, moved.lon) == pytest.approx((best.lat, best.lon), abs=1e-6)
+
+
+def test_measurements_view_fits_and_accepts(qtbot, window, demo_copy):
+    import shutil
+
+    for f in ("quellmoor.toml", "measurements.csv"):
+        shutil.copy(DEMO.parent / f, demo_copy / f)
+    _open_and_wait(qtbot, window, demo_copy / "quellmoor.toml")
+    view = window.measurements
+    window.results_tabs.setCurrentWidget(view)
+    with qtbot.waitSignal(window.computer.result, timeout=120_000,
+                          check_params_cb=lambda req, res: req.bearings is None):
+        view.import_and_fit(str(demo_copy / "measurements.csv"))
+        qtbot.waitUntil(lambda: bool(view.fits), timeout=60_000)
+        assert view.table.rowCount() == 3 and view.table.item(0, 0).text() == "south"
+        # the demo readings were made with σ = 6 mS/m (data/demo/make_measurements.py)
+        sigma = view.fitted_sigma()
+        assert 4.5 < sigma < 8.0
+        assert view.accept_sigma() is None
+    assert window.document.doc["ground"]["sigma_ms_m"] == pytest.approx(round(sigma, 4))
+    img = view.plot.grab().toImage()
+    assert len({img.pixel(x, y) for x in range(0, img.width(), 7)
+                for y in range(0, img.height(), 7)}) > 5  # the plot is drawn
