@@ -92,6 +92,9 @@ class MainWindow(QMainWindow):
         self.editors = [self.station_editor, self.antenna_editor, self.ground_editor,
                         self.levels_editor, self.neighbours_editor, self.night_editor]
         inputs = QTabWidget()
+        inputs.setTabPosition(QTabWidget.West)  # all six tabs in view at any width
+        # the inputs take the full height on the right; the results sit left of them
+        self.setCorner(Qt.BottomRightCorner, Qt.RightDockWidgetArea)
         for w, name in zip(self.editors, ("Station", "Antenna", "Ground", "Contours",
                                           "Neighbours", "Night && ratios")):
             scroll = QScrollArea()
@@ -157,6 +160,10 @@ class MainWindow(QMainWindow):
         self.act_shade.setCheckable(True)
         self.act_shade.setChecked(self.settings.value("view/shading", "false") == "true")
         self.map.options.field_shading = self.act_shade.isChecked()
+        self.act_legend = self._action(v, "Legend on the map", self.toggle_legend, "Ctrl+L")
+        self.act_legend.setCheckable(True)
+        self.act_legend.setChecked(self.settings.value("view/legend", "true") == "true")
+        self.map.options.legend = self.act_legend.isChecked()
         self.act_dbu = self._action(v, "Fields in dBµV/m", lambda: self.set_field_units("dBu"))
         self.act_mvm = self._action(v, "Fields in mV/m", lambda: self.set_field_units("mV/m"))
         t = mb.addMenu("&Tools")
@@ -184,6 +191,8 @@ class MainWindow(QMainWindow):
         self.error_label.setStyleSheet("color: #b00020;")
         sb.addWidget(self.readout, 1)
         sb.addWidget(self.error_label)
+        self.failures = QLabel("")
+        sb.addPermanentWidget(self.failures)
         sb.addPermanentWidget(QLabel("Planning estimate — see Help ▸ Cautions"))
         sb.addPermanentWidget(self.progress)
         sb.addPermanentWidget(self.cancel_btn)
@@ -382,8 +391,25 @@ class MainWindow(QMainWindow):
         if req.bearings is None:
             self._on_idle()
             self.full_result = result
+            self._show_failures(result)
             self._stale_views = set(range(self.results_tabs.count()))
             self._refresh_view(self.results_tabs.currentIndex())
+
+    def _show_failures(self, result):
+        """Failed protection checks show in the status bar (and as red crosses on the map)
+        without opening the interference list."""
+        inter = result.interference
+        if inter is None:
+            self.failures.setText("")
+            return
+        failed = [r for r in inter.neighbour_summary() if not r["passed"]]
+        if failed:
+            names = ", ".join(dict.fromkeys(f"{r['neighbour']} ({r['kind']})" for r in failed))
+            self.failures.setText(f"⚠ {len(failed)} protection check(s) fail: {names}")
+            self.failures.setStyleSheet("color: #b00020; font-weight: bold;")
+        else:
+            self.failures.setText("All protection checks pass")
+            self.failures.setStyleSheet("color: #1a7f37;")
 
     def _refresh_view(self, index: int):
         """Fill a result view from the latest full result, only when it is shown."""
@@ -455,6 +481,13 @@ class MainWindow(QMainWindow):
         if self.full_result is not None:
             self._stale_views.add(self.results_tabs.indexOf(self.profile))
             self._refresh_view(self.results_tabs.currentIndex())
+
+    def toggle_legend(self):
+        """Show or fold away the map legend (it takes room on small screens)."""
+        on = self.act_legend.isChecked()
+        self.map.options.legend = on
+        self.settings.setValue("view/legend", "true" if on else "false")
+        self.map.update()
 
     def toggle_shading(self):
         on = self.act_shade.isChecked()

@@ -121,8 +121,14 @@ class MapWidget(QWidget):
             x, y = self.view.to_dev(*self._site_offset)
             p.setPen(Qt.red)
             p.drawEllipse(QPointF(float(x), float(y)), 7, 7)
-        legend = QRectF(self.width() - 290, 64, 280, 260)  # below the north arrow
-        draw_legend(p, legend, self.result, self.options, background=QColor(255, 255, 255, 235))
+        if self.options.legend:  # View ▸ Legend on the map folds it away
+            legend = QRectF(self.width() - 290, 64, 280, 260)  # below the north arrow
+            draw_legend(p, legend, self.result, self.options,
+                        background=QColor(255, 255, 255, 235))
+        else:
+            p.setPen(QColor(80, 80, 80))
+            p.drawText(QRectF(self.width() - 200, 40, 190, 18), Qt.AlignRight | Qt.AlignVCenter,
+                       "Legend: View ▸ Legend (Ctrl+L)")
         p.end()
 
     # --- interaction ------------------------------------------------------------------------
@@ -186,19 +192,21 @@ class MapWidget(QWidget):
     def wheelEvent(self, ev):  # noqa: N802
         if self.view is None:
             return
-        factor = 0.8 if ev.angleDelta().y() > 0 else 1.25
-        pos = ev.position()
-        wx, wy = self.view.to_world(pos.x(), pos.y())
+        self.zoom(0.8 if ev.angleDelta().y() > 0 else 1.25, ev.position())  # about the cursor
+
+    def zoom(self, factor: float, about=None) -> None:
+        """Zoom by ``factor`` about a device point (default: the site), which stays put."""
+        if self.view is None:
+            return
+        if about is None:
+            ax, ay = self.view.to_dev(*self._site_offset)
+            about = QPointF(float(ax), float(ay))
+        wx, wy = self.view.to_world(about.x(), about.y())
         self.view.km_per_unit *= factor
-        nx, ny = self.view.to_world(pos.x(), pos.y())
+        nx, ny = self.view.to_world(about.x(), about.y())
         self.view.cx_km += wx - nx
         self.view.cy_km += wy - ny
         self.update()
-
-    def zoom(self, factor: float) -> None:
-        if self.view is not None:
-            self.view.km_per_unit *= factor
-            self.update()
 
     def resizeEvent(self, ev):  # noqa: N802
         if self.view is not None:

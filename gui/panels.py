@@ -18,7 +18,7 @@ from PySide6.QtWidgets import (
     QLabel,
     QLineEdit,
     QPushButton,
-    QSpinBox,
+    QDoubleSpinBox,
     QTableView,
     QTableWidget,
     QTableWidgetItem,
@@ -134,8 +134,8 @@ class _TableEditor(_Editor):
         self.table = QTableWidget(0, len(self.COLUMNS))
         self.table.setHorizontalHeaderLabels([c[1] for c in self.COLUMNS])
         header = self.table.horizontalHeader()
-        header.setSectionResizeMode(QHeaderView.ResizeToContents)
-        header.setStretchLastSection(True)
+        header.setSectionResizeMode(QHeaderView.ResizeToContents)  # whole header texts; the
+        header.setStretchLastSection(False)  # table scrolls sideways when they need more room
         self.table.cellChanged.connect(self._changed)
         lay.addWidget(self.table)
         buttons = QHBoxLayout()
@@ -373,14 +373,18 @@ class NeighboursEditor(_TableEditor):
         self.csv_table.setEditTriggers(QTableWidget.NoEditTriggers)
         self.import_btn = QPushButton("Import neighbours CSV…")
         self.import_btn.clicked.connect(self._import)
-        row = QHBoxLayout()
+        row = QHBoxLayout()  # at the top, where it is seen without scrolling
         row.addWidget(self.csv_label, 1)
         row.addWidget(self.import_btn)
-        lay.addLayout(row)
+        lay.insertLayout(0, row)
+        self.table.setMinimumHeight(140)
+        self.csv_table.setMinimumHeight(110)
         lay.addWidget(self.csv_table)
-        lay.addWidget(QLabel("CSV columns: name, lat, lon, freq_khz, power_day_kw, power_night_kw, "
-                             "height_deg | height_m | array, loss_ohm, protected_day_mv_m, "
-                             "protected_night_mv_m"))
+        hint = QLabel("CSV columns: name, lat, lon, freq_khz, power_day_kw, power_night_kw, "
+                      "height_deg | height_m | array, loss_ohm, class, protected_day_mv_m, "
+                      "protected_night_mv_m")
+        hint.setWordWrap(True)
+        lay.addWidget(hint)
 
     exclusive = (("height_deg", "height_m"), ("height_deg", "array"), ("height_m", "array"))
 
@@ -566,6 +570,9 @@ class _RowsView(QTableView):
         else:
             self.setModel(self.model_)
         self.setEditTriggers(QTableView.NoEditTriggers)
+        # compact rows, and the columns share the width once they have what they need
+        self.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 6)
+        self.horizontalHeader().setStretchLastSection(True)
 
     def rowCount(self) -> int:  # noqa: N802 - mirrors QTableWidget for callers and tests
         return self.model_.rowCount()
@@ -623,9 +630,14 @@ class ProfilePlot(QWidget):
         lay = QVBoxLayout(self)
         row = QHBoxLayout()
         row.addWidget(QLabel("Bearing [deg true]"))
-        self.bearing = QSpinBox()
-        self.bearing.setRange(0, 359)
+        self.bearing = QDoubleSpinBox()  # the study may have bearings such as 137.5°
+        self.bearing.setDecimals(1)
+        self.bearing.setRange(0.0, 359.9)
+        self.bearing.setWrapping(True)
+        self.bearing.setSuffix("°")
         self.bearing.valueChanged.connect(self._draw)
+        self.shown_bearing = QLabel("")
+        row.addWidget(self.shown_bearing)
         row.addWidget(self.bearing)
         row.addStretch(1)
         lay.addLayout(row)
@@ -649,6 +661,7 @@ class ProfilePlot(QWidget):
             return
         b = r.radials.bearings_deg
         i = int(np.argmin(np.abs((b - self.bearing.value() + 180) % 360 - 180)))
+        self.shown_bearing.setText(f"radial shown: {b[i]:g}°")
         f = 1.0 if self.units == "km" else 1 / KM_PER_MI
         d = r.radials.dist_km * f
         e = r.radials.field_dbu[i]

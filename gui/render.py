@@ -19,7 +19,8 @@ from mwreach.coverage.geodesy import local_projection
 from mwreach.coverage.levels import level_style
 
 __all__ = ["View", "MapOptions", "draw_map", "fit_view", "conductivity_colour",
-           "level_pen", "level_colour", "zone_legend_rows", "HeatLayer", "heat_colour"]
+           "level_pen", "level_colour", "zone_legend_rows", "HeatLayer", "heat_colour",
+           "LabelPlacer", "overview_view"]
 
 #: Contour colours, strongest level first (chosen for print and screen; colour-blind safe set).
 _DASH = {"solid": Qt.SolidLine, "dash": Qt.DashLine, "dot": Qt.DotLine,
@@ -157,6 +158,48 @@ def fit_view(result, rect: QRectF, level_index: int | None = None, margin: float
     return View((x0 + x1) / 2, (y0 + y1) / 2, kpu, QRectF(rect))
 
 
+#: Neighbours farther than this from the site are not framed on an overview map (a distant
+#: clear-channel station would shrink everything else to a dot); sheets list them in words.
+OVERVIEW_NEIGHBOUR_KM = 1200.0
+
+
+def overview_view(result, rect: QRectF, margin: float = 1.12):
+    """A view holding the site, every contour, every neighbour within
+    :data:`OVERVIEW_NEIGHBOUR_KM` and every failed check point. Returns (view, the names of the
+    neighbours left outside the frame)."""
+    spec = result.spec
+    st = spec.station
+    proj = local_projection(st.lat, st.lon)
+    xs, ys = [0.0], [0.0]
+    for c in result.contours:
+        if not c.polygon_xy.is_empty:
+            x0, y0, x1, y1 = c.polygon_xy.bounds
+            xs += [x0, x1]
+            ys += [y0, y1]
+    outside = []
+    inter = getattr(result, "interference", None)
+    if spec.interference is not None:
+        for nb in spec.interference.neighbours:
+            x, y = proj.to_xy(nb.lon, nb.lat)
+            if math.hypot(float(x), float(y)) <= OVERVIEW_NEIGHBOUR_KM:
+                xs.append(float(x))
+                ys.append(float(y))
+            else:
+                outside.append(nb)
+    if inter is not None:
+        for r in inter.rows:
+            if not r.passed:
+                x, y = proj.to_xy(r.lon, r.lat)
+                if math.hypot(float(x), float(y)) <= OVERVIEW_NEIGHBOUR_KM:
+                    xs.append(float(x))
+                    ys.append(float(y))
+    x0, x1, y0, y1 = min(xs), max(xs), min(ys), max(ys)
+    w = max(x1 - x0, 1.0) * margin
+    h = max(y1 - y0, 1.0) * margin
+    kpu = max(w / max(rect.width(), 1.0), h / max(rect.height(), 1.0))
+    return View((x0 + x1) / 2, (y0 + y1) / 2, kpu, QRectF(rect)), outside
+
+
 def _path_from_geom(geom, view: View) -> QPainterPath:
     path = QPainterPath()
     path.setFillRule(Qt.OddEvenFill)
@@ -196,7 +239,7 @@ def _nice_step(span: float, target: int = 5) -> float:
     return 10.0
 
 
-def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions):
+def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions, labels=None):
     x0, y0, x1, y1 = view.world_extent()
     corners = np.array([[x0, y0], [x0, y1], [x1, y0], [x1, y1], [(x0 + x1) / 2, y0],
                         [(x0 + x1) / 2, y1], [x0, (y0 + y1) / 2], [x1, (y0 + y1) / 2]])
@@ -225,9 +268,9 @@ def _draw_graticule(p: QPainter, view: View, proj, opts: MapOptions):
                 inside = (dx > view.rect.left() + 30) & (dx < view.rect.right() - 30)
                 at = QPointF(float(dx[inside][0]) + 2, view.rect.bottom() - 3 * opts.line_scale) if inside.any() else None
                 text = f"{abs(v):.{dec}f}°{'E' if v >= 0 else 'W'}"
-            if at is not None:
-                p.setPen(QColor(80, 80, 80))
-                p.drawText(at, text)
+            if at is not None and labels is not None:
+                labels.pending.append((3, float(at.x()), float(at.y()), text,
+                                       QColor(80, 80, 80), 0.85, False, True))
 
 
 #: Field shading: dBµV/m range and colours (weak → strong), drawn translucent.
@@ -281,6 +324,7 @@ def _draw_scale_bar(p: QPainter, view: View, opts: MapOptions):
     p.setFont(font)
     p.drawText(QPointF(x, y - 2 * s), "0")
     p.drawText(QPointF(x + dev - 4 * s, y - 2 * s), f"{length:g} {opts.distance_units}")
+    return QRectF(x - 4 * s, y - 12 * s, dev + 40 * s, 18 * s)
 
 
 def _draw_north_arrow(p: QPainter, view: View, opts: MapOptions):
@@ -297,21 +341,74 @@ def _draw_north_arrow(p: QPainter, view: View, opts: MapOptions):
     font.setBold(True)
     p.setFont(font)
     p.drawText(QRectF(x - 10 * s, y + 19 * s, 20 * s, 12 * s), Qt.AlignCenter, "N")
+    return QRectF(x - 10 * s, y - 2 * s, 20 * s, 34 * s)
 
 
-def _label(p: QPainter, x: float, y: float, text: str, colour: QColor, opts: MapOptions):
-    font = QFont("DejaVu Sans", 1)
-    font.setPointSizeF(opts.font_pt * 0.9)
-    p.setFont(font)
-    fm = p.fontMetrics()
-    w = fm.horizontalAdvance(text) + 4 * opts.line_scale
-    h = fm.height()
-    r = QRectF(x - w / 2, y - h / 2, w, h)
-    p.setPen(Qt.NoPen)
-    p.setBrush(QColor(255, 255, 255, 215))
-    p.drawRect(r)
-    p.setPen(colour)
-    p.drawText(r, Qt.AlignCenter, text)
+class LabelPlacer:
+    """Places map labels so that no two overlap and none crosses the frame.
+
+    Each label is tried at its anchor point, then around it on growing rings (with a thin
+    leader line from the anchor once it has moved away); a label that fits nowhere is left out
+    and counted in :attr:`dropped`. :attr:`boxes` holds every placed label's box (device units),
+    for tests and for a caller that wants to know."""
+
+    def __init__(self, p: QPainter, frame: QRectF, opts: MapOptions, reserved=()):
+        self.p, self.opts = p, opts
+        s = opts.line_scale
+        self.frame = frame.adjusted(2 * s, 2 * s, -2 * s, -2 * s)
+        self.reserved = list(reserved)  # boxes labels must avoid (scale bar, north arrow)
+        self.boxes: list[QRectF] = []
+        self.texts: list[str] = []
+        self.dropped: list[str] = []
+        self.pending: list[tuple] = []  # (priority, x, y, text, colour, size, background, left)
+
+    def _free(self, r: QRectF) -> bool:
+        return (self.frame.contains(r) and not any(r.intersects(b) for b in self.boxes)
+                and not any(r.intersects(b) for b in self.reserved))
+
+    def place(self, x: float, y: float, text: str, colour: QColor, size: float = 0.9,
+              background: bool = True, align_left: bool = False):
+        p, s = self.p, self.opts.line_scale
+        font = QFont("DejaVu Sans", 1)
+        font.setPointSizeF(self.opts.font_pt * size)
+        p.setFont(font)
+        fm = p.fontMetrics()
+        w = fm.horizontalAdvance(text) + 4 * s
+        h = fm.height()
+        step = h * 0.9
+        base = (w / 2, 0.0) if align_left else (0.0, 0.0)
+        tries = [base]
+        for ring in range(1, 9):
+            d = ring * step
+            for ang in range(0, 360, 30):
+                a = math.radians(ang)
+                tries.append((base[0] + d * math.cos(a) * max(1.0, w / (2 * h)),
+                              base[1] - d * math.sin(a)))
+        for ox, oy in tries:
+            r = QRectF(x + ox - w / 2, y + oy - h / 2, w, h)
+            if not self._free(r):
+                continue
+            if math.hypot(ox - base[0], oy - base[1]) > 1.5 * step and not r.contains(QPointF(x, y)):
+                p.setPen(QPen(QColor(90, 90, 90), 0.5 * s))
+                p.drawLine(QPointF(x, y), QPointF(min(max(x, r.left()), r.right()),
+                                                  min(max(y, r.top()), r.bottom())))
+            if background:
+                p.setPen(Qt.NoPen)
+                p.setBrush(QColor(255, 255, 255, 215))
+                p.drawRect(r)
+            p.setPen(colour)
+            p.drawText(r, Qt.AlignCenter, text)
+            self.boxes.append(r)
+            self.texts.append(text)
+            return r
+        self.dropped.append(text)
+        return None
+
+    def flush(self):
+        """Place the labels queued in :attr:`pending`, most important first."""
+        for item in sorted(self.pending, key=lambda t: t[0]):
+            self.place(*item[1:])
+        self.pending = []
 
 
 def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
@@ -326,6 +423,7 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     p.setClipRect(view.rect)
     p.setRenderHint(QPainter.Antialiasing, True)
     p.fillRect(view.rect, conductivity_colour(spec.ground.default.sigma_ms_m))
+    labels = LabelPlacer(p, view.rect, opts)
 
     if opts.zones:
         for z, geom in zip(spec.ground.zones, spec.ground.zones_xy(proj)):
@@ -340,7 +438,7 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         _draw_heat(p, view, opts.heat)
 
     if opts.graticule:
-        _draw_graticule(p, view, proj, opts)
+        _draw_graticule(p, view, proj, opts, labels)
 
     if opts.community and spec.community is not None:
         g = proj.geom_to_xy(spec.community.geometry)
@@ -349,8 +447,8 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         p.drawPath(_path_from_geom(g, view))
         x0, y0, x1, _ = g.bounds  # name under the boundary, clear of the site label above it
         cx, cy = view.to_dev((x0 + x1) / 2, y0)
-        _label(p, float(cx), float(cy) + opts.font_pt * 1.6 * s, spec.community.name,
-               QColor(40, 40, 40), opts)
+        labels.pending.append((1, float(cx), float(cy) + opts.font_pt * 1.6 * s,
+                               spec.community.name, QColor(40, 40, 40), 0.9, True, False))
 
     if opts.contours:
         n = len(result.contours)
@@ -368,7 +466,8 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
                 continue
             x, y = d * math.sin(math.radians(b[j])), d * math.cos(math.radians(b[j]))
             dx, dy = view.to_dev(x, y)
-            _label(p, float(dx), float(dy), f"{c.level_mv_m:g} mV/m", col, opts)
+            labels.pending.append((2, float(dx), float(dy), f"{c.level_mv_m:g} mV/m", col, 0.9,
+                                   True, False))
 
     inter = getattr(result, "interference", None)
     if opts.night and inter is not None and inter.night is not None:
@@ -400,11 +499,13 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
             p.setPen(QPen(Qt.black, 0.8 * s))
             p.setBrush(QColor(255, 255, 255))
             p.drawPolygon(tri)
-            p.setFont(font)
-            p.drawText(QPointF(dx + 6 * s, dy + 3 * s), f"{nb.name} ({nb.freq_khz:g} kHz)")
+            labels.pending.append((1, dx + 6 * s, dy, f"{nb.name} ({nb.freq_khz:g} kHz)",
+                                   QColor(0, 0, 0), 0.85, True, True))
 
     if failing_points is None and inter is not None:
         failing_points = [(r.lat, r.lon) for r in inter.rows if not r.passed]
+        failing_points += [pt for ov in getattr(inter, "overlaps", ()) if not ov.passed
+                           for pt in ov.points]
     if failing_points:
         lat = np.array([a for a, _ in failing_points])
         lon = np.array([b for _, b in failing_points])
@@ -423,16 +524,19 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     p.drawEllipse(QPointF(dx, dy), 4.5 * s, 4.5 * s)
     p.drawLine(QPointF(dx, dy - 8 * s), QPointF(dx, dy + 8 * s))
     p.drawLine(QPointF(dx - 8 * s, dy), QPointF(dx + 8 * s, dy))
-    _label(p, dx, dy - 14 * s, st.name, QColor(0, 0, 0), opts)
+    labels.reserved.append(QRectF(dx - 9 * s, dy - 9 * s, 18 * s, 18 * s))  # the site symbol
+    labels.pending.append((0, dx, dy - 14 * s, st.name, QColor(0, 0, 0), 0.9, True, False))
 
     if opts.scale_bar:
-        _draw_scale_bar(p, view, opts)
+        labels.reserved.append(_draw_scale_bar(p, view, opts))
     if opts.north_arrow:
-        _draw_north_arrow(p, view, opts)
+        labels.reserved.append(_draw_north_arrow(p, view, opts))
+    labels.flush()
     p.setPen(QPen(Qt.black, 1.0 * s))
     p.setBrush(Qt.NoBrush)
     p.drawRect(view.rect)
     p.restore()
+    return labels
 
 
 def _legend_entries(result, s: float) -> list[tuple]:

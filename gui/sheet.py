@@ -14,10 +14,10 @@ from PySide6.QtCore import QMarginsF, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QPageLayout, QPageSize, QPainter, QPdfWriter, QPen
 
 from mwreach.coverage.export import KM_PER_MI, version
-from mwreach.coverage.geodesy import dms
+from mwreach.coverage.geodesy import dms, inverse
 from mwreach.coverage.interference import describe_max_power, summary_cells
 
-from .render import MapOptions, draw_legend, draw_map, fit_view
+from .render import MapOptions, draw_legend, draw_map, fit_view, overview_view
 
 __all__ = ["write_sheet", "table_bearings", "sheet_rows", "CAUTIONS", "methods_lines"]
 
@@ -56,6 +56,38 @@ def methods_lines(result) -> list[str]:
         lines.append(f"Night sky wave: {sky}, {s.percent} % of the time, layer "
                      f"{s.layer_height_km:g} km; RSS with {s.exclusion_percent} % exclusion.")
     return lines
+
+
+def key_figures(result) -> list[str]:
+    """The figures a reader looks for first: areas, community share, maximum powers and the
+    worst margin (no scientific notation)."""
+    from mwreach.coverage.interference import format_kw
+
+    out = []
+    plan = result.spec.interference
+    protected = plan.protected_day_mv_m if plan is not None else 0.5
+    for c in result.contours:
+        share = ("" if c.community_share is None
+                 else f"; {100 * c.community_share:.1f} % of {result.spec.community.name}")
+        mark = " (protected)" if c.level_mv_m == protected else ""
+        out.append(f"{c.level_mv_m:g} mV/m{mark}: {c.area_km2:,.0f} km²{share}")
+    inter = result.interference
+    if inter is not None:
+        for period, mp in inter.max_power.items():
+            if mp is not None:
+                out.append(f"Maximum {period} power: {format_kw(mp['max_power_kw'])} kW "
+                           f"(now {format_kw(mp['current_power_kw'])} kW), limited by "
+                           f"{mp['limiting_neighbour']}")
+        rows = inter.neighbour_summary()
+        failed = [r for r in rows if not r["passed"]]
+        worst = inter.worst()
+        if worst is not None:
+            out.append(f"Worst D/U margin: {worst.margin_db:.1f} dB ({worst.neighbour}, "
+                       f"{worst.kind})")
+        out.append(f"Checks failing: {len(failed)} of {len(rows)}"
+                   + (" — " + ", ".join(f"{r['neighbour']} ({r['kind']})" for r in failed)
+                      if failed else ""))
+    return out
 
 
 def table_bearings(result) -> np.ndarray:
@@ -207,47 +239,92 @@ def _page_map(doc: _Doc, result):
                            page.bottom() - bottom_reserved - map_rect.bottom() - 6 * PT)
     opts = MapOptions(font_pt=6.5, line_scale=PT,
                       distance_units=result.spec.output.get("distance_units", "km"))
-    # two maps side by side: the whole study (lowest level) and a detail around the site
+    # two maps side by side: the whole study (site, contours, neighbours, failures) and a
+    # detail framed on the protected contour
     gap = 6 * PT
     w = (map_rect.width() - gap) / 2
-    h = min(w * 1.4, map_rect.height())
+    h = min(w * 1.25, map_rect.height())
     overview = QRectF(map_rect.left(), map_rect.top(), w, h)
     detail = QRectF(map_rect.left() + w + gap, map_rect.top(), w, h)
-    detail_level = 1 if len(result.contours) > 2 else 0
-    for rect, level, caption in (
-        (overview, None, "Overview: all contours"),
-        (detail, detail_level, "Detail around the site"),
-    ):
-        draw_map(doc.painter, fit_view(result, rect, level), result, opts)
-        doc.text(QRectF(rect.left(), rect.bottom() + 1 * PT, rect.width(), 10 * PT), caption, 7)
+    view, outside = overview_view(result, overview)
+    doc.map_labels = [draw_map(doc.painter, view, result, opts)]
+    caption = "Overview: all contours, the neighbours and every failed check"
+    if outside:
+        st = result.spec.station
+        far = []
+        for nb in outside:
+            dist, az, _ = inverse(st.lat, st.lon, nb.lat, nb.lon)
+            far.append(f"{nb.name} ({nb.freq_khz:g} kHz, {float(dist):.0f} km at "
+                       f"{float(az):.0f}°)")
+        caption += ". Beyond the frame: " + "; ".join(far)
+    doc.text(QRectF(overview.left(), overview.bottom() + 1 * PT, overview.width(), 30 * PT),
+             caption, 6.5)
+    levels = [c.level_mv_m for c in result.contours]
+    plan = result.spec.interference
+    protected = plan.protected_day_mv_m if plan is not None else 0.5
+    detail_level = (levels.index(protected) if protected in levels
+                    else (1 if len(levels) > 2 else 0))
+    doc.map_labels.append(draw_map(doc.painter, fit_view(result, detail, detail_level), result,
+                                   opts))
+    doc.text(QRectF(detail.left(), detail.bottom() + 1 * PT, detail.width(), 20 * PT),
+             f"Detail: framed on the {levels[detail_level]:g} mV/m contour", 6.5)
     if not landscape:
-        side_rect = QRectF(page.left(), overview.bottom() + 12 * PT, page.width(),
-                           page.bottom() - bottom_reserved - overview.bottom() - 12 * PT)
+        side_rect = QRectF(page.left(), overview.bottom() + 26 * PT, page.width(),
+                           page.bottom() - bottom_reserved - overview.bottom() - 26 * PT)
     # legend, methods and cautions
     if landscape:
         used = draw_legend(doc.painter, side_rect, result, opts)
         y = side_rect.top() + used + 4 * PT
+        y += _boxed(doc, QRectF(side_rect.left(), y, side_rect.width(), 400 * PT), "Key figures",
+                    "\n".join(key_figures(result)), pt=7.2) + 4 * PT
         y += _boxed(doc, QRectF(side_rect.left(), y, side_rect.width(), 400 * PT), "Method",
                     "\n".join(methods_lines(result))) + 4 * PT
         _boxed(doc, QRectF(side_rect.left(), y, side_rect.width(), 400 * PT), "Cautions", CAUTIONS)
     else:
         half = side_rect.width() / 2 - 4 * PT
-        draw_legend(doc.painter, QRectF(side_rect.left(), side_rect.top(), half, side_rect.height()),
-                    result, opts)
+        used = draw_legend(doc.painter, QRectF(side_rect.left(), side_rect.top(), half,
+                                               side_rect.height()), result, opts)
+        _boxed(doc, QRectF(side_rect.left(), side_rect.top() + used + 4 * PT, half, 400 * PT),
+               "Key figures", "\n".join(key_figures(result)), pt=7.2)
         x = side_rect.left() + half + 8 * PT
         h = _boxed(doc, QRectF(x, side_rect.top(), half, 400 * PT), "Method",
                    "\n".join(methods_lines(result)))
         _boxed(doc, QRectF(x, side_rect.top() + h + 4 * PT, half, 400 * PT), "Cautions", CAUTIONS)
 
 
+def _section_height(doc: _Doc, text: str, width: float) -> float:
+    doc.font(6.2)
+    fm = doc.painter.fontMetrics()
+    r = fm.boundingRect(QRectF(0, 0, width, 1e6).toRect(), int(Qt.AlignLeft | Qt.TextWordWrap),
+                        text)
+    return max(r.height(), fm.height()) + 1.5 * PT
+
+
 def _table_pages(doc: _Doc, result) -> list:
-    """Split the radial table into page-sized chunks; returns callables drawing each page."""
+    """Split the radial table into page-sized chunks (rows grow with their ground sections,
+    printed in full); returns callables drawing each page."""
     rows = sheet_rows(result)
-    row_h = 2 * 8.2 * PT  # two text lines: distances and sections
-    header_h = 40 * PT
+    bw = 40 * PT
+    line_h = 8.2 * PT
+    heights = [line_h + _section_height(doc, r["sections"], doc.page.width() - bw) for r in rows]
+    header_h = 52 * PT
     usable = doc.page.height() - header_h - 20 * PT
-    per_page = max(1, int(usable // row_h))
-    chunks = [rows[i:i + per_page] for i in range(0, len(rows), per_page)]
+    # as many pages as needed, with the rows shared evenly between them
+    n_pages = max(1, int(np.ceil(sum(heights) / usable)))
+    while True:
+        target = sum(heights) / n_pages
+        chunks, cur, used = [], [], 0.0
+        for r, h in zip(rows, heights):
+            if cur and (used + h > usable or (used + h / 2 > target and len(chunks) < n_pages - 1)):
+                chunks.append(cur)
+                cur, used = [], 0.0
+            cur.append((r, h))
+            used += h
+        if cur:
+            chunks.append(cur)
+        if len(chunks) <= n_pages or n_pages > 50:
+            break
+        n_pages += 1
     return [lambda chunk=chunk, k=k: _page_table(doc, result, chunk, k, len(chunks))
             for k, chunk in enumerate(chunks)]
 
@@ -255,12 +332,16 @@ def _table_pages(doc: _Doc, result) -> list:
 def _page_table(doc: _Doc, result, rows, k: int, nk: int):
     page = doc.page
     p = doc.painter
+    miles = result.spec.output.get("distance_units", "km") == "mi"
+    first, second = ("mi", "km") if miles else ("km", "mi")
     cont = f" (continued, {k + 1} of {nk})" if nk > 1 else ""
     h = doc.text(QRectF(page.left(), page.top(), page.width(), 20 * PT),
                  f"Radial table — distance to each contour along the bearing{cont}", 11, bold=True)
-    note = ("Distances in km and mi from the site along geodesics (bearings true). n/r: level not "
-            "reached beyond one wavelength. *: the field rises above the level again further out "
-            "(see radials.csv). Ground sections: name, conductivity, from–to km.")
+    note = (f"Distances in {first} (then {second}) from the site along geodesics, bearings true. "
+            "n/r (not reached): the field is already below that level one wavelength from the "
+            "tower, where the calculation starts. *: the field rises above the level again "
+            "further out, over better ground such as water (radials.csv lists where). Under each "
+            "bearing: the ground along it, as zone name, conductivity and from–to km.")
     h += doc.text(QRectF(page.left(), page.top() + h + 2 * PT, page.width(), 30 * PT), note, 7)
     y = page.top() + h + 6 * PT
     levels = result.contours
@@ -271,31 +352,75 @@ def _page_table(doc: _Doc, result, rows, k: int, nk: int):
     p.drawText(QRectF(page.left(), y, bw, 12 * PT), Qt.AlignLeft | Qt.AlignVCenter, "Bearing")
     for i, c in enumerate(levels):
         p.drawText(QRectF(page.left() + bw + i * cw, y, cw, 12 * PT), Qt.AlignCenter,
-                   f"{c.level_mv_m:g} mV/m: km | mi")
+                   f"{c.level_mv_m:g} mV/m: {first} | {second}")
     y += 13 * PT
     p.setPen(QPen(Qt.black, 0.6 * PT))
     p.drawLine(QPointF(page.left(), y), QPointF(page.right(), y))
-    row_h = 2 * 8.2 * PT
-    for n, r in enumerate(rows):
+    line_h = 8.2 * PT
+    for n, (r, row_h) in enumerate(rows):
         if n % 2 == 0:
             p.fillRect(QRectF(page.left(), y, page.width(), row_h), QColor(242, 242, 242))
         doc.font(7.5)
         p.setPen(Qt.black)
-        p.drawText(QRectF(page.left(), y, bw, row_h / 2), Qt.AlignLeft | Qt.AlignVCenter,
+        p.drawText(QRectF(page.left(), y, bw, line_h), Qt.AlignLeft | Qt.AlignVCenter,
                    f"{r['bearing_deg']:g}°")
         for i, (km, mi) in enumerate(r["cells"]):
-            p.drawText(QRectF(page.left() + bw + i * cw, y, cw, row_h / 2), Qt.AlignCenter,
-                       f"{km} | {mi}")
+            a, b = (mi, km) if miles else (km, mi)
+            p.drawText(QRectF(page.left() + bw + i * cw, y, cw, line_h), Qt.AlignCenter,
+                       f"{a} | {b}")
         doc.font(6.2)
         p.setPen(QColor(70, 70, 70))
-        fm = p.fontMetrics()
-        text = fm.elidedText(r["sections"], Qt.ElideRight, int(page.width() - bw))
-        p.drawText(QRectF(page.left() + bw, y + row_h / 2, page.width() - bw, row_h / 2),
-                   Qt.AlignLeft | Qt.AlignVCenter, text)
+        p.drawText(QRectF(page.left() + bw, y + line_h, page.width() - bw, row_h - line_h),
+                   Qt.AlignLeft | Qt.AlignTop | Qt.TextWordWrap, r["sections"])
         y += row_h
 
 
-def _page_night(doc: _Doc, result):
+def _night_pages(doc: _Doc, result) -> list:
+    """The night and interference page, and a continuation page for the ratio table and the
+    notes when everything would not fit on one page."""
+    inter = result.interference
+    page = doc.page
+    landscape = page.width() > page.height()
+    map_h = page.height() * (0.42 if landscape else 0.30)
+    rows = len(inter.neighbour_summary())
+    text_h = 60 * PT if landscape else 110 * PT  # the summary lines (beside the map if wide)
+    need = (30 * PT + max(text_h, map_h + 14 * PT) + (0 if landscape else text_h) + 26 * PT
+            + rows * 10 * PT + 30 * PT + 8 * 2 * 9 * PT + len(inter.notes) * 2 * 9 * PT
+            + 80 * PT)  # the cautions box
+    if need <= page.height():
+        return [lambda: _page_night(doc, result, True)]
+    return [lambda: _page_night(doc, result, False), lambda: _page_night_more(doc, result)]
+
+
+def _page_night_more(doc: _Doc, result):
+    page = doc.page
+    y = page.top()
+    y += doc.text(QRectF(page.left(), y, page.width(), 20 * PT),
+                  "Night service and interference (continued)", 11, bold=True) + 4 * PT
+    y = _ratios_and_notes(doc, result, y)
+    _boxed(doc, QRectF(page.left(), y, page.width(), 300 * PT), "Cautions", CAUTIONS)
+
+
+def _ratios_and_notes(doc: _Doc, result, y: float) -> float:
+    page = doc.page
+    inter = result.interference
+    y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Protection ratios used", 9.5,
+                  bold=True) + 2 * PT
+    prot = "\n".join(
+        f"{r['period']}, offset {r['offset_channels']} channel(s): "
+        + ("no ratio" if r["ratio_db"] is None else f"{r['ratio_db']:g} dB")
+        + f" — {r['source']}"
+        for r in inter.protection.rows())
+    y += doc.text(QRectF(page.left(), y, page.width(), 400 * PT),
+                  f"Channel raster {inter.protection.raster_khz:g} kHz.\n" + prot, 7.5) + 8 * PT
+    if inter.notes:
+        y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Notes", 9.5, bold=True)
+        y += doc.text(QRectF(page.left(), y + 2 * PT, page.width(), 400 * PT),
+                      "\n".join(inter.notes), 7.5) + 8 * PT
+    return y
+
+
+def _page_night(doc: _Doc, result, with_ratios: bool = True):
     page = doc.page
     p = doc.painter
     inter = result.interference
@@ -316,7 +441,25 @@ def _page_night(doc: _Doc, result):
     ]
     for period, mp in inter.max_power.items():
         lines.append(describe_max_power(period, mp) + ".")
-    y += doc.text(QRectF(page.left(), y, page.width(), 200 * PT), "\n".join(lines), 8) + 8 * PT
+    landscape = page.width() > page.height()
+    text_w = page.width() * (0.5 if landscape else 1.0)
+    y_text = y
+    y += doc.text(QRectF(page.left(), y, text_w, 200 * PT), "\n".join(lines), 8) + 8 * PT
+    # a map of the night: the service contour, the neighbours with their protected contours and
+    # every failed check
+    if landscape:
+        map_rect = QRectF(page.left() + text_w + 8 * PT, y_text, page.width() - text_w - 8 * PT,
+                          page.height() * 0.42)
+    else:
+        map_rect = QRectF(page.left(), y, page.width(), page.height() * 0.30)
+    opts = MapOptions(font_pt=6.5, line_scale=PT, contours=False, legend=False,
+                      distance_units=result.spec.output.get("distance_units", "km"))
+    view, _outside = overview_view(result, map_rect)
+    doc.map_labels = getattr(doc, "map_labels", []) + [draw_map(p, view, result, opts)]
+    doc.text(QRectF(map_rect.left(), map_rect.bottom() + 1 * PT, map_rect.width(), 12 * PT),
+             "Night service contour (dash-dot), neighbours' protected contours (day solid, "
+             "night dashed), failed checks (red ×)", 6.5)
+    y = max(y, map_rect.bottom() + 14 * PT) if not landscape else max(y, map_rect.bottom() + 14 * PT)
 
     y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Worst D/U margin per neighbour",
                   9.5, bold=True) + 2 * PT
@@ -345,20 +488,9 @@ def _page_night(doc: _Doc, result):
             x += w * page.width()
         y += 10 * PT
     y += 8 * PT
-    y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Protection ratios used", 9.5,
-                  bold=True) + 2 * PT
-    prot = "\n".join(
-        f"{r['period']}, offset {r['offset_channels']} channel(s): "
-        + ("none — contributes nothing" if r["ratio_db"] is None else f"{r['ratio_db']:g} dB")
-        + (f" — {r['source']}" if r["ratio_db"] is not None else "")
-        for r in inter.protection.rows())
-    y += doc.text(QRectF(page.left(), y, page.width(), 200 * PT),
-                  f"Channel raster {inter.protection.raster_khz:g} kHz.\n" + prot, 7.5) + 8 * PT
-    if inter.notes:
-        y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Notes", 9.5, bold=True)
-        y += doc.text(QRectF(page.left(), y + 2 * PT, page.width(), 200 * PT),
-                      "\n".join(inter.notes), 7.5) + 8 * PT
-    _boxed(doc, QRectF(page.left(), y, page.width(), 300 * PT), "Cautions", CAUTIONS)
+    if with_ratios:
+        y = _ratios_and_notes(doc, result, y)
+        _boxed(doc, QRectF(page.left(), y, page.width(), 300 * PT), "Cautions", CAUTIONS)
 
 
 def write_sheet(result, path, paper: str | None = None, orientation: str | None = None) -> int:
@@ -383,7 +515,7 @@ def write_sheet(result, path, paper: str | None = None, orientation: str | None 
     doc = _Doc(buf, paper, orientation, result.spec.title)
     pages = [lambda: _page_map(doc, result)] + _table_pages(doc, result)
     if result.interference is not None and result.interference.night is not None:
-        pages.append(lambda: _page_night(doc, result))
+        pages += _night_pages(doc, result)
     try:
         for i, draw in enumerate(pages, 1):
             if i > 1:

@@ -380,3 +380,35 @@ def test_measurements_view_fits_and_accepts(qtbot, window, demo_copy):
     img = view.plot.grab().toImage()
     assert len({img.pixel(x, y) for x in range(0, img.width(), 7)
                 for y in range(0, img.height(), 7)}) > 5  # the plot is drawn
+
+
+def test_every_input_control_reachable_and_headers_whole_at_1280x720(qtbot, window):
+    from PySide6.QtWidgets import (QAbstractButton, QComboBox, QLineEdit, QScrollArea,
+                                   QTabWidget, QTableWidget)
+
+    window.resize(1280, 720)
+    _open_and_wait(qtbot, window)
+    qtbot.wait(50)
+    tabs = next(t for t in window.findChildren(QTabWidget)
+                if t.count() == 6 and t.tabText(0) == "Station")
+    bar = tabs.tabBar()
+    for k in range(tabs.count()):  # every tab in view, none behind scroll arrows
+        assert bar.tabRect(k).intersects(bar.rect()) and bar.rect().contains(bar.tabRect(k))
+        tabs.setCurrentIndex(k)
+        qtbot.wait(10)
+        scroll = tabs.currentWidget()
+        assert isinstance(scroll, QScrollArea)
+        editor = scroll.widget()
+        for w in editor.findChildren(QAbstractButton) + editor.findChildren(QLineEdit) \
+                + editor.findChildren(QComboBox) + editor.findChildren(QTableWidget):
+            if not w.isVisibleTo(editor):
+                continue
+            scroll.ensureWidgetVisible(w)
+            qtbot.wait(1)
+            assert not w.visibleRegion().isEmpty(), (tabs.tabText(k), w.objectName() or w)
+        for table in editor.findChildren(QTableWidget):
+            head = table.horizontalHeader()
+            fm = head.fontMetrics()
+            for c in range(table.columnCount()):
+                text = table.horizontalHeaderItem(c).text()
+                assert head.sectionSize(c) >= fm.horizontalAdvance(text), (tabs.tabText(k), text)

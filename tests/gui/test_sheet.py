@@ -47,7 +47,8 @@ def _pages_text(path):
 def test_page_count_and_page_numbers(sheet):
     path, pages = sheet
     text = _pages_text(path)
-    assert len(text) == pages == 3
+    # map page, radial table, night page and its continuation (ratios, notes) on A4 portrait
+    assert len(text) == pages == 4
     for i, t in enumerate(text, 1):
         assert f"Page {i} of {pages}" in t
 
@@ -81,12 +82,15 @@ def test_radial_distances_printed_equal_study(sheet, demo_result):
 
 def test_night_page(sheet, demo_result):
     path, _ = sheet
-    t = _pages_text(path)[2]
+    pages = _pages_text(path)
+    t = pages[2]
     inter = demo_result.interference
     assert f"{inter.night.limit_mv_m.min():.2f} to {inter.night.limit_mv_m.max():.2f} mV/m" in t
     for row in inter.neighbour_summary():
         assert row["neighbour"] in t
-    assert "47 CFR 73.37" in t  # source of the default ratios
+    assert "47 CFR 73.37" in " ".join(pages[2:])  # source of the default ratios
+    # powers are never printed in scientific notation
+    assert not re.search(r"\de[+-]\d", " ".join(pages[2:]))
 
 
 @pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="pdftoppm (poppler-utils) not installed")
@@ -161,3 +165,67 @@ def test_sheet_errors_are_one_line_and_keep_the_old_sheet(tmp_path, demo_result,
         write_sheet(demo_result, target)
     assert target.read_bytes() == before
     assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".")] == []
+
+
+def test_page_one_names_every_neighbour(sheet, demo_result):
+    path, _ = sheet
+    t = _pages_text(path)[0]
+    for nb in demo_result.spec.interference.neighbours:
+        assert nb.name in t  # on the overview map, or named beyond its frame
+    assert "Key figures" in t and "Maximum night power" in t
+
+
+def test_page_two_prints_every_ground_section_in_full(sheet, demo_result):
+    from mwreach.gui.sheet import sheet_rows
+
+    path, _ = sheet
+    text = " ".join(_pages_text(path)[1:])
+    flat = re.sub(r"\s+", "", text)
+    assert "…" not in text
+    for r in sheet_rows(demo_result):
+        for part in r["sections"].split("; "):
+            assert re.sub(r"\s+", "", part) in flat, part
+
+
+def test_miles_first_when_the_study_asks(demo_result, tmp_path):
+    import dataclasses
+
+    from mwreach.gui.qt import ensure_app
+    from mwreach.gui.sheet import write_sheet
+
+    ensure_app()
+    spec = dataclasses.replace(demo_result.spec,
+                               output=dict(demo_result.spec.output, distance_units="mi"))
+    res = dataclasses.replace(demo_result, spec=spec)
+    path = tmp_path / "mi.pdf"
+    write_sheet(res, path)
+    t = _pages_text(path)[1]
+    assert "5 mV/m: mi | km" in t and "Distances in mi (then km)" in t
+    c = res.contours[0]
+    i = int(np.flatnonzero(res.radials.bearings_deg == 0.0)[0])
+    d = c.first_km[i]
+    assert f"{d / KM_PER_MI:.1f} | {d:.1f}" in t  # miles, then km
+
+
+def test_map_labels_stay_inside_the_frame_and_apart(demo_result):
+    from PySide6.QtCore import QRectF
+    from PySide6.QtGui import QImage, QPainter
+
+    from mwreach.gui.qt import ensure_app
+    from mwreach.gui.render import MapOptions, draw_map, fit_view, overview_view
+
+    ensure_app()
+    img = QImage(1200, 1500, QImage.Format_ARGB32)
+    for make in (lambda r: overview_view(demo_result, r)[0],
+                 lambda r: fit_view(demo_result, r, 2)):
+        p = QPainter(img)
+        rect = QRectF(20, 20, 1100, 1400)
+        labels = draw_map(p, make(rect), demo_result, MapOptions(font_pt=9.0))
+        p.end()
+        boxes = labels.boxes
+        assert len(boxes) >= 5  # site, community, levels, neighbours, graticule
+        for b in boxes:
+            assert rect.contains(b), labels.texts
+        for i in range(len(boxes)):
+            for j in range(i + 1, len(boxes)):
+                assert not boxes[i].intersects(boxes[j]), (labels.texts[i], labels.texts[j])
