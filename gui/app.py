@@ -78,6 +78,8 @@ class MainWindow(QMainWindow):
         self.map.candidateClicked.connect(self._on_candidate)
         self.search_thread = None
         self.last_search = None
+        self._coarse_busy = False  # a drag preview is being computed
+        self._coarse_pending = None  # the newest dragged position waiting for it
         self.resize(1400, 900)
         self._update_title()
 
@@ -314,10 +316,22 @@ class MainWindow(QMainWindow):
             self.computer.submit(self.document.spec, label="computing")
 
     def _on_site_drag(self, lat, lon):
+        # one coarse run at a time: while one is in flight the newest position waits and goes
+        # next, so the preview keeps up with a fast mouse instead of each move superseding the
+        # last (which showed nothing until the mouse stopped)
+        if self._coarse_busy:
+            self._coarse_pending = (lat, lon)
+            return
+        self._submit_coarse(lat, lon)
+
+    def _submit_coarse(self, lat, lon):
+        self._coarse_busy = True
+        self._coarse_pending = None
         spec = self.document.spec.with_site(lat, lon)
         self.computer.submit(spec, bearings=COARSE_BEARINGS, interference=False, label="coarse")
 
     def _on_site_drop(self, lat, lon):
+        self._coarse_busy, self._coarse_pending = False, None
         self.document.set_site_quiet(lat, lon)  # full recompute through `changed`
 
     # --- site search ------------------------------------------------------------------------
@@ -388,6 +402,10 @@ class MainWindow(QMainWindow):
     def _on_result(self, req, result):
         self.result = result
         self.map.set_result(result)
+        if req.bearings is not None:  # a coarse preview: the newest waiting position goes next
+            self._coarse_busy = False
+            if self._coarse_pending is not None and self.map._drag:
+                self._submit_coarse(*self._coarse_pending)
         if req.bearings is None:
             self._on_idle()
             self.full_result = result

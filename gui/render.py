@@ -283,21 +283,54 @@ def _draw_field(p: QPainter, view: View, result):
 
     from mwreach.coverage.contours import field_raster
 
-    n = 160
+    n = 240
     x0, y0, x1, y1 = view.world_extent()
     half = max(x1 - x0, y1 - y0) / 2
     cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
     xs, ys, f = field_raster(result.radials, 1.0, n, centre_km=(cx, cy), half_km=half)
-    t = np.clip((f - SHADE_DBU[0]) / (SHADE_DBU[1] - SHADE_DBU[0]), 0, 1)
-    r = (255 * t).astype(np.uint8)
-    g = (255 * (1 - np.abs(2 * t - 1))).astype(np.uint8)
-    b = (255 * (1 - t)).astype(np.uint8)
-    a = np.where(np.isfinite(f), 90, 0).astype(np.uint8)
-    rgba = np.ascontiguousarray(np.dstack([r, g, b, a])[::-1])  # image rows run north → south
+    ok = np.isfinite(f)
+    t = np.clip((np.where(ok, f, SHADE_DBU[0]) - SHADE_DBU[0]) / (SHADE_DBU[1] - SHADE_DBU[0]),
+                0.0, 1.0)
+    ramp = np.array(HEAT_RAMP, dtype=float)
+    pos = t * (len(ramp) - 1)
+    i = np.minimum(pos.astype(int), len(ramp) - 2)
+    w = (pos - i)[..., None]
+    rgb = ((1 - w) * ramp[i] + w * ramp[i + 1]).astype(np.uint8)
+    a = np.where(ok, 110, 0).astype(np.uint8)
+    rgba = np.ascontiguousarray(np.dstack([rgb, a])[::-1])  # image rows run north → south
     img = QImage(rgba.data, n, n, 4 * n, QImage.Format_RGBA8888).copy()
     dx0, dy0 = view.to_dev(cx - half, cy + half)
     dx1, dy1 = view.to_dev(cx + half, cy - half)
+    p.save()
+    p.setRenderHint(QPainter.SmoothPixmapTransform, True)  # no stair steps when scaled up
     p.drawImage(QRectF(float(dx0), float(dy0), float(dx1 - dx0), float(dy1 - dy0)), img)
+    p.restore()
+
+
+def _draw_field_scale(p: QPainter, view: View, opts: MapOptions) -> QRectF:
+    """The colour scale of the field shading, bottom right of the map."""
+    s = opts.line_scale
+    w, h = 150 * s, 10 * s
+    x = view.rect.right() - w - 12 * s
+    y = view.rect.bottom() - h - 22 * s
+    box = QRectF(x - 6 * s, y - 14 * s, w + 12 * s, h + 30 * s)
+    p.setPen(Qt.NoPen)
+    p.setBrush(QColor(255, 255, 255, 225))
+    p.drawRect(box)
+    for k in range(60):
+        p.fillRect(QRectF(x + w * k / 60, y, w / 60 + 1, h), heat_colour(k / 59))
+    p.setPen(QPen(Qt.black, 0.6 * s))
+    p.setBrush(Qt.NoBrush)
+    p.drawRect(QRectF(x, y, w, h))
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt * 0.8)
+    p.setFont(font)
+    p.drawText(QRectF(x, y - 13 * s, w, 12 * s), Qt.AlignCenter, "field [dBµV/m]")
+    p.drawText(QRectF(x - 4 * s, y + h + 1 * s, 40 * s, 12 * s), Qt.AlignLeft,
+               f"{SHADE_DBU[0]:g}")
+    p.drawText(QRectF(x + w - 36 * s, y + h + 1 * s, 40 * s, 12 * s), Qt.AlignRight,
+               f"{SHADE_DBU[1]:g}")
+    return box
 
 
 def _draw_scale_bar(p: QPainter, view: View, opts: MapOptions):
@@ -531,6 +564,8 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         labels.reserved.append(_draw_scale_bar(p, view, opts))
     if opts.north_arrow:
         labels.reserved.append(_draw_north_arrow(p, view, opts))
+    if opts.field_shading:
+        labels.reserved.append(_draw_field_scale(p, view, opts))
     labels.flush()
     p.setPen(QPen(Qt.black, 1.0 * s))
     p.setBrush(Qt.NoBrush)
