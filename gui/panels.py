@@ -679,15 +679,18 @@ class ProfilePlot(QWidget):
             self.plot.plot(d, 10 ** (e / 20) / 1e3, pen=pg.mkPen("k", width=2))
             self.plot.setLogMode(y=True)
             self.plot.setLabel("left", "field [mV/m]")
-        for k, c in enumerate(r.contours):
+        # the levels as lines named in a legend (labels on the lines collide where levels lie
+        # a few dB apart)
+        if self.plot.plotItem.legend is None:
+            self.plot.addLegend(offset=(-10, 10), labelTextSize="8pt", brush=(255, 255, 255, 230),
+                                pen=(150, 150, 150), labelTextColor=(20, 20, 20))
+        self.plot.plotItem.legend.clear()
+        x_end = d[-1]
+        for c in r.contours:
             y = float(mv_m_to_dbu(c.level_mv_m)) if self.field_units == "dBu" else c.level_mv_m
             colour = level_colour(c.level_mv_m).name()
-            line = pg.InfiniteLine(pos=y if self.field_units == "dBu" else np.log10(y), angle=0,
-                                   pen=pg.mkPen(colour, width=1.5, style=Qt.DashLine),
-                                   label=f"{c.level_mv_m:g} mV/m",
-                                   labelOpts={"position": 0.55 + 0.12 * k, "color": colour,
-                                              "fill": (255, 255, 255, 200)})
-            self.plot.addItem(line)
+            self.plot.plot([d[0], x_end], [y, y], name=f"{c.level_mv_m:g} mV/m",
+                           pen=pg.mkPen(colour, width=1.6, style=Qt.DashLine))
         self.plot.setLabel("bottom", f"distance [{self.units}] along {b[i]:g}°")
 
 
@@ -725,7 +728,7 @@ class PatternPlot(QWidget):
             self.polar.plot([0, r_max * np.sin(a)], [0, r_max * np.cos(a)],
                             pen=pg.mkPen((200, 200, 200), width=1))
             txt = pg.TextItem(f"{ang}°", color=(90, 90, 90), anchor=(0.5, 0.5))
-            txt.setPos(1.1 * r_max * np.sin(a), 1.1 * r_max * np.cos(a))
+            txt.setPos(1.2 * r_max * np.sin(a), 1.2 * r_max * np.cos(a))  # clear of the circle
             self.polar.addItem(txt)
         t = np.radians(az)
         self.polar.plot(e * np.sin(t), e * np.cos(t), pen=pg.mkPen("#b2182b", width=2))
