@@ -353,7 +353,6 @@ def _cmd_search(args) -> int:
     from .inputs import load_study, read_boundary
     from .safefiles import refuse_overwriting_inputs, writable_folder, write_set
     from .search import (
-        SCORES,
         SearchSettings,
         candidate_sites,
         candidates_csv,

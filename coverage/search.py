@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .contours import contour_geometry, polar_region, radial_fields, radial_length_km
-from .geodesy import geodesic_area_km2, inverse, local_projection
+from .geodesy import inverse, local_projection
 from .groundwave import mv_m_to_dbu
 
 __all__ = ["SearchSettings", "Candidate", "SearchResult", "candidate_sites", "evaluate_chunk",

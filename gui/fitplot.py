@@ -9,6 +9,8 @@ from PySide6.QtGui import QColor, QFont, QImage, QPainter, QPen
 
 from mwreach.coverage.fit import curve_family
 
+from .qt import png_bytes
+
 __all__ = ["draw_fit_plot", "fit_png", "fit_pdf"]
 
 
@@ -135,12 +137,7 @@ def fit_png(spec, fit, eps_r: float, width: int = 1000, height: int = 640) -> by
     draw_fit_plot(p, QRectF(8, 36, width - 16, height - 44), fit, family,
                   _radial_paths_fn(spec, fit))
     p.end()
-    data = QByteArray()
-    buf = QBuffer(data)
-    buf.open(QIODevice.WriteOnly)
-    img.save(buf, "PNG")
-    buf.close()
-    return bytes(data.data())
+    return png_bytes(img)
 
 
 def fit_pdf(spec, fits, eps_r: float, near_km: float) -> bytes:

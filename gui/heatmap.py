@@ -4,11 +4,12 @@ the best sites numbered, and a colour scale. Drawn by the same renderer as the s
 from __future__ import annotations
 
 import numpy as np
-from PySide6.QtCore import QBuffer, QByteArray, QIODevice, QPointF, QRectF, Qt
+from PySide6.QtCore import QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QImage, QPainter, QPen
 
 from mwreach.coverage.geodesy import local_projection
 
+from .qt import png_bytes
 from .render import HeatLayer, MapOptions, View, draw_map, heat_colour
 
 __all__ = ["heat_layer", "render_heatmap", "heatmap_png"]
@@ -102,10 +103,4 @@ def render_heatmap(result, search, width: int = 1400, height: int = 1050) -> QIm
 
 def heatmap_png(result, search) -> bytes:
     """The heat map as PNG bytes."""
-    img = render_heatmap(result, search)
-    data = QByteArray()
-    buf = QBuffer(data)
-    buf.open(QIODevice.WriteOnly)
-    img.save(buf, "PNG")
-    buf.close()
-    return bytes(data.data())
+    return png_bytes(render_heatmap(result, search))

@@ -3,7 +3,6 @@ thread), plot measured against fitted, and accept the fitted σ into the study."
 
 from __future__ import annotations
 
-import numpy as np
 from PySide6.QtCore import QRectF, QThread, Signal
 from PySide6.QtGui import QPainter
 from PySide6.QtWidgets import (

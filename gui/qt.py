@@ -5,7 +5,7 @@ from __future__ import annotations
 import os
 import sys
 
-__all__ = ["ensure_app"]
+__all__ = ["ensure_app", "png_bytes"]
 
 
 def ensure_app(gui: bool = False):
@@ -26,3 +26,15 @@ def ensure_app(gui: bool = False):
         app.setOrganizationName("mwreach")
         app.setApplicationName("mwreach")
     return app
+
+
+def png_bytes(image) -> bytes:
+    """A QImage as PNG bytes (for writing through safefiles, never straight to disk)."""
+    from PySide6.QtCore import QBuffer, QByteArray, QIODevice
+
+    data = QByteArray()
+    buf = QBuffer(data)
+    buf.open(QIODevice.WriteOnly)
+    image.save(buf, "PNG")
+    buf.close()
+    return bytes(data.data())

@@ -20,24 +20,12 @@ from mwreach.coverage.geodesy import GEOD, local_projection
 from mwreach.coverage.inputs import load_study
 from mwreach.coverage.study import Study
 
-HOMOGENEOUS = """
-[study]
-bearing_step_deg = {step}
-step_km = 0.25
-[station]
-name = "Test"
-lat = {lat}
-lon = {lon}
-freq_khz = 1000
-power_day_kw = 1
-[antenna]
-[[antenna.tower]]
-height_deg = 90
-[ground]
-class = "land"
-[[contour]]
-field_mv_m = 0.5
-"""
+from conftest import homogeneous_study  # noqa: E402
+
+
+def _study(step, lat, lon):
+    return homogeneous_study(lat, lon, step_deg=step, step_km=0.25)
+
 
 
 def _run(tmp_path, text, name="s.toml"):
@@ -70,7 +58,7 @@ def test_demo_geojson_polygons_valid_and_ccw(demo_run):
 
 
 def test_homogeneous_ground_gives_a_circle(tmp_path):
-    res, _ = _run(tmp_path, HOMOGENEOUS.format(step=1.0, lat=38.4, lon=-46.2))
+    res, _ = _run(tmp_path, _study(step=1.0, lat=38.4, lon=-46.2))
     c = res.contours[0]
     r = c.first_km
     assert np.ptp(r) < 1e-6  # one ground, one tower: the same crossing on every bearing
@@ -112,7 +100,7 @@ def test_land_then_sea_gives_a_recovery_island(tmp_path):
         "geometry": {"type": "Polygon",
                      "coordinates": [[[float(x), float(y)] for x, y in zip(lon, lat)]]}}]}
     (tmp_path / "sea.geojson").write_text(json.dumps(zones))
-    text = HOMOGENEOUS.format(step=2.0, lat=10.0, lon=20.0).replace(
+    text = _study(step=2.0, lat=10.0, lon=20.0).replace(
         'class = "land"', 'class = "very-dry"\nzones = "sea.geojson"').replace(
         "field_mv_m = 0.5", "field_mv_m = 0.5\n[[contour]]\nfield_mv_m = 0.1")
     res, gj = _run(tmp_path, text)
@@ -134,7 +122,7 @@ def test_land_then_sea_gives_a_recovery_island(tmp_path):
 @pytest.mark.parametrize("lat, lon", [(38.4, 179.99), (38.4, -179.99), (89.9, 10.0),
                                       (-89.9, -60.0)])
 def test_geojson_valid_at_antimeridian_and_poles(tmp_path, lat, lon):
-    res, gj = _run(tmp_path, HOMOGENEOUS.format(step=2.0, lat=lat, lon=lon))
+    res, gj = _run(tmp_path, _study(step=2.0, lat=lat, lon=lon))
     c = res.contours[0]
     feat = next(f for f in gj["features"] if f["properties"]["kind"] == "day ground wave")
     g = shape(feat["geometry"])

@@ -387,24 +387,10 @@ def test_neighbour_beyond_sky_wave_range_is_skipped_not_fatal(demo_copy):
 @pytest.mark.parametrize("lat, lon", [(89.9, -46.2), (38.4, 179.99), (38.4, -179.99),
                                       (-89.9, 10.0)])
 def test_studies_at_the_poles_and_the_antimeridian_run(tmp_path, lat, lon):
+    from conftest import homogeneous_study
+
     f = tmp_path / "edge.toml"
-    f.write_text(f"""
-[station]
-lat = {lat}
-lon = {lon}
-freq_khz = 1000
-power_day_kw = 1
-[antenna]
-[[antenna.tower]]
-height_deg = 90
-[ground]
-class = "land"
-[study]
-bearing_step_deg = 10.0
-step_km = 1.0
-[[contour]]
-field_mv_m = 0.5
-""")
+    f.write_text(homogeneous_study(lat, lon))
     rc, _, err = run_cli("run", f, "--out", tmp_path / "o")
     assert rc == 0, err
 

@@ -22,7 +22,6 @@ from mwreach.coverage.interference import (
 from mwreach.coverage.groundwave import mv_m_to_dbu
 from mwreach.coverage.skywave import sky_field_dbu, sky_path
 from mwreach.coverage.inputs import load_study, read_neighbours_csv
-from mwreach.coverage.study import Study
 
 DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
 

@@ -5,7 +5,6 @@ same physics through Study.run); tolerances are those of the issue: maximum powe
 0.05 dB, community share within 0.5 % (the search's own contours use 5° radials).
 """
 
-import dataclasses
 import json
 import pathlib
 
