@@ -31,25 +31,3 @@ def demo_run(tmp_path_factory):
         assert cli.main(["run", str(DEMO), "--out", str(out)]) == 0
     return out, buf.getvalue()
 
-
-def homogeneous_study(lat: float, lon: float, step_deg: float = 10.0, step_km: float = 1.0,
-                      level_mv_m: float = 0.5) -> str:
-    """A one-tower study on homogeneous land (ITU-R P.368 class 'land') as TOML text."""
-    return f"""
-[study]
-bearing_step_deg = {step_deg}
-step_km = {step_km}
-[station]
-name = "Test"
-lat = {lat}
-lon = {lon}
-freq_khz = 1000
-power_day_kw = 1
-[antenna]
-[[antenna.tower]]
-height_deg = 90
-[ground]
-class = "land"
-[[contour]]
-field_mv_m = {level_mv_m}
-"""

@@ -20,7 +20,7 @@ from mwreach.coverage.geodesy import GEOD, local_projection
 from mwreach.coverage.inputs import load_study
 from mwreach.coverage.study import Study
 
-from conftest import homogeneous_study  # noqa: E402
+from helpers import homogeneous_study  # noqa: E402
 
 
 def _study(step, lat, lon):

@@ -387,7 +387,7 @@ def test_neighbour_beyond_sky_wave_range_is_skipped_not_fatal(demo_copy):
 @pytest.mark.parametrize("lat, lon", [(89.9, -46.2), (38.4, 179.99), (38.4, -179.99),
                                       (-89.9, 10.0)])
 def test_studies_at_the_poles_and_the_antimeridian_run(tmp_path, lat, lon):
-    from conftest import homogeneous_study
+    from helpers import homogeneous_study
 
     f = tmp_path / "edge.toml"
     f.write_text(homogeneous_study(lat, lon))
