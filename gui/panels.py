@@ -311,7 +311,7 @@ class GroundEditor(_Editor):
         for i, z in enumerate(zs):
             for j, v in enumerate((z.name, f"{z.ground.sigma_ms_m:g}", f"{z.ground.eps_r:g}")):
                 item = QTableWidgetItem(v)
-                item.setBackground(conductivity_colour(z.ground.sigma_ms_m))
+                item.setBackground(conductivity_colour(z.ground.sigma_ms_m, z.ground.eps_r))
                 self.zones.setItem(i, j, item)
         self._loading = False
 
@@ -666,7 +666,7 @@ class ProfilePlot(QWidget):
         d = r.radials.dist_km * f
         e = r.radials.field_dbu[i]
         for s in r.radials.sections[i]:
-            c = conductivity_colour(s.ground.sigma_ms_m)
+            c = conductivity_colour(s.ground.sigma_ms_m, s.ground.eps_r)
             c.setAlpha(110)
             reg = pg.LinearRegionItem((s.start_km * f, min(s.end_km, r.radials.dist_km[-1]) * f),
                                       movable=False, brush=c, pen=pg.mkPen(None))

@@ -42,16 +42,29 @@ NIGHT_COLOUR = "#202020"
 FAIL_COLOUR = "#d7191c"
 
 
-def conductivity_colour(sigma_ms_m: float) -> QColor:
-    """Fill colour for a ground by conductivity: sandy (dry) → green (land) → blue (sea)."""
-    t = float(np.clip((math.log10(sigma_ms_m) + 1.0) / 4.7, 0.0, 1.0))  # 0.1 mS/m … 5 S/m
-    stops = [(0.0, (233, 214, 170)), (0.35, (214, 230, 190)), (0.6, (170, 214, 170)),
-             (0.8, (150, 200, 215)), (1.0, (165, 195, 235))]
-    for (t0, c0), (t1, c1) in zip(stops, stops[1:]):
-        if t <= t1:
-            u = (t - t0) / (t1 - t0)
-            return QColor(*[round(a + u * (b - a)) for a, b in zip(c0, c1)])
-    return QColor(*stops[-1][1])
+#: Land swatches by conductivity class, drier → wetter: distinct hues *and* lightness, so that
+#: neighbouring classes can be told apart on screen and in greyscale print.
+LAND_SWATCHES = ((0.3, (236, 214, 160)),    # very dry, dry: sand
+                 (1.5, (214, 196, 140)),    # medium dry: ochre
+                 (5.0, (205, 226, 170)),    # land 3–4 mS/m: pale green
+                 (20.0, (150, 196, 120)),   # wet ground: mid green
+                 (math.inf, (96, 160, 96)))  # land 30 mS/m and better: deep green
+#: Water: sea (σ ≥ 1 S/m) deep blue, fresh water (εr ≥ 50 and low σ) light blue.
+SEA_COLOUR = (120, 165, 225)
+FRESH_WATER_COLOUR = (170, 210, 240)
+
+
+def conductivity_colour(sigma_ms_m: float, eps_r: float | None = None) -> QColor:
+    """Fill colour for a ground: sand → ochre → greens for land by conductivity class, blues
+    for water (sea by its conductivity, fresh water by its permittivity)."""
+    if sigma_ms_m >= 1000.0:
+        return QColor(*SEA_COLOUR)
+    if eps_r is not None and eps_r >= 50.0:
+        return QColor(*FRESH_WATER_COLOUR)
+    for upper, rgb in LAND_SWATCHES:
+        if sigma_ms_m < upper:
+            return QColor(*rgb)
+    return QColor(*LAND_SWATCHES[-1][1])
 
 
 @dataclass
@@ -223,10 +236,10 @@ def _line_path(xy, view: View) -> QPainterPath:
 
 
 def zone_legend_rows(spec) -> list[tuple[QColor, str]]:
-    rows = [(conductivity_colour(spec.ground.default.sigma_ms_m),
+    rows = [(conductivity_colour(spec.ground.default.sigma_ms_m, spec.ground.default.eps_r),
              f"default ground: {spec.ground.default.sigma_ms_m:g} mS/m, εr {spec.ground.default.eps_r:g}")]
     for z in spec.ground.zones:
-        rows.append((conductivity_colour(z.ground.sigma_ms_m),
+        rows.append((conductivity_colour(z.ground.sigma_ms_m, z.ground.eps_r),
                      f"{z.name}: {z.ground.sigma_ms_m:g} mS/m, εr {z.ground.eps_r:g}"))
     return rows
 
@@ -455,13 +468,13 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     p.save()
     p.setClipRect(view.rect)
     p.setRenderHint(QPainter.Antialiasing, True)
-    p.fillRect(view.rect, conductivity_colour(spec.ground.default.sigma_ms_m))
+    p.fillRect(view.rect, conductivity_colour(spec.ground.default.sigma_ms_m, spec.ground.default.eps_r))
     labels = LabelPlacer(p, view.rect, opts)
 
     if opts.zones:
         for z, geom in zip(spec.ground.zones, spec.ground.zones_xy(proj)):
             p.setPen(QPen(QColor(90, 90, 90, 120), 0.4 * s))
-            p.setBrush(conductivity_colour(z.ground.sigma_ms_m))
+            p.setBrush(conductivity_colour(z.ground.sigma_ms_m, z.ground.eps_r))
             p.drawPath(_path_from_geom(geom, view))
 
     if opts.field_shading:
