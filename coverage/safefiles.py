@@ -32,16 +32,17 @@ def _os_message(exc: OSError, path) -> str:
 
 
 def _fsync_dir(folder: pathlib.Path) -> None:
+    """Flush a folder's entries (the renames) to disk where the system allows it; some file
+    systems refuse to open or flush a folder, and the files themselves are already flushed."""
+    import contextlib
+
     try:
         fd = os.open(folder, os.O_RDONLY)
     except OSError:
         return
-    try:
+    with contextlib.suppress(OSError):
         os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
+    os.close(fd)
 
 
 def _default_mode() -> int:
