@@ -13,7 +13,7 @@ import numpy as np
 from .geodesy import LocalProjection, geodesic_area_km2, xy_to_lonlat_geometry
 from .ground import GroundMap
 from .groundwave import model, mv_m_to_dbu
-from .mixedpath import path_field_db
+from .mixedpath import millington_radials_db, path_field_db
 
 __all__ = [
     "RadialFields",
@@ -116,10 +116,15 @@ def radial_fields(
     out = np.empty((bearings.size, d.size))
     for g in {s.ground.key: s.ground for secs in sections for s in secs}.values():
         _ = model(freq_khz, g, earth_k).table  # build each curve once, up front
-    for i, secs in enumerate(sections):
-        out[i] = path_field_db(method, secs, d, freq_khz, earth_k) + mv_m_to_dbu(e1[i])
+    if method == "millington":  # all radials in one grouped look-up per ground
+        out[:] = millington_radials_db(sections, d, freq_khz, earth_k) + mv_m_to_dbu(e1)[:, None]
         if progress is not None:
-            progress(i + 1, bearings.size)
+            progress(bearings.size, bearings.size)
+    else:
+        for i, secs in enumerate(sections):
+            out[i] = path_field_db(method, secs, d, freq_khz, earth_k) + mv_m_to_dbu(e1[i])
+            if progress is not None:
+                progress(i + 1, bearings.size)
     return RadialFields(bearings, d, out, np.array(e1), sections)
 
 

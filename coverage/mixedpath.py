@@ -22,7 +22,10 @@ import numpy as np
 from .ground import Section
 from .groundwave import GroundWaveModel, model
 
-__all__ = ["METHODS", "path_field_db", "millington_db", "millington_points_db", "kirke_db"]
+__all__ = [
+    "METHODS", "path_field_db", "millington_db", "millington_points_db", "millington_radials_db",
+    "kirke_db",
+]
 
 METHODS = ("millington", "kirke")
 
@@ -114,6 +117,79 @@ def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3
     for key, g in grounds.items():
         sel = np.array([kk == key for kk in keys])
         np.add.at(out, idx[sel], ws[sel] * model(freq_khz, g, earth_k).gain_db(xs[sel]))
+    return out
+
+
+def millington_radials_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
+    """Millington's field [dB re unattenuated field at 1 km] on many radials at once:
+    (n_paths, n_dist) for the sections ``paths[k]`` of each radial and one shared, increasing
+    distance grid.
+
+    The same sums as :func:`millington_db`, regrouped so that every curve look-up of every
+    radial on one ground is a single interpolation (the per-study speed path; the two agree to
+    rounding). Distances equal to a boundary count as inside the nearer section, as there.
+    """
+    d = np.asarray(dist_km, dtype=float)
+    nd = d.size
+    if nd > 1 and np.any(np.diff(d) <= 0):
+        raise ValueError("dist_km must be increasing for millington_radials_db")
+    n = len(paths)
+    out = np.tile(-20 * np.log10(d), (n, 1))
+    jumps = np.zeros((n, nd + 1))  # cumulative-sum deltas for the forward boundary jumps
+    # Curve look-ups at the grid distances themselves are shared by every radial (one per
+    # ground); those at D − b (the reverse terms) are gathered per pair of grounds as runs
+    # (row, first cell, boundary) and done in one interpolation per ground of the pair, on one
+    # shared log10(D − b). The forward jumps are one look-up per boundary, spread along the row
+    # by a cumulative sum.
+    on_grid: dict = {}
+    pair_runs: dict = {}
+    jump_runs: dict = {}
+    grounds: dict = {}
+
+    def at_grid(g):
+        if g.key not in on_grid:
+            on_grid[g.key] = 0.5 * model(freq_khz, g, earth_k).gain_db(d)
+        return on_grid[g.key]
+
+    for k, secs in enumerate(paths):
+        _check_sections(secs)
+        row = out[k]
+        # where each section's cells end: d ≤ b lies in the section that ends at b
+        ends = np.searchsorted(d, [sc.end_km for sc in secs[:-1]], side="right").tolist()
+        start = 0
+        for i, sc in enumerate(secs):
+            stop = ends[i] if i < len(ends) else nd
+            if stop > start:
+                row[start:stop] += at_grid(sc.ground)[start:stop]  # forward, receiver's section
+            start = max(start, stop)
+        row += at_grid(secs[0].ground)  # reverse, the first section
+        for j, k0 in enumerate(ends):
+            if k0 >= nd:
+                break
+            b = secs[j].end_km
+            gj, gk = secs[j].ground, secs[j + 1].ground
+            grounds[gj.key], grounds[gk.key] = gj, gk
+            pair_runs.setdefault((gk.key, gj.key), []).append((k, k0, b))  # reverse at D − b
+            for g, w in ((gj, 0.5), (gk, -0.5)):  # forward jump at b, beyond b
+                jump_runs.setdefault(g.key, []).append((k * (nd + 1) + k0, b, w))
+    flat_out = out.reshape(-1)
+    for (plus, minus), rows in pair_runs.items():
+        row, first, b = (np.array(c) for c in zip(*rows))
+        length = nd - first
+        which = np.repeat(np.arange(length.size), length)
+        cell = np.arange(which.size) - np.repeat(np.cumsum(length) - length, length) + first[which]
+        logx = np.log10(d[cell] - b[which])  # D > b in every such cell
+        g = 0.0
+        for key, w in ((plus, 0.5), (minus, -0.5)):
+            logd, att_db = model(freq_khz, grounds[key], earth_k).table
+            g = g + w * np.interp(logx, logd, att_db, left=0.0)
+        flat_out += np.bincount(row[which] * nd + cell, weights=g, minlength=flat_out.size)
+    flat_jumps = jumps.reshape(-1)
+    for key, rows in jump_runs.items():
+        at, b, w = (np.array(c) for c in zip(*rows))
+        g = model(freq_khz, grounds[key], earth_k).gain_db(b)
+        flat_jumps += np.bincount(at, weights=w * g, minlength=flat_jumps.size)
+    out += np.cumsum(jumps, axis=1)[:, :nd]
     return out
 
 

@@ -5,7 +5,12 @@ import pytest
 
 from mwreach.coverage import groundwave as gw
 from mwreach.coverage.ground import Section, ground_class
-from mwreach.coverage.mixedpath import kirke_db, millington_db, path_field_db
+from mwreach.coverage.mixedpath import (
+    kirke_db,
+    millington_db,
+    millington_radials_db,
+    path_field_db,
+)
 
 LAND = ground_class("land")
 SEA = ground_class("sea")
@@ -76,6 +81,25 @@ def test_kirke_follows_next_curve_from_equivalent_distance():
     d_eq = brentq(lambda x: float(gw.field_dbu(F, SEA, x)) - reached, 1.0, 2000.0)
     assert _dbu(kirke_db(secs, [100.0], F)[0]) == pytest.approx(
         float(gw.field_dbu(F, SEA, d_eq + 60.0)), abs=0.005)  # dB, table interpolation
+
+
+def test_radials_at_once_equal_one_path_at_a_time():
+    # the grouped kernel used for whole studies must be the same sums as millington_db,
+    # including grid points that fall exactly on a boundary and paths of one section
+    rng = np.random.default_rng(3)
+    grounds = [LAND, SEA, DRY]
+    d = np.concatenate([[0.5, 1.0], np.arange(2.0, 300.0, 2.0)])
+    paths = [[Section(0.0, 300.0, SEA)]]
+    for _ in range(40):
+        cuts = np.sort(rng.choice(np.arange(4.0, 296.0, 2.0), rng.integers(1, 6), replace=False))
+        if rng.random() < 0.5:
+            cuts = cuts + rng.uniform(0.1, 1.9, cuts.size)  # off the grid as well
+        edges = np.concatenate([[0.0], cuts, [300.0]])
+        paths.append([Section(float(a), float(b), grounds[rng.integers(3)])
+                      for a, b in zip(edges[:-1], edges[1:])])
+    grid = millington_radials_db(paths, d, F)
+    one = np.array([millington_db(p, d, F) for p in paths])
+    np.testing.assert_allclose(grid, one, atol=1e-9)  # dB; the same look-ups, summed in another order
 
 
 def test_bad_paths():
