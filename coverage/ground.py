@@ -14,7 +14,7 @@ import numpy as np
 from .validate import check_finite
 
 __all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap",
-           "ray_intervals"]
+           "ray_intervals", "ray_intervals_many"]
 
 # Validity window of the ground-wave method (ITU-R P.368 covers 10 kHz to 30 MHz).
 SIGMA_RANGE_MS_M = (1e-4, 1e7)  # from very dry ice to (practically) a perfect conductor
@@ -122,12 +122,24 @@ def ray_intervals(geom_xy, bearings_deg, max_km: float):
     bearings_deg : (nb,) [deg true]
     max_km : radial length [km]
     """
+    return [(i, a, e) for i, _z, a, e in ray_intervals_many([geom_xy], bearings_deg, max_km)]
+
+
+def ray_intervals_many(geoms_xy, bearings_deg, max_km: float):
+    """:func:`ray_intervals` for several (multi)polygons in one cast: (radial index, polygon
+    index, start, end), the even-odd rule applied to each polygon on its own."""
     b = np.mod(np.atleast_1d(np.asarray(bearings_deg, dtype=float)), 360.0)
-    if geom_xy is None or geom_xy.is_empty or b.size == 0:
+    tables = [_edge_table(g) if g is not None and not g.is_empty else None for g in geoms_xy]
+    nz = len(tables)
+    if b.size == 0 or all(t is None or t[0].shape[0] == 0 for t in tables):
         return []
-    e, ap, aq, inside0 = _edge_table(geom_xy)
-    if e.shape[0] == 0:
-        return []
+    empty = (np.empty((0, 4)), np.empty(0), np.empty(0), False)
+    tables = [t if t is not None else empty for t in tables]
+    e = np.vstack([t[0] for t in tables])
+    ap = np.concatenate([t[1] for t in tables])
+    aq = np.concatenate([t[2] for t in tables])
+    zone_of_edge = np.repeat(np.arange(nz), [t[0].shape[0] for t in tables])
+    inside0 = np.array([t[3] for t in tables], dtype=bool)
     p, q = e[:, :2], e[:, 2:]
     lo, hi = np.minimum(ap, aq), np.maximum(ap, aq)
     wraps = hi - lo > 180.0  # the edge spans north: bearings in [hi, 360) and [0, lo)
@@ -155,25 +167,28 @@ def ray_intervals(geom_xy, bearings_deg, max_km: float):
         with np.errstate(divide="ignore", invalid="ignore"):
             r = (p[ei, 0] * dy - p[ei, 1] * dx) / den
         ok = np.isfinite(r) & (r > 0)
-        ri, r = ri[ok], r[ok]
+        grp, r = ri[ok] * nz + zone_of_edge[ei[ok]], r[ok]
     else:
-        r = np.empty(0)
-    # every radial's crossings in order, with 0 first where the origin is inside and +inf
-    # last; consecutive pairs (0,1), (2,3), … are then the stretches inside
-    all_i = np.arange(b.size)
-    ri = np.concatenate([ri, all_i] + ([all_i] if inside0 else []))
-    r = np.concatenate([r, np.full(b.size, np.inf)] + ([np.zeros(b.size)] if inside0 else []))
-    srt = np.lexsort((r, ri))
-    ri, r = ri[srt], r[srt]
-    rank = np.arange(ri.size) - np.searchsorted(ri, ri)
-    start = (rank % 2 == 0) & (np.arange(ri.size) + 1 < ri.size)
-    start[:-1] &= ri[1:] == ri[:-1]
+        grp, r = np.empty(0, dtype=int), np.empty(0)
+    # every (radial, polygon) group's crossings in order, with 0 first where the origin is
+    # inside that polygon and +inf last; consecutive pairs (0,1), (2,3), … are the stretches
+    # inside
+    every = np.arange(b.size * nz)
+    starts_inside = every[np.tile(inside0, b.size)]
+    grp = np.concatenate([grp, every, starts_inside])
+    r = np.concatenate([r, np.full(every.size, np.inf), np.zeros(starts_inside.size)])
+    srt = np.lexsort((r, grp))
+    grp, r = grp[srt], r[srt]
+    rank = np.arange(grp.size) - np.searchsorted(grp, grp)
+    start = (rank % 2 == 0) & (np.arange(grp.size) + 1 < grp.size)
+    start[:-1] &= grp[1:] == grp[:-1]
     start[-1] = False
     a = r[start]
     z = np.minimum(r[np.flatnonzero(start) + 1], max_km)
-    i = ri[start]
+    g = grp[start]
     keep = (a < max_km) & (z - a > 1e-9)
-    return list(zip(i[keep].tolist(), a[keep].tolist(), z[keep].tolist()))
+    g = g[keep]
+    return list(zip((g // nz).tolist(), (g % nz).tolist(), a[keep].tolist(), z[keep].tolist()))
 
 
 _EDGE_CACHE: dict = {}
@@ -324,9 +339,8 @@ class GroundMap:
         intervals = [[] for _ in bearings]
         with self._lock:
             zones_xy = self.zones_xy(proj)
-            for zi, g in enumerate(zones_xy, 1):
-                for i, a, e in ray_intervals(g, bearings, max_km):
-                    intervals[i].append((a, e, zi))
+            for i, zi, a, e in ray_intervals_many(zones_xy, bearings, max_km):
+                intervals[i].append((a, e, zi + 1))
         grounds = self.grounds
         gkeys = [g.key for g in grounds]
         whole = [Section(0.0, float(max_km), grounds[0])]

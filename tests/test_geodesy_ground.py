@@ -188,3 +188,25 @@ def test_ray_cast_sections_equal_shapely_intersections():
         for i in ref:
             # 1e-6 km: both intersect the same straight edges; the difference is rounding
             assert np.allclose(sorted(got[i]), sorted(ref[i]), atol=1e-6)
+
+
+def test_one_cast_over_all_zones_equals_one_cast_per_zone():
+    # radial_sections casts every zone at once; each zone's even-odd rule must stay its own,
+    # also from a site inside a zone (origin inside) and with an empty geometry in the list
+    import shapely
+
+    from mwreach.coverage.geodesy import local_projection
+    from mwreach.coverage.ground import ray_intervals, ray_intervals_many
+    from mwreach.coverage.inputs import load_study
+
+    spec = load_study(pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml")
+    b = np.arange(0.0, 360.0, 0.7)
+    inside = spec.ground.zones[0].geometry.representative_point()
+    for lat, lon in ((spec.station.lat, spec.station.lon), (inside.y, inside.x)):
+        zones = list(spec.ground.zones_xy(local_projection(lat, lon))) + [shapely.Polygon()]
+        got = sorted(ray_intervals_many(zones, b, 650.0))
+        want = sorted((i, z, a, e) for z, g in enumerate(zones)
+                      for i, a, e in ray_intervals(g, b, 650.0))
+        assert len(got) == len(want) > 0
+        assert [g[:2] for g in got] == [w[:2] for w in want]
+        np.testing.assert_allclose([g[2:] for g in got], [w[2:] for w in want], atol=1e-12)  # km
