@@ -396,3 +396,41 @@ def test_third_adjacent_maximum_day_power_makes_the_contours_touch():
     assert mp["check"] == "day overlap" and mp["limiting_neighbour"] == "Third"
     # 0.05 dB: the radial grid (0.1 km) and 2° bearings of the contours
     assert 10 * np.log10(mp["max_power_kw"] / p_touch) == pytest.approx(0.0, abs=0.05)
+
+
+def test_entry_into_a_night_limit_equals_halving_on_the_plain_rss():
+    # entry_scale_db slots the proposal into pre-sorted columns and searches 16 sub-intervals a
+    # round; the reference is limit_with (stacked rows, stable sort, the RSS rule as written)
+    # halved 30 times. Random limits with ties, missing values, a class level and both rules.
+    from mwreach.coverage.interference import NeighbourLimit
+
+    rng = np.random.default_rng(11)
+    for _ in range(150):
+        n, p = int(rng.integers(0, 7)), int(rng.integers(1, 30))
+        others = rng.uniform(20.0, 60.0, (n, p))
+        prop = rng.uniform(10.0, 60.0, p)
+        if rng.random() < 0.3:  # ties between the proposal and the others
+            others, prop = np.round(others / 3) * 3, np.round(prop / 3) * 3
+        others[rng.random((n, p)) < 0.1] = -np.inf
+        z = np.zeros(p)
+        lim = NeighbourLimit("N", z, z, z, z, z, np.zeros(p, bool), prop, others,
+                             float(rng.choice([-np.inf, 40.0])), int(rng.choice([0, 25, 50])))
+        lim = dataclasses.replace(lim, without_dbu=dataclasses.replace(
+            lim, proposal_dbu=np.full(p, -np.inf)).limit_with())
+
+        def raises(x):
+            return bool(np.any(lim.limit_with(x) > lim.without_dbu + 1e-9))
+
+        for x in rng.uniform(-40.0, 40.0, 8):
+            assert bool(lim._raises_at()([x])[0]) == raises(x)
+        lo, hi = -80.0, 80.0
+        if raises(lo):
+            want = lo
+        elif not raises(hi):
+            want = hi
+        else:
+            for _ in range(30):
+                mid = 0.5 * (lo + hi)
+                lo, hi = (lo, mid) if raises(mid) else (mid, hi)
+            want = lo
+        assert lim.entry_scale_db() == pytest.approx(want, abs=4e-5)  # dB, the search's step
