@@ -93,30 +93,37 @@ def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3
     are grouped by ground and done in one interpolation per ground.
     """
     d = np.asarray(dist_km, dtype=float)
-    keys, xs, ws, idx = [], [], [], []
-    grounds = {}
+    gid, xs, ws, idx = [], [], [], []  # per curve look-up: ground number, distance, weight, path
+    grounds: dict = {}  # ground key -> (number, ground)
+
+    def num(g):
+        hit = grounds.get(g.key)
+        if hit is None:
+            hit = grounds[g.key] = (len(grounds), g)
+        return hit[0]
+
     for k, (secs, dk) in enumerate(zip(paths, d)):
         _check_sections(secs)
         bounds = [sc.end_km for sc in secs[:-1] if sc.end_km < dk]
         n = len(bounds)
-        g_first, g_last = secs[0].ground, secs[n].ground
-        for g, x, w in ((g_last, dk, 0.5), (g_first, dk, 0.5)):
-            grounds[g.key] = g
-            keys.append(g.key), xs.append(x), ws.append(w), idx.append(k)
+        gid += [num(secs[n].ground), num(secs[0].ground)]
+        xs += [dk, dk]
+        ws += [0.5, 0.5]
+        idx += [k, k]
         for j, b in enumerate(bounds):
-            gj, gk = secs[j].ground, secs[j + 1].ground
-            grounds[gj.key], grounds[gk.key] = gj, gk
-            for g, x, w in ((gj, b, 0.5), (gk, b, -0.5), (gk, dk - b, 0.5), (gj, dk - b, -0.5)):
-                keys.append(g.key), xs.append(x), ws.append(w), idx.append(k)
+            gj, gk = num(secs[j].ground), num(secs[j + 1].ground)
+            gid += [gj, gk, gk, gj]
+            xs += [b, b, dk - b, dk - b]
+            ws += [0.5, -0.5, 0.5, -0.5]
+            idx += [k, k, k, k]
     out = -20 * np.log10(d)
-    if not keys:
+    if not gid:
         return out
-    xs, ws, idx = np.array(xs), np.array(ws), np.array(idx)
-    keys_arr = np.empty(len(keys), dtype=object)
-    keys_arr[:] = keys
-    for key, g in grounds.items():
-        sel = np.array([kk == key for kk in keys])
-        np.add.at(out, idx[sel], ws[sel] * model(freq_khz, g, earth_k).gain_db(xs[sel]))
+    gid, xs, ws, idx = np.array(gid), np.array(xs), np.array(ws), np.array(idx)
+    for number, g in grounds.values():
+        sel = gid == number
+        out += np.bincount(idx[sel], weights=ws[sel] * model(freq_khz, g, earth_k).gain_db(xs[sel]),
+                           minlength=out.size)
     return out
 
 

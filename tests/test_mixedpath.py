@@ -8,6 +8,7 @@ from mwreach.coverage.ground import Section, ground_class
 from mwreach.coverage.mixedpath import (
     kirke_db,
     millington_db,
+    millington_points_db,
     millington_radials_db,
     path_field_db,
 )
@@ -100,6 +101,10 @@ def test_radials_at_once_equal_one_path_at_a_time():
     grid = millington_radials_db(paths, d, F)
     one = np.array([millington_db(p, d, F) for p in paths])
     np.testing.assert_allclose(grid, one, atol=1e-9)  # dB; the same look-ups, summed in another order
+    # and one receiver per path, anywhere along it (the kernel for fields at given points)
+    dk = rng.uniform(0.5, 299.0, len(paths))
+    each = [millington_db(p, [x], F)[0] for p, x in zip(paths, dk)]
+    np.testing.assert_allclose(millington_points_db(paths, dk, F), each, atol=1e-9)  # dB, same
 
 
 def test_bad_paths():
