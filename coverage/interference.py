@@ -377,35 +377,19 @@ class NeighbourLimit:
         proposal's value is slotted into its place in every column (after equal values, as a
         stable sort of the stacked rows puts it)."""
         others = self.others_dbu if self.others_dbu is not None else np.empty((0, self.lat.size))
-        finite = np.isfinite(others)
-        lin = np.where(finite, 10 ** (np.where(finite, others, 0.0) / 20.0), 0.0)
-        srt = -np.sort(-lin, axis=0)[:, None, :]  # (n, 1, P), largest first
+        srt = -np.sort(-_dbu_to_linear(others), axis=0)[:, None, :]  # (n, 1, P), largest first
         n, _, npts = srt.shape
         rank = np.arange(n + 1)[:, None, None]
         pad = np.concatenate([srt, np.zeros((1, 1, npts))])  # value at rank r
         before = np.concatenate([np.zeros((1, 1, npts)), srt])  # value at rank r − 1
-        frac = self.exclusion_percent / 100.0
         bar = self.without_dbu + 1e-9
-        prop_ok = np.isfinite(self.proposal_dbu)
-        prop = np.where(prop_ok, self.proposal_dbu, 0.0)
 
         def raises(xs):
             xs = np.atleast_1d(np.asarray(xs, dtype=float))
-            v = np.where(prop_ok, 10 ** ((prop[None, :] + xs[:, None]) / 20.0), 0.0)  # (m, P)
+            v = _dbu_to_linear(self.proposal_dbu[None, :] + xs[:, None])  # (m, P)
             pos = (srt >= v[None]).sum(axis=0)  # the proposal's rank in each column
             seq = np.where(rank < pos, pad, np.where(rank == pos, v[None], before))
-            csum = np.cumsum(seq**2, axis=0)
-            prev = np.sqrt(np.concatenate([np.zeros((1,) + csum.shape[1:]), csum[:-1]]))
-            stop = seq <= 0
-            if frac:
-                stop |= (prev > 0) & (seq < frac * prev)
-            stop = np.concatenate([stop, np.ones((1,) + stop.shape[1:], dtype=bool)])
-            k = np.argmax(stop, axis=0)  # values kept per column
-            total = np.where(k > 0, np.sqrt(np.take_along_axis(
-                csum, np.maximum(k - 1, 0)[None], axis=0)[0]), 0.0)
-            with np.errstate(divide="ignore"):
-                limit = np.maximum(np.where(total > 0, 20 * np.log10(np.maximum(total, 1e-300)),
-                                            -np.inf), self.fixed_dbu)
+            limit = _limit_dbu(_rss_sorted(seq, self.exclusion_percent)[0], self.fixed_dbu)
             return np.any(limit > bar[None, :], axis=1)
 
         return raises
@@ -647,6 +631,35 @@ def night_contribution(tx: Station, pts_lat, pts_lon, spec, night: NightSettings
     return f[0], np.where(g[0], "ground", "sky").astype(object)
 
 
+def _rss_sorted(v, exclusion_percent: int):
+    """The RSS rule on values sorted largest first along axis 0 (any further axes are
+    columns): the RSS of each column with the exclusion rule and how many values it keeps."""
+    csum = np.cumsum(v**2, axis=0)
+    prev = np.sqrt(np.concatenate([np.zeros((1,) + v.shape[1:]), csum[:-1]]))
+    stop = v <= 0
+    if exclusion_percent:
+        stop |= (prev > 0) & (v < exclusion_percent / 100.0 * prev)
+    stop = np.concatenate([stop, np.ones((1,) + v.shape[1:], dtype=bool)])
+    k = np.argmax(stop, axis=0)  # values kept per column
+    total = np.where(k > 0, np.sqrt(np.take_along_axis(
+        csum, np.maximum(k - 1, 0)[None], axis=0)[0]), 0.0)
+    return total, k
+
+
+def _dbu_to_linear(dbu):
+    """dB values → linear (relative to 0 dB); −inf, inf and NaN (no field) give 0."""
+    dbu = np.asarray(dbu, dtype=float)
+    finite = np.isfinite(dbu)
+    return np.where(finite, 10 ** (np.where(finite, dbu, 0.0) / 20.0), 0.0)
+
+
+def _limit_dbu(total, floor_dbu):
+    """A linear RSS → dBµV/m, never below ``floor_dbu`` (−inf where nothing is kept)."""
+    with np.errstate(divide="ignore"):
+        return np.maximum(np.where(total > 0, 20 * np.log10(np.maximum(total, 1e-300)),
+                                   -np.inf), floor_dbu)
+
+
 def rss_columns(lin, exclusion_percent: int):
     """Column-wise :func:`rss` of a (n_values, n_points) array of linear values: the RSS of
     each column with the exclusion rule and the mask of the values it keeps."""
@@ -654,17 +667,8 @@ def rss_columns(lin, exclusion_percent: int):
     if lin.size == 0:
         return np.zeros(lin.shape[1:]), np.zeros(lin.shape, dtype=bool)
     order = np.argsort(-lin, axis=0, kind="stable")
-    v = np.take_along_axis(lin, order, axis=0)
-    csum = np.cumsum(v**2, axis=0)
-    prev = np.sqrt(np.vstack([np.zeros((1, v.shape[1])), csum[:-1]]))
-    stop = v <= 0
-    if exclusion_percent:
-        stop |= (prev > 0) & (v < exclusion_percent / 100.0 * prev)
-    stop = np.vstack([stop, np.ones((1, v.shape[1]), dtype=bool)])
-    k = np.argmax(stop, axis=0)  # values kept per column
-    total = np.where(k > 0, np.sqrt(np.take_along_axis(
-        csum, np.maximum(k - 1, 0)[None, :], axis=0)[0]), 0.0)
-    kept_sorted = np.arange(v.shape[0])[:, None] < k[None, :]
+    total, k = _rss_sorted(np.take_along_axis(lin, order, axis=0), exclusion_percent)
+    kept_sorted = np.arange(lin.shape[0])[:, None] < k[None, :]
     used = np.zeros(lin.shape, dtype=bool)
     np.put_along_axis(used, order, kept_sorted, axis=0)
     return total, used
@@ -680,12 +684,9 @@ def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: fl
         n_pts = prods.shape[1] if prods.ndim == 2 else 0
         return (np.full(n_pts, floor_dbu), [[] for _ in range(n_pts)],
                 [[] for _ in range(n_pts)], np.zeros(prods.shape, dtype=bool))
-    finite = np.isfinite(prods)
-    lin = np.where(finite, 10 ** (np.where(finite, prods, 0.0) / 20.0), 0.0)
+    lin = _dbu_to_linear(prods)
     total, used = rss_columns(lin, exclusion_percent)
-    with np.errstate(divide="ignore"):
-        limits = np.maximum(np.where(total > 0, 20 * np.log10(np.maximum(total, 1e-300)),
-                                     -np.inf), floor_dbu)
+    limits = _limit_dbu(total, floor_dbu)
     used_names, used_mechs = [], []
     if not want_names:
         return limits, used_names, used_mechs, used
