@@ -33,6 +33,7 @@ import numpy as np
 
 from .ground import Ground, Section
 from .groundwave import C0, model, mv_m_to_dbu
+from .mixedpath import millington_terms
 
 __all__ = ["CurveFamily", "curve_family", "Reading", "RadialFit", "fit_radial", "fit_all",
            "SIGMA_GRID_MS_M", "near_field_km", "radial_paths", "unknown_grounds",
@@ -129,38 +130,29 @@ class RadialFit:
         return float(mv_m_to_dbu(self.e0_mv_m)) + _path_db(family, paths, s, dist_km)
 
 
-def _path_db(family: CurveFamily, paths, sigma_ms_m: float, dist_km):
+def _path_db(family: CurveFamily, paths, sigma_ms_m, dist_km):
     """Field [dB re E0 at 1 km] at each distance along its path, with the unknown ground at
-    ``sigma_ms_m``. ``paths`` is None (homogeneous unknown ground) or one list of
-    (Section, unknown: bool) per distance."""
+    ``sigma_ms_m`` (one σ, or one per unknown ground when a sequence). ``paths`` is None
+    (homogeneous unknown ground) or one list of (Section, unknown number or None) per
+    distance; mixed paths follow Millington through :func:`~.mixedpath.millington_terms`."""
     d = np.atleast_1d(np.asarray(dist_km, dtype=float))
     if paths is None:
         return -20 * np.log10(d) + family.gain_db(sigma_ms_m, d)
-    out = np.empty(d.size)
-    for k, (secs, dk) in enumerate(zip(paths, d)):
-        out[k] = _millington_one(family, secs, sigma_ms_m, dk)
+    path, sec, x, w = millington_terms([[s for s, _ in p] for p in paths], d)
+    # one group per unknown ground (its σ from the family) and per known ground (its table)
+    groups: dict = {}  # label -> (number, section, unknown number or None)
+    number = np.array([groups.setdefault(("?", v) if v is not None else ("=", s.ground.key),
+                                         (len(groups), s, v))[0]
+                       for p in paths for s, v in p])[sec]
+    out = -20 * np.log10(d)
+    for num, s, v in groups.values():
+        sel = number == num
+        if v is not None:
+            g = family.gain_db(sigma_ms_m if np.ndim(sigma_ms_m) == 0 else sigma_ms_m[v], x[sel])
+        else:
+            g = model(family.freq_khz, s.ground, family.earth_k).gain_db(x[sel])
+        out += np.bincount(path[sel], weights=w[sel] * g, minlength=out.size)
     return out
-
-
-def _gain(family, sec_var, sigma, x):
-    sec, var = sec_var
-    if var is not None:  # an unknown ground: σ is a number, or one per unknown (a sequence)
-        return family.gain_db(sigma if np.ndim(sigma) == 0 else sigma[var], x)
-    return model(family.freq_khz, sec.ground, family.earth_k).gain_db(x)
-
-
-def _millington_one(family, secs, sigma, d):
-    """Millington (docs/methods.md §2) for one receiver at ``d`` with the unknown sections at
-    ``sigma``: −20 log d + ½[g_n(d) + g_1(d) + Σ_j (g_j(b_j) − g_{j+1}(b_j) + g_{j+1}(d − b_j)
-    − g_j(d − b_j))]."""
-    bounds = [s.end_km for s, _ in secs[:-1] if s.end_km < d]
-    n = len(bounds)
-    total = float(_gain(family, secs[n], sigma, d)) + float(_gain(family, secs[0], sigma, d))
-    for j, b in enumerate(bounds):
-        total += float(_gain(family, secs[j], sigma, b) - _gain(family, secs[j + 1], sigma, b)
-                       + _gain(family, secs[j + 1], sigma, d - b)
-                       - _gain(family, secs[j], sigma, d - b))
-    return -20 * math.log10(d) + 0.5 * total
 
 
 def fit_radial(name: str, readings: list, family: CurveFamily, paths=None,
@@ -349,8 +341,7 @@ def fit_combined(spec, groups: dict, eps_r: float, near_km: float) -> CombinedFi
 
     def model_db(p):
         sig = 10 ** np.asarray(p[1:])
-        return p[0] + pattern + np.array([_millington_one(family, pp, sig, dk)
-                                          for pp, dk in zip(paths, d)])
+        return p[0] + pattern + _path_db(family, paths, sig, d)
 
     lo, hi = family.log_sigma[0], family.log_sigma[-1]
     x0 = np.concatenate([[0.0], np.full(len(names), 0.5)])

@@ -23,8 +23,8 @@ from .ground import Section
 from .groundwave import GroundWaveModel, model
 
 __all__ = [
-    "METHODS", "path_field_db", "millington_db", "millington_points_db", "millington_radials_db",
-    "kirke_db",
+    "METHODS", "path_field_db", "millington_db", "millington_terms", "millington_points_db",
+    "millington_radials_db", "kirke_db",
 ]
 
 METHODS = ("millington", "kirke")
@@ -83,46 +83,58 @@ def millington_db(sections: Sequence[Section], dist_km, freq_khz: float, earth_k
     return 0.5 * (fwd + rev)
 
 
-def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
-    """Millington's field [dB re unattenuated field at 1 km] for many paths at once: path k
-    with its own ``paths[k]`` sections, to its own receiver distance ``dist_km[k]``.
+def millington_terms(paths, dist_km):
+    """Millington's field for many paths, each to its own receiver, as a sum of curve look-ups.
 
-    The same formula as :func:`millington_db`, written as a sum of curve look-ups
-    (−20·log10 D + ½·[g_n(D) + g_1(D) + Σ_j (g_j(b_j) − g_{j+1}(b_j) + g_{j+1}(D − b_j)
-    − g_j(D − b_j))], g the attenuation of a section's ground in dB); the look-ups of every path
-    are grouped by ground and done in one interpolation per ground.
+    Path k (its own sections ``paths[k]``, receiver at ``dist_km[k]``) has
+    field_k = −20·log10 D_k + ½·[g_n(D) + g_1(D) + Σ_j (g_j(b_j) − g_{j+1}(b_j) + g_{j+1}(D − b_j)
+    − g_j(D − b_j))], g a section's attenuation in dB — the formula of :func:`millington_db`.
+
+    Returns arrays (path, section, distance, weight), one entry per look-up, with ``section``
+    counting the sections of all paths in order (path 0's first, …), so that
+    field_k = −20·log10 D_k + Σ weight · g_section(distance) over the entries of path k.
+    The curves are left to the caller: known grounds use their tables, the conductivity fit
+    its family of tables.
     """
-    d = np.asarray(dist_km, dtype=float)
-    gid, xs, ws, idx = [], [], [], []  # per curve look-up: ground number, distance, weight, path
-    grounds: dict = {}  # ground key -> (number, ground)
-
-    def num(g):
-        hit = grounds.get(g.key)
-        if hit is None:
-            hit = grounds[g.key] = (len(grounds), g)
-        return hit[0]
-
+    d = np.atleast_1d(np.asarray(dist_km, dtype=float))
+    path, sec, xs, ws = [], [], [], []
+    first = 0  # number of the path's first section among all sections
     for k, (secs, dk) in enumerate(zip(paths, d)):
         _check_sections(secs)
         bounds = [sc.end_km for sc in secs[:-1] if sc.end_km < dk]
         n = len(bounds)
-        gid += [num(secs[n].ground), num(secs[0].ground)]
+        path += [k, k]
+        sec += [first + n, first]
         xs += [dk, dk]
         ws += [0.5, 0.5]
-        idx += [k, k]
         for j, b in enumerate(bounds):
-            gj, gk = num(secs[j].ground), num(secs[j + 1].ground)
-            gid += [gj, gk, gk, gj]
+            sj, sk = first + j, first + j + 1
+            path += [k, k, k, k]
+            sec += [sj, sk, sk, sj]
             xs += [b, b, dk - b, dk - b]
             ws += [0.5, -0.5, 0.5, -0.5]
-            idx += [k, k, k, k]
+        first += len(secs)
+    return (np.array(path, dtype=int), np.array(sec, dtype=int), np.array(xs, dtype=float),
+            np.array(ws, dtype=float))
+
+
+def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
+    """Millington's field [dB re unattenuated field at 1 km] for many paths at once: path k
+    with its own ``paths[k]`` sections, to its own receiver distance ``dist_km[k]``.
+
+    The look-ups of :func:`millington_terms`, grouped by ground: one interpolation per ground.
+    """
+    d = np.atleast_1d(np.asarray(dist_km, dtype=float))
     out = -20 * np.log10(d)
-    if not gid:
+    path, sec, x, w = millington_terms(paths, d)
+    if path.size == 0:
         return out
-    gid, xs, ws, idx = np.array(gid), np.array(xs), np.array(ws), np.array(idx)
-    for number, g in grounds.values():
-        sel = gid == number
-        out += np.bincount(idx[sel], weights=ws[sel] * model(freq_khz, g, earth_k).gain_db(xs[sel]),
+    grounds: dict = {}  # ground key -> (number, ground)
+    number = np.array([grounds.setdefault(sc.ground.key, (len(grounds), sc.ground))[0]
+                       for secs in paths for sc in secs])[sec]
+    for num, g in grounds.values():
+        sel = number == num
+        out += np.bincount(path[sel], weights=w[sel] * model(freq_khz, g, earth_k).gain_db(x[sel]),
                            minlength=out.size)
     return out
 
