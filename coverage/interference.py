@@ -862,15 +862,15 @@ def _day_radials(s: Station, level_mv_m: float, spec, bearings=OVERLAP_BEARINGS,
                          spec.mixed_path, spec.earth_k)
 
 
-def _onset_radials(st: Station, spec, other_lonlat):
-    """The proposal's radials toward another station's contour (2° bearings that can reach
-    it), as far as its farthest point: all that the overlap onset needs."""
+def _onset_radials(st: Station, spec, other_xy):
+    """The proposal's radials toward another station's contour (in the proposal's plane; 2°
+    bearings that can reach it), as far as its farthest point: all the overlap onset needs."""
     import shapely
 
-    brg = _bearings_toward((st.lat, st.lon), other_lonlat)
+    brg = _bearings_toward(other_xy)
     if brg.size == 0:
         return None
-    xy = shapely.get_coordinates(local_projection(st.lat, st.lon).geom_to_xy(other_lonlat))
+    xy = shapely.get_coordinates(other_xy)
     far = float(np.hypot(xy[:, 0], xy[:, 1]).max()) + 1.0
     return _day_radials(st, 0.0, spec, brg, max_km=far)
 
@@ -884,13 +884,11 @@ def _day_polygon(s: Station, level_mv_m: float, spec):
     return level_contour(rad, level_mv_m, "", local_projection(s.lat, s.lon)).polygon_lonlat, rad
 
 
-def _bearings_toward(site, other_lonlat, bearings=OVERLAP_BEARINGS):
-    """The bearings of ``bearings`` (plus one on each side) that can reach a geometry, seen from
-    ``site``; all of them when the geometry surrounds the site."""
+def _bearings_toward(g, bearings=OVERLAP_BEARINGS):
+    """The bearings of ``bearings`` (plus one on each side) that can reach a geometry in a
+    site's plane, seen from the site; all of them when the geometry surrounds the site."""
     import shapely
 
-    proj = local_projection(*site)
-    g = proj.geom_to_xy(other_lonlat)
     if g.is_empty:
         return np.array([])
     if g.contains(shapely.Point(0.0, 0.0)) or g.distance(shapely.Point(0.0, 0.0)) < 1e-6:
@@ -907,16 +905,15 @@ def _bearings_toward(site, other_lonlat, bearings=OVERLAP_BEARINGS):
     return np.asarray(bearings, dtype=float)[rel <= span + 2 * step]
 
 
-def _overlap_area(own_rad, own_site, level_dbu: float, other_lonlat):
+def _overlap_area(own_rad, proj, level_dbu: float, other_xy):
     """Overlap [km², geodesic] of the proposal's contour at ``level_dbu`` (from its radial
-    fields) with another station's contour (lon/lat), and a point in each overlapping part."""
+    fields) with another station's contour (both in the proposal's plane ``proj``), and a point
+    in each overlapping part (lat, lon)."""
     import shapely
 
     from .geodesy import xy_to_lonlat_geometry
 
-    proj = local_projection(*own_site)
     own_xy = polar_region(own_rad.bearings_deg, own_rad.dist_km, own_rad.field_dbu, level_dbu)
-    other_xy = proj.geom_to_xy(other_lonlat)
     if own_xy.is_empty or other_xy.is_empty:
         return 0.0, ()
     inter = own_xy.intersection(other_xy)
@@ -932,15 +929,13 @@ def _overlap_area(own_rad, own_site, level_dbu: float, other_lonlat):
     return area, tuple(pts)
 
 
-def _overlap_onset_dbu(own_rad, own_site, other_lonlat):
+def _overlap_onset_dbu(own_rad, other_xy):
     """The strongest own field [dBµV/m] at the points where the own radials first enter another
-    station's contour (ray cast against its polygon in the own plane); None if no radial
-    reaches it. The own contour overlaps the other one exactly when its level is at or below
-    this value."""
+    station's contour (``other_xy``, in the own plane; ray cast against its polygon); None if
+    no radial reaches it. The own contour overlaps the other one exactly when its level is at
+    or below this value."""
     from .ground import ray_intervals
 
-    proj = local_projection(*own_site)
-    other_xy = proj.geom_to_xy(other_lonlat)
     end = float(own_rad.dist_km[-1])
     best = None
     for i, a, _e in ray_intervals(other_xy, own_rad.bearings_deg, end):
@@ -1071,21 +1066,22 @@ class NeighbourChecks:
                              for b, a, o, x in zip(nb, nlat, nlon, u) if np.isfinite(x)]
         overlaps, overlap_power = [], None
         own_rad = None
+        own_proj = local_projection(st.lat, st.lon)
         for n, off in self.overlap_ok:
             own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
             lvl = float(mv_m_to_dbu(own_mv))
-            other = self.overlap_polygons[n.name]
+            other = own_proj.geom_to_xy(self.overlap_polygons[n.name])  # once per neighbour
             if overlap_area:
                 if own_rad is None:
                     own_rad = _day_radials(st, min(r[0] for r in OVERLAP_RULES.values()), spec)
-                area, points = _overlap_area(own_rad, (st.lat, st.lon), lvl, other)
+                area, points = _overlap_area(own_rad, own_proj, lvl, other)
             else:
                 area, points = float("nan"), ()
             overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
             # the day power at which the overlap begins: the largest own field where a radial
             # first enters the other contour, against the level (fields ∝ √P)
             rad = _onset_radials(st, spec, other)
-            onset = _overlap_onset_dbu(rad, (st.lat, st.lon), other) if rad is not None else None
+            onset = _overlap_onset_dbu(rad, other) if rad is not None else None
             if onset is not None:
                 p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
                 if overlap_power is None or p_max < overlap_power[0]:
