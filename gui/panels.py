@@ -364,12 +364,17 @@ class NeighboursEditor(_TableEditor):
     def __init__(self, document, parent=None):
         super().__init__(document, parent)
         lay = self.layout()
-        lay.insertWidget(0, QLabel("Neighbours in the study file (edit a cell; a row is used once "
-                                   "it is complete):"))
+        intro = QLabel("Neighbours in the study file (edit a cell; a row is used once it is "
+                       "complete):")
+        intro.setWordWrap(True)  # long labels must not widen the tab past the dock
+        lay.insertWidget(0, intro)
         self.csv_label = QLabel()
+        self.csv_label.setWordWrap(True)
         self.csv_table = QTableWidget(0, 6)
         self.csv_table.setHorizontalHeaderLabels(["Name", "kHz", "Lat", "Lon", "Day kW", "Night kW"])
-        self.csv_table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        header = self.csv_table.horizontalHeader()
+        header.setSectionResizeMode(QHeaderView.ResizeToContents)
+        header.setSectionResizeMode(0, QHeaderView.Stretch)  # names get the room that is left
         self.csv_table.setEditTriggers(QTableWidget.NoEditTriggers)
         self.import_btn = QPushButton("Import neighbours CSV…")
         self.import_btn.clicked.connect(self._import)
