@@ -463,8 +463,11 @@ def _page_night(doc: _Doc, result, with_ratios: bool = True):
 
     y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Worst D/U margin per neighbour",
                   9.5, bold=True) + 2 * PT
-    cols = [("Neighbour", 0.2), ("Check", 0.16), ("Offset", 0.06), ("Ratio dB", 0.07),
-            ("Worst margin", 0.15), ("By", 0.1), ("Result", 0.08), ("At (lat, lon)", 0.18)]
+    summary = [(row, summary_cells(row)) for row in inter.neighbour_summary()]
+    table = [[row["neighbour"], row["kind"], c["offset"], c["ratio"], c["value"], c["by"],
+              c["result"], c["at"]] for row, c in summary]
+    cols = _fit_columns(doc, ["Neighbour", "Check", "Offset", "Ratio dB", "Worst margin", "By",
+                              "Result", "At (lat, lon)"], table, page.width(), 7.5)
     x = page.left()
     doc.font(7.5, True)
     p.setPen(Qt.black)
@@ -474,12 +477,9 @@ def _page_night(doc: _Doc, result, with_ratios: bool = True):
     y += 12 * PT
     p.setPen(QPen(Qt.black, 0.6 * PT))
     p.drawLine(QPointF(page.left(), y), QPointF(page.right(), y))
-    for k, row in enumerate(inter.neighbour_summary()):
+    for k, ((row, _c), vals) in enumerate(zip(summary, table)):
         if k % 2 == 0:
             p.fillRect(QRectF(page.left(), y, page.width(), 10 * PT), QColor(242, 242, 242))
-        c = summary_cells(row)
-        vals = [row["neighbour"], row["kind"], c["offset"], c["ratio"], c["value"], c["by"],
-                c["result"], c["at"]]
         x = page.left()
         doc.font(7.5, not row["passed"])
         for (_name, w), v in zip(cols, vals):
@@ -491,6 +491,20 @@ def _page_night(doc: _Doc, result, with_ratios: bool = True):
     if with_ratios:
         y = _ratios_and_notes(doc, result, y)
         _boxed(doc, QRectF(page.left(), y, page.width(), 300 * PT), "Cautions", CAUTIONS)
+
+
+def _fit_columns(doc: _Doc, headers, rows, width: float, pt: float):
+    """(header, share of ``width``) per column: each column as wide as its longest text in bold
+    (a failed row is bold) plus a gap, the room left over shared in proportion."""
+    from PySide6.QtGui import QFontMetricsF
+
+    fm = QFontMetricsF(doc.font(pt, True))
+    gap = 6 * PT
+    need = [max([fm.horizontalAdvance(h)] + [fm.horizontalAdvance(str(r[i])) for r in rows]) + gap
+            for i, h in enumerate(headers)]
+    total = sum(need)
+    scale = width / total  # > 1 shares the spare room; < 1 (too narrow) shrinks all alike
+    return [(h, n * scale / width) for h, n in zip(headers, need)]
 
 
 def write_sheet(result, path, paper: str | None = None, orientation: str | None = None) -> int:

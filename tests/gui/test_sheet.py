@@ -229,3 +229,30 @@ def test_map_labels_stay_inside_the_frame_and_apart(demo_result):
         for i in range(len(boxes)):
             for j in range(i + 1, len(boxes)):
                 assert not boxes[i].intersects(boxes[j]), (labels.texts[i], labels.texts[j])
+
+
+def test_margin_table_columns_hold_their_widest_bold_text(tmp_path):
+    # a failed row is bold; its "ground wave" once ran into "FAILS" in fixed-share columns
+    from PySide6.QtCore import QBuffer, QByteArray, QIODevice
+    from PySide6.QtGui import QFontMetricsF
+
+    from mwreach.gui.qt import ensure_app
+    from mwreach.gui.sheet import _Doc, _fit_columns
+
+    ensure_app()
+    data = QByteArray()  # kept alive until the painter ends
+    buf = QBuffer(data)
+    buf.open(QIODevice.WriteOnly)
+    doc = _Doc(buf, "A4", "portrait", "t")
+    headers = ["Neighbour", "Check", "By", "Result"]
+    rows = [["Harrowgate Clear Channel", "night limit entry", "ground wave", "FAILS"],
+            ["A", "day overlap", "sky wave", "pass"]]
+    width = doc.page.width()
+    cols = _fit_columns(doc, headers, rows, width, 7.5)
+    fm = QFontMetricsF(doc.font(7.5, True))
+    assert sum(w for _, w in cols) == pytest.approx(1.0)
+    for i, (_, share) in enumerate(cols):
+        widest = max(fm.horizontalAdvance(t) for t in [headers[i]] + [r[i] for r in rows])
+        assert share * width > widest
+    doc.painter.end()
+    buf.close()
