@@ -114,7 +114,7 @@ def radial_fields(
     d = distance_grid(freq_khz, max_km, step_km)
     sections = ground_map.radial_sections(lat, lon, bearings, max_km)
     out = np.empty((bearings.size, d.size))
-    for g in {s.ground.key: s.ground for secs in sections for s in secs}.values():
+    for g in sections.grounds:
         _ = model(freq_khz, g, earth_k).table  # build each curve once, up front
     if method == "millington":  # all radials in one grouped look-up per ground
         out[:] = millington_radials_db(sections, d, freq_khz, earth_k) + mv_m_to_dbu(e1)[:, None]

@@ -13,8 +13,8 @@ import numpy as np
 
 from .validate import check_finite
 
-__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "GroundMap",
-           "ray_intervals", "ray_intervals_many"]
+__all__ = ["Ground", "GROUND_CLASSES", "ground_class", "Zone", "Section", "SectionTable",
+           "GroundMap", "ray_intervals", "ray_intervals_many"]
 
 # Validity window of the ground-wave method (ITU-R P.368 covers 10 kHz to 30 MHz).
 SIGMA_RANGE_MS_M = (1e-4, 1e7)  # from very dry ice to (practically) a perfect conductor
@@ -128,11 +128,19 @@ def ray_intervals(geom_xy, bearings_deg, max_km: float):
 def ray_intervals_many(geoms_xy, bearings_deg, max_km: float):
     """:func:`ray_intervals` for several (multi)polygons in one cast: (radial index, polygon
     index, start, end), the even-odd rule applied to each polygon on its own."""
+    r, z, a, e = _ray_interval_arrays(geoms_xy, bearings_deg, max_km)
+    return list(zip(r.tolist(), z.tolist(), a.tolist(), e.tolist()))
+
+
+def _ray_interval_arrays(geoms_xy, bearings_deg, max_km: float):
+    """:func:`ray_intervals_many` as four arrays (radial, polygon, start, end), ordered by
+    radial, then polygon, then start."""
+    none = (np.empty(0, dtype=int), np.empty(0, dtype=int), np.empty(0), np.empty(0))
     b = np.mod(np.atleast_1d(np.asarray(bearings_deg, dtype=float)), 360.0)
     tables = [_edge_table(g) if g is not None and not g.is_empty else None for g in geoms_xy]
     nz = len(tables)
     if b.size == 0 or all(t is None or t[0].shape[0] == 0 for t in tables):
-        return []
+        return none
     empty = (np.empty((0, 4)), np.empty(0), np.empty(0), False)
     tables = [t if t is not None else empty for t in tables]
     e = np.vstack([t[0] for t in tables])
@@ -188,7 +196,7 @@ def ray_intervals_many(geoms_xy, bearings_deg, max_km: float):
     g = grp[start]
     keep = (a < max_km) & (z - a > 1e-9)
     g = g[keep]
-    return list(zip((g // nz).tolist(), (g % nz).tolist(), a[keep].tolist(), z[keep].tolist()))
+    return g // nz, g % nz, a[keep], z[keep]
 
 
 _EDGE_CACHE: dict = {}
@@ -238,6 +246,80 @@ class Section:
     start_km: float
     end_km: float
     ground: Ground
+
+
+class SectionTable:
+    """The ground sections of many paths in flat arrays: path k has the sections
+    ``ptr[k] .. ptr[k + 1] - 1``, each from ``start_km`` to ``end_km`` on ``grounds[ground]``.
+
+    Reads like a list of :class:`Section` lists (``table[k]``, ``len``, iteration), so callers
+    that walk one path's sections are unchanged, while the batch kernels of
+    :mod:`~.mixedpath` use the arrays directly.
+    """
+
+    __slots__ = ("ptr", "start_km", "end_km", "ground", "grounds")
+
+    def __init__(self, ptr, start_km, end_km, ground, grounds):
+        self.ptr = np.asarray(ptr, dtype=np.intp)
+        self.start_km = np.asarray(start_km, dtype=float)
+        self.end_km = np.asarray(end_km, dtype=float)
+        self.ground = np.asarray(ground, dtype=np.intp)
+        self.grounds = list(grounds)
+
+    @classmethod
+    def of(cls, paths) -> SectionTable:
+        """A table from one list of :class:`Section` per path (a table is returned as is)."""
+        if isinstance(paths, SectionTable):
+            return paths
+        grounds: dict = {}
+        ptr, start, end, gnum = [0], [], [], []
+        for secs in paths:
+            for sc in secs:
+                start.append(sc.start_km)
+                end.append(sc.end_km)
+                gnum.append(grounds.setdefault(id(sc.ground), (len(grounds), sc.ground))[0])
+            ptr.append(len(start))
+        return cls(ptr, start, end, gnum, [g for _, g in grounds.values()])
+
+    def __len__(self):
+        return self.ptr.size - 1
+
+    def __getitem__(self, k):
+        if isinstance(k, slice):
+            return [self[i] for i in range(*k.indices(len(self)))]
+        n = len(self)
+        if k < 0:
+            k += n
+        if not 0 <= k < n:
+            raise IndexError(k)
+        a, b = int(self.ptr[k]), int(self.ptr[k + 1])
+        return [Section(float(self.start_km[i]), float(self.end_km[i]),
+                        self.grounds[int(self.ground[i])]) for i in range(a, b)]
+
+    def __iter__(self):
+        return (self[k] for k in range(len(self)))
+
+    def keys(self):
+        """(number of distinct grounds, the distinct-ground number of each section, one
+        Ground per number): grounds equal in what the physics depends on share a number."""
+        seen: dict = {}
+        per = np.array([seen.setdefault(g.key, (len(seen), g))[0] for g in self.grounds],
+                       dtype=np.intp)
+        return len(seen), per[self.ground], [g for _, g in seen.values()]
+
+    def check(self):
+        """Raise ValueError unless every path starts at 0 km and its sections are contiguous
+        and of positive length (as :class:`Section` lists must be)."""
+        counts = np.diff(self.ptr)
+        if np.any(counts < 1):
+            raise ValueError("a path needs at least one ground section")
+        if np.any(self.start_km[self.ptr[:-1]] != 0.0):
+            raise ValueError("the first section must start at the transmitter (0 km)")
+        inner = np.ones(self.start_km.size, dtype=bool)
+        inner[self.ptr[:-1]] = False  # each path's first section has no predecessor
+        if np.any(np.abs(self.end_km[:-1][inner[1:]] - self.start_km[1:][inner[1:]]) > 1e-9) \
+                or np.any(self.end_km[inner] <= self.start_km[inner]):
+            raise ValueError("sections must be contiguous and of positive length")
 
 
 class GroundMap:
@@ -328,42 +410,49 @@ class GroundMap:
 
         Returns
         -------
-        list (one per bearing) of lists of :class:`Section`
+        :class:`SectionTable`: per bearing, a list of :class:`Section`
         """
         from .geodesy import local_projection
 
         check_finite("max_km", max_km, 0.0, 20_000.0, low_open=True)
         bearings = np.atleast_1d(np.asarray(bearings_deg, dtype=float))
         proj = local_projection(float(lat), float(lon))
-        # intervals[i] = list of (start, end, zone index) in priority order
-        intervals = [[] for _ in bearings]
         with self._lock:
             zones_xy = self.zones_xy(proj)
-            for i, zi, a, e in ray_intervals_many(zones_xy, bearings, max_km):
-                intervals[i].append((a, e, zi + 1))
-        grounds = self.grounds
-        gkeys = [g.key for g in grounds]
-        whole = [Section(0.0, float(max_km), grounds[0])]
-        out = []
-        for ivs in intervals:
-            if not ivs:  # the radial stays on the default ground
-                out.append(list(whole))
-                continue
-            cuts = sorted({0.0, float(max_km), *(v for a, e, _ in ivs for v in (a, e))})
-            secs: list[Section] = []
-            last_key = None
-            for a, e in zip(cuts[:-1], cuts[1:]):
-                if e - a <= 1e-9:
-                    continue
-                mid = 0.5 * (a + e)
-                zone = 0
-                for s0, s1, zi in ivs:  # later zones win
-                    if s0 <= mid <= s1:
-                        zone = zi
-                if secs and gkeys[zone] == last_key:
-                    secs[-1] = Section(secs[-1].start_km, e, secs[-1].ground)
-                else:
-                    secs.append(Section(a, e, grounds[zone]))
-                    last_key = gkeys[zone]
-            out.append(secs)
-        return out
+            rr, zz, aa, ee = _ray_interval_arrays(zones_xy, bearings, max_km)
+        return _sections_from_intervals(bearings.size, rr, zz + 1, aa, ee, float(max_km),
+                                        self.grounds)
+
+
+def _sections_from_intervals(n: int, rr, zz, aa, ee, max_km: float, grounds) -> SectionTable:
+    """Sections of ``n`` radials to ``max_km`` from the stretches (radial ``rr``, zone
+    ``zz`` ≥ 1, ``aa`` .. ``ee``) inside the zones: the radial is cut at every stretch end,
+    each piece takes the last zone (in priority order) covering its middle, or the default
+    ground 0, and neighbouring pieces of equal ground are merged. Pieces of 1e-9 km or less are
+    dropped, so a section may end up to 1e-9 km before the next one starts."""
+    radial = np.concatenate([np.arange(n), np.arange(n), rr, rr])
+    cut = np.concatenate([np.zeros(n), np.full(n, max_km), aa, ee])
+    order = np.lexsort((cut, radial))
+    radial, cut = radial[order], cut[order]
+    piece = (radial[1:] == radial[:-1]) & (cut[1:] - cut[:-1] > 1e-9)
+    r, a, e = radial[:-1][piece], cut[:-1][piece], cut[1:][piece]
+    mid = 0.5 * (a + e)
+    zone = np.zeros(r.size, dtype=np.intp)
+    span = max_km + 1.0  # stretches of radial k lie in [k·span, k·span + max_km] on one axis
+    q = r * span + mid
+    for z in np.unique(zz):  # ascending: later zones win
+        sel = zz == z
+        lo = np.sort(rr[sel] * span + aa[sel])
+        hi = np.sort(rr[sel] * span + ee[sel])
+        # stretches of one zone on one radial are disjoint: the middle is inside one of them
+        # when more of them start at or before it than end before it
+        inside = np.searchsorted(lo, q, "right") - np.searchsorted(hi, q, "left") > 0
+        zone[inside] = z
+    keys: dict = {}
+    kid = np.array([keys.setdefault(g.key, len(keys)) for g in grounds], dtype=np.intp)[zone]
+    first = np.ones(r.size, dtype=bool)
+    first[1:] = (r[1:] != r[:-1]) | (kid[1:] != kid[:-1])
+    at = np.flatnonzero(first)
+    last = np.append(at[1:] - 1, r.size - 1)  # the last piece of each merged section
+    ptr = np.searchsorted(r[at], np.arange(n + 1))
+    return SectionTable(ptr, a[at], e[last], zone[at], grounds)

@@ -608,12 +608,17 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
         t = txs[i]
         need = np.flatnonzero(bound[i] > sky[i])
         secs = spec.ground.radial_sections(t.lat, t.lon, az[i][need], float(d[i][need].max()) + 1.0)
-        best_on_path = [max((sc.ground for sc in sec), key=lambda g: g.sigma_ms_m)
-                        for sec in secs]
+        # the best ground on each path (the first of equal conductivity, as max() picks)
+        sig = np.array([g.sigma_ms_m for g in secs.grounds])[secs.ground]
+        owner = np.repeat(np.arange(len(secs)), np.diff(secs.ptr))
+        top = np.full(len(secs), -np.inf)
+        np.maximum.at(top, owner, sig)
+        pick = np.flatnonzero(sig == top[owner])
+        best_on_path = secs.ground[pick[np.searchsorted(owner[pick], np.arange(len(secs)))]]
         tight = np.empty(need.size)
-        for g in {g.key: g for g in best_on_path}.values():
-            sel = np.array([b.key == g.key for b in best_on_path])
-            tight[sel] = model(t.freq_khz, g, spec.earth_k).curve_db(d[i][need[sel]])
+        for gi in np.unique(best_on_path):
+            sel = best_on_path == gi
+            tight[sel] = model(t.freq_khz, secs.grounds[gi], spec.earth_k).curve_db(d[i][need[sel]])
         need = need[tight + mv_m_to_dbu(e_max[i]) > sky[i][need]]
         if need.size:
             ground[i, need] = point_ground_dbu(t.freq_khz, spec.ground, t.lat, t.lon, t.antenna,

@@ -19,7 +19,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from .ground import Section
+from .ground import Section, SectionTable
 from .groundwave import GroundWaveModel, model
 
 __all__ = [
@@ -90,125 +90,154 @@ def millington_terms(paths, dist_km):
     field_k = −20·log10 D_k + ½·[g_n(D) + g_1(D) + Σ_j (g_j(b_j) − g_{j+1}(b_j) + g_{j+1}(D − b_j)
     − g_j(D − b_j))], g a section's attenuation in dB — the formula of :func:`millington_db`.
 
-    Returns arrays (path, section, distance, weight), one entry per look-up, with ``section``
-    counting the sections of all paths in order (path 0's first, …), so that
+    ``paths`` is a :class:`~.ground.SectionTable` or one list of sections per path. Returns
+    arrays (path, section, distance, weight), one entry per look-up, with ``section`` counting
+    the sections of all paths in order (path 0's first, …), so that
     field_k = −20·log10 D_k + Σ weight · g_section(distance) over the entries of path k.
     The curves are left to the caller: known grounds use their tables, the conductivity fit
     its family of tables.
     """
+    t = SectionTable.of(paths)
+    t.check()
     d = np.atleast_1d(np.asarray(dist_km, dtype=float))
-    path, sec, xs, ws = [], [], [], []
-    first = 0  # number of the path's first section among all sections
-    for k, (secs, dk) in enumerate(zip(paths, d)):
-        _check_sections(secs)
-        bounds = [sc.end_km for sc in secs[:-1] if sc.end_km < dk]
-        n = len(bounds)
-        path += [k, k]
-        sec += [first + n, first]
-        xs += [dk, dk]
-        ws += [0.5, 0.5]
-        for j, b in enumerate(bounds):
-            sj, sk = first + j, first + j + 1
-            path += [k, k, k, k]
-            sec += [sj, sk, sk, sj]
-            xs += [b, b, dk - b, dk - b]
-            ws += [0.5, -0.5, 0.5, -0.5]
-        first += len(secs)
-    return (np.array(path, dtype=int), np.array(sec, dtype=int), np.array(xs, dtype=float),
-            np.array(ws, dtype=float))
+    n = len(t)
+    if d.size != n:
+        raise ValueError(f"one receiver distance per path is needed ({d.size} for {n} paths)")
+    first = t.ptr[:-1]
+    owner = np.repeat(np.arange(n), np.diff(t.ptr))  # the path of each section
+    # boundaries: the end of every section but each path's last, where it lies before D
+    inner = np.ones(t.end_km.size, dtype=bool)
+    inner[t.ptr[1:] - 1] = False
+    j = np.flatnonzero(inner & (t.end_km < d[owner]))
+    b, k = t.end_km[j], owner[j]
+    receiver = first + np.bincount(k, minlength=n)  # the section that holds D
+    dk = d[k]
+    path = np.concatenate([np.arange(n), np.arange(n), np.repeat(k, 4)])
+    sec = np.concatenate([receiver, first, np.column_stack([j, j + 1, j + 1, j]).ravel()])
+    x = np.concatenate([d, d, np.column_stack([b, b, dk - b, dk - b]).ravel()])
+    w = np.concatenate([np.full(2 * n, 0.5), np.tile([0.5, -0.5, 0.5, -0.5], j.size)])
+    return path, sec, x, w
+
+
+_STACKS: dict = {}
+
+
+def _stacked_tables(grounds, freq_khz: float, earth_k: float):
+    """(log10 d grid, (G, N) attenuations [dB], {(i, j): half the difference of curves i and j})
+    of the grounds' cached curves, which all share one geometric distance grid; kept per
+    (frequency, earth factor, grounds), the differences filled in as they are asked for."""
+    key = (float(freq_khz), float(earth_k), tuple(g.key for g in grounds))
+    hit = _STACKS.get(key)
+    if hit is None:
+        tabs = [model(freq_khz, g, earth_k).table for g in grounds]
+        logd = tabs[0][0]
+        for other, _ in tabs[1:]:
+            if other is not logd and not np.array_equal(other, logd):
+                raise RuntimeError("curve tables on different distance grids")
+        if len(_STACKS) > 256:
+            _STACKS.clear()
+        hit = _STACKS[key] = (logd, np.vstack([att for _, att in tabs]), {})
+    return hit
+
+
+def _lookup(logd, att, row, x):
+    """``att[row]`` interpolated linearly in log10 distance at ``x`` [km] (0 dB at and below the
+    table's first distance, the last value beyond its end): np.interp per element, on the
+    uniform log grid of the curve tables, so many curves are read in one pass."""
+    n = logd.size
+    with np.errstate(divide="ignore"):
+        lx = np.log10(x)
+    step = (logd[-1] - logd[0]) / (n - 1)
+    i = np.clip(np.floor((lx - logd[0]) / step).astype(np.intp), 0, n - 2)
+    frac = np.clip((lx - logd[i]) / (logd[i + 1] - logd[i]), 0.0, 1.0)
+    flat = att.reshape(-1)
+    at = row * n + i
+    out = flat[at] + frac * (flat[at + 1] - flat[at])
+    return np.where(lx < logd[0], 0.0, out)
 
 
 def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
     """Millington's field [dB re unattenuated field at 1 km] for many paths at once: path k
     with its own ``paths[k]`` sections, to its own receiver distance ``dist_km[k]``.
 
-    The look-ups of :func:`millington_terms`, grouped by ground: one interpolation per ground.
+    The look-ups of :func:`millington_terms`, all read from the stacked curve tables in one
+    pass.
     """
+    t = SectionTable.of(paths)
     d = np.atleast_1d(np.asarray(dist_km, dtype=float))
     out = -20 * np.log10(d)
-    path, sec, x, w = millington_terms(paths, d)
+    path, sec, x, w = millington_terms(t, d)
     if path.size == 0:
         return out
-    grounds: dict = {}  # ground key -> (number, ground)
-    number = np.array([grounds.setdefault(sc.ground.key, (len(grounds), sc.ground))[0]
-                       for secs in paths for sc in secs])[sec]
-    for num, g in grounds.values():
-        sel = number == num
-        out += np.bincount(path[sel], weights=w[sel] * model(freq_khz, g, earth_k).gain_db(x[sel]),
-                           minlength=out.size)
-    return out
+    _, gnum, grounds = t.keys()
+    logd, att, _ = _stacked_tables(grounds, freq_khz, earth_k)
+    return out + np.bincount(path, weights=w * _lookup(logd, att, gnum[sec], x),
+                             minlength=out.size)
 
 
 def millington_radials_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
     """Millington's field [dB re unattenuated field at 1 km] on many radials at once:
-    (n_paths, n_dist) for the sections ``paths[k]`` of each radial and one shared, increasing
-    distance grid.
+    (n_paths, n_dist) for the sections ``paths[k]`` of each radial (a
+    :class:`~.ground.SectionTable` or lists of sections) and one shared, increasing distance
+    grid.
 
-    The same sums as :func:`millington_db`, regrouped so that every curve look-up of every
-    radial on one ground is a single interpolation (the per-study speed path; the two agree to
-    rounding). Distances equal to a boundary count as inside the nearer section, as there.
+    The same sums as :func:`millington_db`, regrouped into whole-array operations (the
+    per-study speed path; the two agree to rounding). Distances equal to a boundary count as
+    inside the nearer section, as there.
     """
     d = np.asarray(dist_km, dtype=float)
     nd = d.size
     if nd > 1 and np.any(np.diff(d) <= 0):
         raise ValueError("dist_km must be increasing for millington_radials_db")
-    n = len(paths)
-    out = np.tile(-20 * np.log10(d), (n, 1))
-    jumps = np.zeros((n, nd + 1))  # cumulative-sum deltas for the forward boundary jumps
-    # Curve look-ups at the grid distances themselves are shared by every radial (one per
-    # ground); those at D − b (the reverse terms) are gathered per pair of grounds as runs
-    # (row, first cell, boundary) and done in one interpolation per ground of the pair, on one
-    # shared log10(D − b). The forward jumps are one look-up per boundary, spread along the row
-    # by a cumulative sum.
-    on_grid: dict = {}
-    pair_runs: dict = {}
-    jump_runs: dict = {}
-    grounds: dict = {}
-
-    def at_grid(g):
-        if g.key not in on_grid:
-            on_grid[g.key] = 0.5 * model(freq_khz, g, earth_k).gain_db(d)
-        return on_grid[g.key]
-
-    for k, secs in enumerate(paths):
-        _check_sections(secs)
-        row = out[k]
-        # where each section's cells end: d ≤ b lies in the section that ends at b
-        ends = np.searchsorted(d, [sc.end_km for sc in secs[:-1]], side="right").tolist()
-        start = 0
-        for i, sc in enumerate(secs):
-            stop = ends[i] if i < len(ends) else nd
-            if stop > start:
-                row[start:stop] += at_grid(sc.ground)[start:stop]  # forward, receiver's section
-            start = max(start, stop)
-        row += at_grid(secs[0].ground)  # reverse, the first section
-        for j, k0 in enumerate(ends):
-            if k0 >= nd:
-                break
-            b = secs[j].end_km
-            gj, gk = secs[j].ground, secs[j + 1].ground
-            grounds[gj.key], grounds[gk.key] = gj, gk
-            pair_runs.setdefault((gk.key, gj.key), []).append((k, k0, b))  # reverse at D − b
-            for g, w in ((gj, 0.5), (gk, -0.5)):  # forward jump at b, beyond b
-                jump_runs.setdefault(g.key, []).append((k * (nd + 1) + k0, b, w))
-    flat_out = out.reshape(-1)
-    for (plus, minus), rows in pair_runs.items():
-        row, first, b = (np.array(c) for c in zip(*rows))
-        length = nd - first
-        which = np.repeat(np.arange(length.size), length)
-        cell = np.arange(which.size) - np.repeat(np.cumsum(length) - length, length) + first[which]
+    t = SectionTable.of(paths)
+    t.check()
+    n = len(t)
+    ng, gnum, grounds = t.keys()
+    logd, att, halfdiff = _stacked_tables(grounds, freq_khz, earth_k)
+    # half the attenuation of each ground at the grid distances: (ng, nd)
+    half = 0.5 * _lookup(logd, att, np.repeat(np.arange(ng), nd), np.tile(d, ng)).reshape(ng, nd)
+    first = t.ptr[:-1]
+    owner = np.repeat(np.arange(n), np.diff(t.ptr))
+    inner = np.ones(t.end_km.size, dtype=bool)
+    inner[t.ptr[1:] - 1] = False
+    j = np.flatnonzero(inner)  # boundaries: section j ends where section j + 1 starts
+    k, b = owner[j], t.end_km[j]
+    cell0 = np.searchsorted(d, b, side="right")  # first grid cell beyond the boundary (D > b)
+    j, k, b, cell0 = (v[cell0 < nd] for v in (j, k, b, cell0))
+    # forward, the receiver's own section: its ground number per cell, by a running sum of
+    # the changes at each boundary
+    width = nd + 1
+    change = np.bincount(np.concatenate([np.arange(n) * width, k * width + cell0]),
+                         weights=np.concatenate([gnum[first], gnum[j + 1] - gnum[j]]),
+                         minlength=n * width).reshape(n, width)
+    own = np.rint(np.cumsum(change, axis=1)[:, :nd]).astype(np.intp)
+    cols = np.arange(nd)
+    out = -20 * np.log10(d) + half[own, cols] + half[gnum[first]]  # … and reverse, first section
+    # forward jumps at each boundary, carried to every cell beyond it
+    if j.size:
+        jump = 0.5 * (_lookup(logd, att, gnum[j], b) - _lookup(logd, att, gnum[j + 1], b))
+        steps = np.bincount(k * width + cell0, weights=jump, minlength=n * width)
+        out += np.cumsum(steps.reshape(n, width), axis=1)[:, :nd]
+        # reverse terms at D − b for every cell beyond each boundary, one interpolation per
+        # pair of grounds on the difference of their curves (the runs of one boundary are in
+        # increasing distance, which np.interp reads fastest)
+        pair = gnum[j + 1] * ng + gnum[j]
+        order = np.argsort(pair, kind="stable")
+        j, k, b, cell0, pair = j[order], k[order], b[order], cell0[order], pair[order]
+        length = nd - cell0
+        which = np.repeat(np.arange(j.size), length)
+        cell = np.arange(which.size) - np.repeat(np.cumsum(length) - length, length) + cell0[which]
         logx = np.log10(d[cell] - b[which])  # D > b in every such cell
-        g = 0.0
-        for key, w in ((plus, 0.5), (minus, -0.5)):
-            logd, att_db = model(freq_khz, grounds[key], earth_k).table
-            g = g + w * np.interp(logx, logd, att_db, left=0.0)
-        flat_out += np.bincount(row[which] * nd + cell, weights=g, minlength=flat_out.size)
-    flat_jumps = jumps.reshape(-1)
-    for key, rows in jump_runs.items():
-        at, b, w = (np.array(c) for c in zip(*rows))
-        g = model(freq_khz, grounds[key], earth_k).gain_db(b)
-        flat_jumps += np.bincount(at, weights=w * g, minlength=flat_jumps.size)
-    out += np.cumsum(jumps, axis=1)[:, :nd]
+        g = np.empty(logx.size)
+        ends = np.concatenate([[0], np.cumsum(length)])
+        cuts = np.flatnonzero(np.diff(pair)) + 1
+        for lo, hi in zip(np.concatenate([[0], cuts]), np.concatenate([cuts, [j.size]])):
+            pm = divmod(int(pair[lo]), ng)
+            table = halfdiff.get(pm)
+            if table is None:
+                table = halfdiff[pm] = 0.5 * (att[pm[0]] - att[pm[1]])
+            g[ends[lo]:ends[hi]] = np.interp(logx[ends[lo]:ends[hi]], logd, table, left=0.0)
+        out += np.bincount(k[which] * nd + cell, weights=g, minlength=n * nd).reshape(n, nd)
     return out
 
 

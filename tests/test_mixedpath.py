@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from mwreach.coverage import groundwave as gw
-from mwreach.coverage.ground import Section, ground_class
+from mwreach.coverage.ground import Section, SectionTable, ground_class
 from mwreach.coverage.mixedpath import (
     kirke_db,
     millington_db,
@@ -105,6 +105,23 @@ def test_radials_at_once_equal_one_path_at_a_time():
     dk = rng.uniform(0.5, 299.0, len(paths))
     each = [millington_db(p, [x], F)[0] for p, x in zip(paths, dk)]
     np.testing.assert_allclose(millington_points_db(paths, dk, F), each, atol=1e-9)  # dB, same
+    # the flat-array form of the same paths reads back as the same sections and gives the
+    # same fields
+    table = SectionTable.of(paths)
+    assert [table[k] for k in range(len(table))] == paths and list(table) == paths
+    np.testing.assert_array_equal(millington_radials_db(table, d, F), grid)
+    np.testing.assert_array_equal(millington_points_db(table, dk, F),
+                                  millington_points_db(paths, dk, F))
+
+
+def test_section_table_refuses_what_section_lists_refuse():
+    for bad, words in (([[Section(0, 10, LAND), Section(12, 20, SEA)]], "contiguous"),
+                       ([[Section(1, 10, LAND)]], "transmitter"),
+                       ([[Section(0, 10, LAND)], []], "at least one")):
+        with pytest.raises(ValueError, match=words):
+            millington_radials_db(bad, [5.0, 8.0], F)
+        with pytest.raises(ValueError, match=words):
+            millington_points_db(bad, [5.0] * len(bad), F)
 
 
 def test_bad_paths():
