@@ -23,6 +23,7 @@ from .classes import OVERLAP_RULES, PROTECTION_PLANS, STATION_CLASSES, StationCl
 from .contours import (
     MAX_RADIAL_KM,
     contour_geometry,
+    distance_grid,
     first_crossings,
     polar_region,
     level_contour,
@@ -193,6 +194,16 @@ def point_ground_dbu(freq_khz, ground: GroundMap, lat, lon, array: Array, power_
     pts_lat = np.atleast_1d(np.asarray(pts_lat, float))
     pts_lon = np.atleast_1d(np.asarray(pts_lon, float))
     d, az, _ = inverse(lat, lon, pts_lat, pts_lon)
+    return ground_dbu_along(freq_khz, ground, lat, lon, array, power_kw, az, d, method, earth_k)
+
+
+def ground_dbu_along(freq_khz, ground: GroundMap, lat, lon, array: Array, power_kw: float,
+                     bearings_deg, dist_km, method: str = "millington", earth_k: float = 4 / 3):
+    """Ground-wave field [dBµV/m] from a transmitter at (lat, lon) at points given by bearing
+    [deg] and distance [km] from it, each over its own radial's ground sections (NaN closer
+    than one wavelength)."""
+    az = np.atleast_1d(np.asarray(bearings_deg, float))
+    d = np.atleast_1d(np.asarray(dist_km, float))
     out = np.full(d.shape, np.nan)
     if d.size == 0:
         return out
@@ -349,50 +360,17 @@ class NeighbourLimit:
 
     def entry_scale_db(self) -> float:
         """How far [dB] the proposal's product may change before it raises the limit anywhere
-        (negative: it must fall by that much); to 4e-5 dB."""
-        raises = self._raises_at()
-        lo, hi = -80.0, 80.0
-        ends = raises(np.array([lo, hi]))
-        if ends[0]:
-            return lo
-        if not ends[1]:
-            return hi
-        while hi - lo > 4e-5:  # 16 sub-intervals a round: six rounds instead of 22 halvings
-            xs = np.linspace(lo, hi, 17)[1:-1]
-            hit = raises(xs)
-            if not hit.any():
-                lo = float(xs[-1])
-                continue
-            first = int(np.argmax(hit))
-            hi = float(xs[first])
-            lo = float(xs[first - 1]) if first > 0 else lo
-        return lo
+        (negative: it must fall by that much), within ±80 dB; to 4e-5 dB."""
+        return first_entry_db([self])[0]
 
     def _raises_at(self):
         """``raises(xs)``: for each x [dB] of ``xs``, does the proposal's product raised by x
-        raise the limit anywhere?
-
-        The same arithmetic as :meth:`limit_with` (RSS with the exclusion rule, never below the
-        class level), with the other stations' values sorted once: for each x only the
-        proposal's value is slotted into its place in every column (after equal values, as a
-        stable sort of the stacked rows puts it)."""
+        raise the limit anywhere? (the test of :func:`first_entry_db`)"""
         others = self.others_dbu if self.others_dbu is not None else np.empty((0, self.lat.size))
-        srt = -np.sort(-_dbu_to_linear(others), axis=0)[:, None, :]  # (n, 1, P), largest first
-        n, _, npts = srt.shape
-        rank = np.arange(n + 1)[:, None, None]
-        pad = np.concatenate([srt, np.zeros((1, 1, npts))])  # value at rank r
-        before = np.concatenate([np.zeros((1, 1, npts)), srt])  # value at rank r − 1
-        bar = self.without_dbu + 1e-9
-
-        def raises(xs):
-            xs = np.atleast_1d(np.asarray(xs, dtype=float))
-            v = _dbu_to_linear(self.proposal_dbu[None, :] + xs[:, None])  # (m, P)
-            pos = (srt >= v[None]).sum(axis=0)  # the proposal's rank in each column
-            seq = np.where(rank < pos, pad, np.where(rank == pos, v[None], before))
-            limit = _limit_dbu(_rss_sorted(seq, self.exclusion_percent)[0], self.fixed_dbu)
-            return np.any(limit > bar[None, :], axis=1)
-
-        return raises
+        cols = [(_dbu_to_linear(others), np.asarray(self.proposal_dbu, dtype=float),
+                 self.without_dbu + 1e-9, np.full(self.proposal_dbu.size, self.fixed_dbu))]
+        raising, _ = _entry_columns(cols, self.exclusion_percent)
+        return lambda xs: raising(np.atleast_1d(xs)).any(axis=1)
 
     @property
     def increase_db(self) -> float:
@@ -404,6 +382,99 @@ class NeighbourLimit:
         """True when the proposal raises the limit nowhere (the exclusion rule leaves it out,
         or the limit stays at the class level)."""
         return not bool(np.any(self.with_dbu > self.without_dbu + 1e-9))
+
+
+def _entry_columns(cols, exclusion: int, keep=None):
+    """``raising(xs)`` → (len(xs), P) booleans: does the proposal's product changed by x [dB]
+    raise the limit at each point? ``cols`` holds per limit (others' linear values (n, P),
+    proposal [dBµV/m] (P,), limit without it + 1e-9 dB (P,), class level (P,)); ``keep``
+    selects points. Also returns the limit number of each point."""
+    owner = np.repeat(np.arange(len(cols)), [c[1].size for c in cols])
+    n_rows = max(c[0].shape[0] for c in cols)
+    lin = np.concatenate([np.vstack([c[0], np.zeros((n_rows - c[0].shape[0], c[1].size))])
+                          for c in cols], axis=1)
+    prop, bar, fixed = (np.concatenate([c[i] for c in cols]) for i in (1, 2, 3))
+    if keep is not None:
+        lin, prop, bar, fixed, owner = lin[:, keep], prop[keep], bar[keep], fixed[keep], owner[keep]
+    srt = -np.sort(-lin, axis=0)[:, None, :]  # (n, 1, P), largest first
+    n, _, npts = srt.shape
+    rank = np.arange(n + 1)[:, None, None]
+    pad = np.concatenate([srt, np.zeros((1, 1, npts))])  # value at rank r
+    before = np.concatenate([np.zeros((1, 1, npts)), srt])  # value at rank r − 1
+
+    def raising(xs):
+        v = _dbu_to_linear(prop[None, :] + np.asarray(xs, dtype=float)[:, None])  # (m, P)
+        pos = (srt >= v[None]).sum(axis=0)  # the proposal's rank in each column
+        seq = np.where(rank < pos, pad, np.where(rank == pos, v[None], before))
+        limit = np.maximum(_limit_dbu(_rss_sorted(seq, exclusion)[0], -np.inf), fixed[None, :])
+        return limit > bar[None, :]
+
+    return raising, owner
+
+
+def first_entry_db(limits) -> tuple[float, int]:
+    """The smallest change [dB] of the proposal's products at which it raises any of these
+    neighbours' night limits, within ±80 dB and to 4e-5 dB, and which limit that is (the first
+    of them where several are reached within that step; the first when none is).
+
+    The points of every limit are searched together, 16 sub-intervals a round, with the same
+    arithmetic as :meth:`NeighbourLimit.limit_with` (RSS with the exclusion rule, never below
+    the class level): the other stations' values are sorted once, and for each trial change
+    only the proposal's value is slotted into its place in every column (after equal values,
+    as a stable sort of the stacked rows puts it). The search starts from a bracket that the
+    rule gives per point: the proposal cannot be kept below ``exclusion`` × the largest other
+    value there, and it surely raises the limit once it exceeds the limit without it; points
+    whose lower end lies beyond the upper end found elsewhere cannot be first and are left out.
+    """
+    if not limits:
+        return 80.0, 0
+    if len({lim.exclusion_percent for lim in limits}) > 1:
+        found = [first_entry_db([lim]) for lim in limits]
+        k = min(range(len(found)), key=lambda i: found[i][0])
+        return found[k][0], k
+    exclusion = limits[0].exclusion_percent
+    cols, need, surely = [], [], []
+    for lim in limits:
+        v = np.asarray(lim.proposal_dbu, dtype=float)
+        live = np.isfinite(v)
+        others = lim.others_dbu if lim.others_dbu is not None else np.empty((0, v.size))
+        top = others.max(axis=0) if others.shape[0] else np.full(v.size, -np.inf)
+        lower = np.full(v.size, -np.inf)
+        if exclusion:
+            ok = np.isfinite(top)
+            lower[ok] = top[ok] + 20 * np.log10(exclusion / 100.0) - v[ok]
+        need.append(np.where(live, lower, np.inf))
+        surely.append(np.where(live, lim.without_dbu - v, np.inf) + 1e-6)
+        cols.append((_dbu_to_linear(others), v, lim.without_dbu + 1e-9,
+                     np.full(v.size, lim.fixed_dbu)))
+    need, surely = np.concatenate(need), np.concatenate(surely)
+    if not (need < np.inf).any():  # no proposal field at any point
+        return 80.0, 0
+    lo = max(-80.0, float(need.min()) - 1e-6)
+    hi = min(80.0, float(surely.min()))
+    raising, owner = _entry_columns(cols, exclusion, need <= hi)
+    npts = owner.size
+
+    def which(x):
+        hit = raising([x])[0]
+        return int(owner[hit].min()) if hit.any() else 0
+
+    if npts == 0:
+        return 80.0, 0
+    if lo <= -80.0 and raising([-80.0]).any():
+        return -80.0, which(-80.0)
+    if hi >= 80.0 and not raising([80.0]).any():
+        return 80.0, 0
+    while hi - lo > 4e-5:  # 16 sub-intervals a round
+        xs = np.linspace(lo, hi, 17)[1:-1]
+        hit = raising(xs).any(axis=1)
+        if not hit.any():
+            lo = float(xs[-1])
+            continue
+        first = int(np.argmax(hit))
+        hi = float(xs[first])
+        lo = float(xs[first - 1]) if first > 0 else lo
+    return lo, which(hi)
 
 
 @dataclass(frozen=True)
@@ -867,19 +938,6 @@ def _day_radials(s: Station, level_mv_m: float, spec, bearings=OVERLAP_BEARINGS,
                          spec.mixed_path, spec.earth_k)
 
 
-def _onset_radials(st: Station, spec, other_xy):
-    """The proposal's radials toward another station's contour (in the proposal's plane; 2°
-    bearings that can reach it), as far as its farthest point: all the overlap onset needs."""
-    import shapely
-
-    brg = _bearings_toward(other_xy)
-    if brg.size == 0:
-        return None
-    xy = shapely.get_coordinates(other_xy)
-    far = float(np.hypot(xy[:, 0], xy[:, 1]).max()) + 1.0
-    return _day_radials(st, 0.0, spec, brg, max_km=far)
-
-
 def _day_polygon(s: Station, level_mv_m: float, spec):
     """A station's day contour at ``level_mv_m`` as lon/lat geometry (2° radials), with the
     radial fields it came from."""
@@ -934,22 +992,33 @@ def _overlap_area(own_rad, proj, level_dbu: float, other_xy):
     return area, tuple(pts)
 
 
-def _overlap_onset_dbu(own_rad, other_xy):
-    """The strongest own field [dBµV/m] at the points where the own radials first enter another
-    station's contour (``other_xy``, in the own plane; ray cast against its polygon); None if
-    no radial reaches it. The own contour overlaps the other one exactly when its level is at
-    or below this value."""
+def _overlap_onset_dbu(st: Station, spec, other_xy):
+    """The strongest own day field [dBµV/m] where the proposal's radials (2°, those that can
+    reach it) enter another station's contour (``other_xy``, in the proposal's plane; ray cast
+    against its polygon); None if no radial reaches it. The own contour at a level overlaps the
+    other one exactly when the level is at or below this value. The fields are computed at the
+    entry points themselves; where the other contour covers the site, at the first distance
+    of a radial grid (one wavelength)."""
+    import shapely
+
     from .ground import ray_intervals
 
-    end = float(own_rad.dist_km[-1])
-    best = None
-    for i, a, _e in ray_intervals(other_xy, own_rad.bearings_deg, end):
-        if a <= own_rad.dist_km[0]:
-            f = float(own_rad.field_dbu[i, 0])  # the other contour covers the site itself
-        else:
-            f = float(own_rad.field_at(i, a))
-        best = f if best is None else max(best, f)
-    return best
+    brg = _bearings_toward(other_xy)
+    if brg.size == 0:
+        return None
+    xy = shapely.get_coordinates(other_xy)
+    far = float(np.hypot(xy[:, 0], xy[:, 1]).max()) + 1.0
+    hits = ray_intervals(other_xy, brg, far)
+    if not hits:
+        return None
+    which = np.array([i for i, _a, _e in hits])
+    # the first distance of a radial grid, never below the wavelength as the curves compute it
+    near = max(distance_grid(st.freq_khz, far, 0.25)[0],
+               model(st.freq_khz, spec.ground.default, spec.earth_k).wavelength_km)
+    dist = np.maximum(np.array([a for _i, a, _e in hits]), near)
+    f = ground_dbu_along(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna, st.power_day_kw,
+                         brg[which], dist, spec.mixed_path, spec.earth_k)
+    return float(np.nanmax(f))
 
 
 class NeighbourChecks:
@@ -1085,8 +1154,7 @@ class NeighbourChecks:
             overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
             # the day power at which the overlap begins: the largest own field where a radial
             # first enters the other contour, against the level (fields ∝ √P)
-            rad = _onset_radials(st, spec, other)
-            onset = _overlap_onset_dbu(rad, other) if rad is not None else None
+            onset = _overlap_onset_dbu(st, spec, other)
             if onset is not None:
                 p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
                 if overlap_power is None or p_max < overlap_power[0]:
@@ -1183,22 +1251,21 @@ def _max_powers(st, rows, limits, overlap_power) -> dict:
                                 "limiting_lon": lon,
                                 "margin_db_now": 10 * np.log10(p_max / st.power_day_kw),
                                 "mechanism": "ground", "check": "day overlap"}
-    if limits and max_power.get("night") is not None:
+    live = [lim for lim in limits if lim.proposal_dbu.size]
+    if live and max_power.get("night") is not None:
         # the proposal must also stay out of each neighbour's RSS night limit: the power at
-        # which it would first raise the limit (its fields scale with sqrt(P))
+        # which it would first raise one of them (its fields scale with sqrt(P))
         p0 = st.power_night_kw
-        for lim in limits:
-            if not lim.proposal_dbu.size:
-                continue
-            scale = lim.entry_scale_db()
-            p_entry = p0 * 10 ** (scale / 10.0)
-            if p_entry < max_power["night"]["max_power_kw"]:
-                i = int(np.argmax(lim.proposal_dbu - lim.without_dbu))
-                max_power["night"] = {
-                    "max_power_kw": p_entry, "current_power_kw": p0,
-                    "limiting_neighbour": lim.neighbour, "limiting_lat": float(lim.lat[i]),
-                    "limiting_lon": float(lim.lon[i]), "margin_db_now": float(scale),
-                    "mechanism": "RSS", "check": "night limit entry"}
+        scale, k = first_entry_db(live)
+        p_entry = p0 * 10 ** (scale / 10.0)
+        if p_entry < max_power["night"]["max_power_kw"]:
+            lim = live[k]
+            i = int(np.argmax(lim.proposal_dbu - lim.without_dbu))
+            max_power["night"] = {
+                "max_power_kw": p_entry, "current_power_kw": p0,
+                "limiting_neighbour": lim.neighbour, "limiting_lat": float(lim.lat[i]),
+                "limiting_lon": float(lim.lon[i]), "margin_db_now": float(scale),
+                "mechanism": "RSS", "check": "night limit entry"}
     return max_power
 
 
