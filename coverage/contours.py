@@ -26,6 +26,7 @@ __all__ = [
     "first_crossings",
     "contour_geometry",
     "polar_region",
+    "polar_regions",
     "field_raster",
 ]
 
@@ -93,6 +94,7 @@ def radial_fields(
     method: str = "millington",
     earth_k: float = 4 / 3,
     progress=None,
+    dist_km=None,
 ) -> RadialFields:
     """Ground-wave field along every radial (mixed paths), vectorised over distance.
 
@@ -108,10 +110,13 @@ def radial_fields(
     method : ``"millington"`` or ``"kirke"``
     earth_k : effective earth-radius factor
     progress : optional callable(done, total)
+    dist_km : the distance grid [km], increasing (default: :func:`distance_grid` of
+        ``max_km`` and ``step_km``)
     """
     bearings = np.atleast_1d(np.asarray(bearings_deg, dtype=float))
     e1 = np.broadcast_to(np.asarray(e1km_mv_m, dtype=float), bearings.shape)
-    d = distance_grid(freq_khz, max_km, step_km)
+    d = distance_grid(freq_khz, max_km, step_km) if dist_km is None else np.asarray(dist_km,
+                                                                                   dtype=float)
     sections = ground_map.radial_sections(lat, lon, bearings, max_km)
     out = np.empty((bearings.size, d.size))
     for g in sections.grounds:
@@ -254,42 +259,64 @@ def polar_region(bearings_deg, dist_km, field_dbu, level_dbu):
     -------
     shapely Polygon or MultiPolygon (empty when the level is nowhere reached)
     """
+    lev = np.asarray(level_dbu, dtype=float)
+    if lev.ndim == 0:
+        return polar_regions(bearings_deg, dist_km, field_dbu, [float(lev)])[0]
+    return _polar_regions(bearings_deg, dist_km, field_dbu, lev, [0.0])[0]
+
+
+def polar_regions(bearings_deg, dist_km, field_dbu, levels_dbu):
+    """:func:`polar_region` for several scalar levels of one field, contoured from one
+    grid (one list of geometries, in the order of ``levels_dbu``)."""
+    return _polar_regions(bearings_deg, dist_km, field_dbu, 0.0,
+                          [float(v) for v in levels_dbu])
+
+
+def _polar_regions(bearings_deg, dist_km, field_dbu, shift, levels):
+    """The regions where field − ``shift`` (scalar or per bearing) ≥ each of ``levels``."""
     import contourpy
-    import shapely
     from shapely.geometry import Polygon
 
     b = np.asarray(bearings_deg, dtype=float)
-    if b.size < 3:
-        return Polygon()
+    if b.size < 3 or not levels:
+        return [Polygon() for _ in levels]
     order = np.argsort(b, kind="stable")
     f = np.asarray(field_dbu, dtype=float)
-    lev = np.asarray(level_dbu, dtype=float)
+    lev = np.asarray(shift, dtype=float)
     if not np.array_equal(order, np.arange(b.size)):
         b, f = b[order], f[order]
         lev = lev[order] if lev.ndim else lev
     dist = np.asarray(dist_km, dtype=float)
-    # only the distances up to one step beyond the last point at or above the level matter
-    hit = f.max(axis=0) >= lev if lev.ndim == 0 else (f >= lev[:, None]).any(axis=0)
-    reached = np.flatnonzero(hit)
+    z = f - (lev if lev.ndim == 0 else lev[:, None])
+    # only the distances up to one step beyond the last point at or above the lowest level
+    reached = np.flatnonzero(z.max(axis=0) >= min(levels))
     if reached.size == 0:
-        return Polygon()
+        return [Polygon() for _ in levels]
     end = min(int(reached[-1]) + 2, dist.size)
-    z = f[:, :end] - (lev if lev.ndim == 0 else lev[:, None])
+    z = z[:, :end]
     z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
     d = np.concatenate([[0.0], dist[:end]])
     k = 2  # rows wrapped onto each side, so that both halves overlap the seams
     bb = np.concatenate([b[-k:] - 360.0, b, b[:k] + 360.0])
     zz = np.vstack([z[-k:], z, z[:k]])
     gen = contourpy.contour_generator(d, bb, zz, fill_type=contourpy.FillType.OuterOffset)
-    points, offsets = gen.filled(0.0, np.inf)
     max_deg = max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
     step = 2.0 * max(float(np.max(np.diff(bb))), 1e-6)  # overlap of the halves [deg]
     halves = [(b[0] - step, 180.0 + step), (180.0 - step, b[0] + 360.0 + step)]
+    return [_region_xy(*gen.filled(level, np.inf), halves, d[-1], max_deg) for level in levels]
+
+
+def _region_xy(points, offsets, halves, d_end, max_deg):
+    """Filled (distance, bearing) polygons from contourpy → one geometry in the plane: each
+    polygon cut into the two halves (each maps to the ground one to one), mapped, united."""
+    import shapely
+    from shapely.geometry import Polygon
+
     parts = []
     for pts, off in zip(points, offsets):
         poly_db = Polygon(pts[off[0]:off[1]], [pts[a:e] for a, e in zip(off[1:-1], off[2:])])
         for lo, hi in halves:  # each half spans less than 360°: it maps to the ground one to one
-            clipped = shapely.clip_by_rect(poly_db, -1.0, lo, d[-1] + 1.0, hi)
+            clipped = shapely.clip_by_rect(poly_db, -1.0, lo, d_end + 1.0, hi)
             for piece in shapely.get_parts(clipped):
                 if piece.geom_type != "Polygon" or piece.is_empty:
                     continue

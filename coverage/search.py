@@ -26,9 +26,10 @@ from concurrent.futures import FIRST_COMPLETED, Executor, wait
 from dataclasses import dataclass, field
 
 import numpy as np
+import shapely
 
-from .contours import polar_region, radial_fields, radial_length_km
-from .geodesy import geodesic_area_km2, inverse, local_projection
+from .contours import distance_grid, polar_regions, radial_fields, radial_length_km
+from .geodesy import inverse, local_projection
 from .groundwave import mv_m_to_dbu
 
 __all__ = ["SearchSettings", "Candidate", "SearchResult", "candidate_sites", "evaluate_chunk",
@@ -40,11 +41,14 @@ SCORES = ("community_share", "area", "max_power")
 SEA_LIKE_MS_M = 1000.0
 #: Radials per candidate for its own contours (every 5°).
 SEARCH_BEARING_STEP_DEG = 5.0
-#: Distance step of those radials beyond 10 km [km] (the study's own step when coarser). With
-#: 5° radials the contour between radials comes from the (bearing, distance) cells, so the step
-#: shows in the community share: 1 km moved one demo candidate's share by 0.6 %, 0.5 km keeps
-#: all within the 0.5 % the search promises.
+#: Distance step of those radials beyond 10 km and as far as the community reaches [km] (the
+#: study's own step when coarser). With 5° radials the contour between radials comes from the
+#: (bearing, distance) cells, so the step shows in the community share: 1 km moved one demo
+#: candidate's share by 0.6 %, 0.5 km keeps all within the 0.5 % the search promises.
 SEARCH_STEP_KM = 0.5
+#: Their step beyond the community [km], where only the protected contour's area depends on
+#: it: against 0.5 km, 2 km moves the demo candidates' areas by under 0.05 %.
+SEARCH_FAR_STEP_KM = 2.0
 CHUNK = 24  # candidates per task
 
 
@@ -147,15 +151,22 @@ def _checks_for(spec, token: str):
     return hit
 
 
-def _share(rad, level_dbu, community_xy):
-    """Share of the community inside the contour at ``level_dbu``, as a ratio of areas in the
-    candidate's own plane: the plane's area scale changes by under 1e-4 across a community
-    within a few hundred km, far below the 0.5 % to which shares are quoted."""
+def _share(region_xy, community_xy):
+    """Share of the community inside a contour region, as a ratio of areas in the candidate's
+    own plane: the plane's area scale changes by under 1e-4 across a community within a few
+    hundred km, far below the 0.5 % to which shares are quoted."""
     if community_xy is None:
         return None
-    poly = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu, level_dbu)
     total = community_xy.area
-    return min(1.0, poly.intersection(community_xy).area / total) if total > 0 else 0.0
+    return min(1.0, region_xy.intersection(community_xy).area / total) if total > 0 else 0.0
+
+
+def _search_grid(freq_khz: float, max_km: float, fine_to_km: float, step_km: float):
+    """Distances [km] for a candidate's own radials: the usual grid (geometric to 10 km, then
+    ``step_km``) as far as ``fine_to_km``, then every ``SEARCH_FAR_STEP_KM`` to ``max_km``."""
+    near = distance_grid(freq_khz, min(max(fine_to_km, 10.0), max_km), step_km)
+    far_step = max(step_km, SEARCH_FAR_STEP_KM)
+    return np.concatenate([near, np.arange(near[-1] + far_step, max_km + far_step / 2, far_step)])
 
 
 def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float,
@@ -186,19 +197,25 @@ def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float
     e1 = st.antenna.field_mv_m(brg, 0.0, p0)
     max_km = radial_length_km(st.freq_khz, moved.ground, lowest, float(e1.max()), spec.earth_k,
                               min_km=5.0)
-    rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km,
-                        max(spec.step_km, SEARCH_STEP_KM), spec.mixed_path, spec.earth_k)
     proj = local_projection(st.lat, st.lon)
     community = spec.community.geometry if spec.community else None
     community_xy = proj.geom_to_xy(community) if community is not None else None
+    fine_to = 0.0  # the fine steps reach past the community, where shares are measured
+    if community_xy is not None and not community_xy.is_empty:
+        fine_to = float(np.hypot(*shapely.get_coordinates(community_xy).T).max()) + 2.0
+    step = max(spec.step_km, SEARCH_STEP_KM)
+    rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km, step,
+                        spec.mixed_path, spec.earth_k,
+                        dist_km=_search_grid(st.freq_khz, max_km, fine_to, step))
     service_dbu = float(mv_m_to_dbu(settings.service_mv_m))
-    share0 = _share(rad, service_dbu, community_xy)
-    share_max = share0 if max_day is None else _share(rad, service_dbu - gain_db, community_xy)
-    prot = polar_region(rad.bearings_deg, rad.dist_km, rad.field_dbu,
-                        float(mv_m_to_dbu(protected_mv)))
-    # geodesic area of the contour taken back to lon/lat vertex by vertex (no antimeridian
-    # split: the geodesic polygon area only needs consecutive vertices, wrapped or not)
-    area = geodesic_area_km2(proj.geom_to_lonlat(prot))
+    levels = [float(mv_m_to_dbu(protected_mv)), service_dbu]
+    if max_day is not None:
+        levels.append(service_dbu - gain_db)
+    # the protected contour's area, and the community's shares, from one contouring
+    regions = polar_regions(rad.bearings_deg, rad.dist_km, rad.field_dbu, levels)
+    area = proj.plane_area_km2(regions[0])
+    share0 = _share(regions[1], community_xy)
+    share_max = share0 if max_day is None else _share(regions[2], community_xy)
     dist = None
     if community is not None:
         c = community.representative_point()

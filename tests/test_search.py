@@ -59,6 +59,11 @@ def test_five_candidates_equal_full_runs(spec, local_search):
             assert 10 * np.log10(got / ref["max_power_kw"]) == pytest.approx(0.0, abs=0.05)
         five = next(x for x in full.contours if x.level_mv_m == 5.0)
         assert c.share_at_study_power == pytest.approx(five.community_share, abs=0.005)
+        # the protected contour's area: 1 %, for the search's 5° radials against the full
+        # run's (the demo candidates come out 0.2–0.7 % smaller)
+        prot = next(x for x in full.contours
+                    if x.level_mv_m == spec.interference.protected_day_mv_m)
+        assert c.protected_area_km2 == pytest.approx(prot.area_km2, rel=0.01)
 
 
 def test_same_numbers_on_two_processes_and_on_dask(spec, local_search):
