@@ -992,13 +992,13 @@ def _overlap_area(own_rad, proj, level_dbu: float, other_xy):
     return area, tuple(pts)
 
 
-def _overlap_onset_dbu(st: Station, spec, other_xy):
-    """The strongest own day field [dBµV/m] where the proposal's radials (2°, those that can
-    reach it) enter another station's contour (``other_xy``, in the proposal's plane; ray cast
-    against its polygon); None if no radial reaches it. The own contour at a level overlaps the
-    other one exactly when the level is at or below this value. The fields are computed at the
-    entry points themselves; where the other contour covers the site, at the first distance
-    of a radial grid (one wavelength)."""
+def _overlap_entries(st: Station, spec, other_xy):
+    """Where the proposal's radials (2°, those that can reach it) enter another station's
+    contour (``other_xy``, in the proposal's plane; ray cast against its polygon): (bearings
+    [deg], distances [km]), or None if no radial reaches it. The strongest own field at these
+    points is the level at or below which the own contour overlaps the other one. Where the
+    other contour covers the site, the point is at the first distance of a radial grid (one
+    wavelength)."""
     import shapely
 
     from .ground import ray_intervals
@@ -1015,10 +1015,21 @@ def _overlap_onset_dbu(st: Station, spec, other_xy):
     # the first distance of a radial grid, never below the wavelength as the curves compute it
     near = max(distance_grid(st.freq_khz, far, 0.25)[0],
                model(st.freq_khz, spec.ground.default, spec.earth_k).wavelength_km)
-    dist = np.maximum(np.array([a for _i, a, _e in hits]), near)
-    f = ground_dbu_along(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna, st.power_day_kw,
-                         brg[which], dist, spec.mixed_path, spec.earth_k)
-    return float(np.nanmax(f))
+    return brg[which], np.maximum(np.array([a for _i, a, _e in hits]), near)
+
+
+def _margin_rows(kind, name, off, ratio, brg, lat, lon, wanted, unwanted, mech=None,
+                 every: bool = True) -> list:
+    """MarginRows at the points where the unwanted field is known; with ``every`` False only
+    the first point of least margin."""
+    u = np.asarray(unwanted, dtype=float)
+    w = np.broadcast_to(np.asarray(wanted, dtype=float), u.shape)
+    idx = np.flatnonzero(np.isfinite(u))
+    if not every and idx.size > 1:
+        idx = idx[[int(np.argmin(w[idx] - u[idx] - ratio))]]
+    return [MarginRow(kind, name, off, ratio, float(brg[i]), float(lat[i]), float(lon[i]),
+                      float(w[i]), float(u[i]),
+                      "ground" if mech is None or mech[i] else "sky") for i in idx]
 
 
 class NeighbourChecks:
@@ -1101,9 +1112,11 @@ class NeighbourChecks:
                                  for n, off in self.overlap_ok}
 
     def assess(self, spec, night_service_too: bool = True, received: bool = True,
-               overlap_area: bool = True) -> InterferenceResult:
+               overlap_area: bool = True, all_rows: bool = True) -> InterferenceResult:
         """All checks for the study's station where it stands now (without the interference it
-        receives by day, or its own night service contour, when not asked for)."""
+        receives by day, or its own night service contour, when not asked for; with only the
+        point of least margin per neighbour and check among the caused rows when
+        ``all_rows`` is False, which is all the maximum powers need)."""
         st = spec.station
         plan = self.plan
         common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
@@ -1121,30 +1134,43 @@ class NeighbourChecks:
                 rows += [MarginRow("day received", n.name, off, ratio, float(b), float(a),
                                    float(o), wanted, float(x))
                          for b, a, o, x in zip(ob, olat, olon, u) if np.isfinite(x)]
-        if self.day_ok:
-            # caused by day on each neighbour's protected contour: one pass over all points
-            names = [n.name for n, _, _ in self.day_ok]
-            pts = [self.day_points[x] for x in names]
-            if pts:
-                alat = np.concatenate([p[2] for p in pts])
-                alon = np.concatenate([p[3] for p in pts])
-                u_all = point_ground_dbu(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
-                                         st.power_day_kw, alat, alon, **common)
-                k = 0
-                for (n, off, ratio), (nb, _, nlat, nlon) in zip(self.day_ok, pts):
-                    u = u_all[k:k + nb.size]
-                    k += nb.size
-                    wanted = float(mv_m_to_dbu(n.day_level_mv_m(self.classes)))
-                    rows += [MarginRow("day caused", n.name, off, ratio, float(b), float(a),
-                                       float(o), wanted, float(x))
-                             for b, a, o, x in zip(nb, nlat, nlon, u) if np.isfinite(x)]
+        # the proposal's own day field, in one pass, at each neighbour's protected contour
+        # (caused by day) and where its radials enter the contours second and third adjacent
+        # neighbours protect (the power at which an overlap begins)
+        own_proj = local_projection(st.lat, st.lon)
+        pts = [self.day_points[n.name] for n, _, _ in self.day_ok]
+        brgs, dists = [np.empty(0)], [np.empty(0)]
+        if pts:
+            d, az, _ = inverse(st.lat, st.lon, np.concatenate([p[2] for p in pts]),
+                               np.concatenate([p[3] for p in pts]))
+            brgs.append(np.atleast_1d(az))
+            dists.append(np.atleast_1d(d))
+        n_caused = sum(b.size for b in brgs)
+        others_xy, entries = [], []
+        for n, off in self.overlap_ok:
+            other = own_proj.geom_to_xy(self.overlap_polygons[n.name])  # once per neighbour
+            others_xy.append(other)
+            hit = _overlap_entries(st, spec, other)
+            entries.append(0 if hit is None else hit[0].size)
+            if hit is not None:
+                brgs.append(hit[0])
+                dists.append(hit[1])
+        u_all = ground_dbu_along(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
+                                 st.power_day_kw, np.concatenate(brgs), np.concatenate(dists),
+                                 **common)
+        k = 0
+        for (n, off, ratio), (nb, _, nlat, nlon) in zip(self.day_ok, pts):
+            u = u_all[k:k + nb.size]
+            k += nb.size
+            wanted = float(mv_m_to_dbu(n.day_level_mv_m(self.classes)))
+            rows += _margin_rows("day caused", n.name, off, ratio, nb, nlat, nlon, wanted, u,
+                                 every=all_rows)
         overlaps, overlap_power = [], None
         own_rad = None
-        own_proj = local_projection(st.lat, st.lon)
-        for n, off in self.overlap_ok:
+        k = n_caused
+        for (n, off), other, m in zip(self.overlap_ok, others_xy, entries):
             own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
             lvl = float(mv_m_to_dbu(own_mv))
-            other = own_proj.geom_to_xy(self.overlap_polygons[n.name])  # once per neighbour
             if overlap_area:
                 if own_rad is None:
                     own_rad = _day_radials(st, min(r[0] for r in OVERLAP_RULES.values()), spec)
@@ -1154,7 +1180,8 @@ class NeighbourChecks:
             overlaps.append(OverlapCheck(n.name, off, own_mv, other_mv, area, points, source))
             # the day power at which the overlap begins: the largest own field where a radial
             # first enters the other contour, against the level (fields ∝ √P)
-            onset = _overlap_onset_dbu(st, spec, other)
+            onset = float(np.nanmax(u_all[k:k + m])) if m else None
+            k += m
             if onset is not None:
                 p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
                 if overlap_power is None or p_max < overlap_power[0]:
@@ -1213,10 +1240,8 @@ class NeighbourChecks:
                     skipped.append({"neighbour": n.name, "check": "night caused",
                                     "reason": f"sky-wave path outside {self.range_text} at {out} "
                                               f"of {plat.size} points"})
-                rows += [MarginRow("night caused", n.name, off, ratio, float(b), float(a),
-                                   float(o), float(w), float(x), "ground" if gg else "sky")
-                         for b, a, o, w, x, gg in zip(nb, plat, plon, wanted, u, mech)
-                         if np.isfinite(x)]
+                rows += _margin_rows("night caused", n.name, off, ratio, nb, plat, plon, wanted,
+                                     u, mech, every=all_rows)
         for sk in skipped:
             notes.append(f"{sk['neighbour']}: {sk['check']} skipped where the "
                          f"{sk['reason']} (the method does not cover it)")

@@ -178,7 +178,7 @@ def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float
     day_by = night_by = ""
     if checks is not None:
         inter = checks.assess(moved, night_service_too=False, received=False,
-                              overlap_area=False)
+                              overlap_area=False, all_rows=False)
         mp = inter.max_power
         if mp.get("day"):
             max_day = mp["day"]["max_power_kw"]

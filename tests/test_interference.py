@@ -434,3 +434,24 @@ def test_entry_into_a_night_limit_equals_halving_on_the_plain_rss():
                 lo, hi = (lo, mid) if raises(mid) else (mid, hi)
             want = lo
         assert lim.entry_scale_db() == pytest.approx(want, abs=4e-5)  # dB, the search's step
+
+
+def test_least_margin_rows_give_the_same_maximum_powers():
+    # the site search keeps only each neighbour's point of least margin per check; the maximum
+    # powers (and what limits them) must be those of the full set of rows, on the demo and at
+    # two sites moved off it
+    from mwreach.coverage.interference import NeighbourChecks
+
+    spec = load_study(DEMO)
+    checks = NeighbourChecks(spec, spec.interference)
+    for dlat, dlon in ((0.0, 0.0), (0.2, -0.3), (-0.25, 0.15)):
+        moved = spec.with_site(spec.station.lat + dlat, spec.station.lon + dlon)
+        full = checks.assess(moved, night_service_too=False, received=False)
+        light = checks.assess(moved, night_service_too=False, received=False, all_rows=False)
+        assert light.max_power == full.max_power
+        assert set(light.rows) <= set(full.rows)
+        kinds = {(r.kind, r.neighbour) for r in full.rows}
+        assert sorted((r.kind, r.neighbour) for r in light.rows) == sorted(kinds)
+        for r in light.rows:  # the least margin of its neighbour and check
+            assert r.margin_db == min(x.margin_db for x in full.rows
+                                      if (x.kind, x.neighbour) == (r.kind, r.neighbour))
