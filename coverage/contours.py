@@ -64,10 +64,14 @@ def radial_length_km(freq_khz: float, ground_map: GroundMap, level_mv_m: float,
     """How far radials must run to reach ``level_mv_m``: its distance on the best ground of the
     map with the strongest radiation, plus 20 %, within ``min_km`` .. 2000 km."""
     best = max(ground_map.grounds, key=lambda g: g.sigma_ms_m)
-    d = model(freq_khz, best, earth_k).distance_to_field_km(level_mv_m, e1km_max_mv_m,
-                                                            max_km=MAX_RADIAL_KM)
-    if not np.isfinite(d):
-        return MAX_RADIAL_KM
+    m = model(freq_khz, best, earth_k)
+    if not (np.isfinite(level_mv_m) and level_mv_m > 0):
+        raise ValueError(f"level_mv_m must be > 0 and finite (got {level_mv_m!r})")
+    # the curve's own table is ample for a length with 20 % to spare
+    rel = float(mv_m_to_dbu(level_mv_m) - mv_m_to_dbu(e1km_max_mv_m))  # [dB re E at 1 km]
+    if rel > float(m.curve_db(m.wavelength_km)) or rel < float(m.curve_db(MAX_RADIAL_KM)):
+        return MAX_RADIAL_KM  # not reached even at one wavelength, or still beyond the longest
+    d = float(m.distance_for_curve_db(rel))
     return float(np.clip(1.2 * d, min_km, MAX_RADIAL_KM))
 
 
