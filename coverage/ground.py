@@ -211,14 +211,10 @@ def _edge_table(geom_xy):
     hit = _EDGE_CACHE.get(key)
     if hit is not None and hit[0] is geom_xy:
         return hit[1]
-    edges = []
-    for poly in shapely.get_parts(geom_xy):
-        if poly.geom_type != "Polygon":
-            continue
-        for ring in (poly.exterior, *poly.interiors):
-            c = np.asarray(ring.coords)[:, :2]
-            edges.append(np.column_stack([c[:-1], c[1:]]))
-    e = np.vstack(edges) if edges else np.empty((0, 4))
+    polys = [g for g in shapely.get_parts(geom_xy) if g.geom_type == "Polygon"]
+    c, ring = shapely.get_coordinates(shapely.get_rings(polys), return_index=True)
+    same = ring[1:] == ring[:-1]  # consecutive vertices of one ring make an edge
+    e = np.column_stack([c[:-1][same], c[1:][same]]) if c.size else np.empty((0, 4))
     ap = np.mod(np.degrees(np.arctan2(e[:, 0], e[:, 1])), 360.0)
     aq = np.mod(np.degrees(np.arctan2(e[:, 2], e[:, 3])), 360.0)
     table = (e, ap, aq, bool(shapely.contains_xy(geom_xy, 0.0, 0.0)))
@@ -345,6 +341,7 @@ class GroundMap:
         state = dict(self.__dict__)
         state.pop("_lock", None)
         state.pop("_xy_cache", None)
+        state.pop("_dense", None)
         return state
 
     def __setstate__(self, state):
@@ -393,8 +390,13 @@ class GroundMap:
             if key not in cache:
                 if len(cache) >= 64:  # a study's own site and its neighbours' sites
                     cache.pop(next(iter(cache)))
-                xy = [projection.geom_to_xy(shapely.segmentize(z.geometry, ZONE_EDGE_STEP_DEG))
-                      for z in self.zones]
+                dense = self.__dict__.get("_dense")
+                if dense is None:
+                    dense = self._dense = np.array(
+                        [shapely.segmentize(z.geometry, ZONE_EDGE_STEP_DEG) for z in self.zones],
+                        dtype=object)
+                # every zone's vertices in one projection call
+                xy = list(projection.geom_to_xy(dense)) if dense.size else []
                 # a zone near the antipode of the site folds over in this projection; such a
                 # zone is far beyond any radial, and make_valid keeps GEOS queries well-defined
                 cache[key] = [g if g.is_valid else shapely.make_valid(g) for g in xy]

@@ -369,8 +369,9 @@ class NeighbourLimit:
         others = self.others_dbu if self.others_dbu is not None else np.empty((0, self.lat.size))
         cols = [(_dbu_to_linear(others), np.asarray(self.proposal_dbu, dtype=float),
                  self.without_dbu + 1e-9, np.full(self.proposal_dbu.size, self.fixed_dbu))]
-        raising, _ = _entry_columns(cols, self.exclusion_percent)
-        return lambda xs: raising(np.atleast_1d(xs)).any(axis=1)
+        pts = _EntryColumns.of(cols, np.full(self.proposal_dbu.size, -np.inf),
+                               self.exclusion_percent)
+        return lambda xs: pts.raising(np.atleast_1d(xs)).any(axis=1)
 
     @property
     def increase_db(self) -> float:
@@ -384,32 +385,49 @@ class NeighbourLimit:
         return not bool(np.any(self.with_dbu > self.without_dbu + 1e-9))
 
 
-def _entry_columns(cols, exclusion: int, keep=None):
-    """``raising(xs)`` → (len(xs), P) booleans: does the proposal's product changed by x [dB]
-    raise the limit at each point? ``cols`` holds per limit (others' linear values (n, P),
-    proposal [dBµV/m] (P,), limit without it + 1e-9 dB (P,), class level (P,)); ``keep``
-    selects points. Also returns the limit number of each point."""
-    owner = np.repeat(np.arange(len(cols)), [c[1].size for c in cols])
-    n_rows = max(c[0].shape[0] for c in cols)
-    lin = np.concatenate([np.vstack([c[0], np.zeros((n_rows - c[0].shape[0], c[1].size))])
-                          for c in cols], axis=1)
-    prop, bar, fixed = (np.concatenate([c[i] for c in cols]) for i in (1, 2, 3))
-    if keep is not None:
-        lin, prop, bar, fixed, owner = lin[:, keep], prop[keep], bar[keep], fixed[keep], owner[keep]
-    srt = -np.sort(-lin, axis=0)[:, None, :]  # (n, 1, P), largest first
-    n, _, npts = srt.shape
-    rank = np.arange(n + 1)[:, None, None]
-    pad = np.concatenate([srt, np.zeros((1, 1, npts))])  # value at rank r
-    before = np.concatenate([np.zeros((1, 1, npts)), srt])  # value at rank r − 1
+class _EntryColumns:
+    """The points of one or more night limits, ready for trial changes of the proposal's
+    products: per point the other stations' linear values sorted largest first, the proposal
+    [dBµV/m], the limit without it + 1e-9 dB, the class level, the limit's number and the
+    change below which the point cannot raise its limit."""
 
-    def raising(xs):
-        v = _dbu_to_linear(prop[None, :] + np.asarray(xs, dtype=float)[:, None])  # (m, P)
-        pos = (srt >= v[None]).sum(axis=0)  # the proposal's rank in each column
-        seq = np.where(rank < pos, pad, np.where(rank == pos, v[None], before))
-        limit = np.maximum(_limit_dbu(_rss_sorted(seq, exclusion)[0], -np.inf), fixed[None, :])
-        return limit > bar[None, :]
+    def __init__(self, srt, prop, bar, fixed, owner, need, exclusion):
+        self.srt, self.prop, self.bar, self.fixed = srt, prop, bar, fixed
+        self.owner, self.need, self.exclusion = owner, need, exclusion
+        n, npts = srt.shape
+        self._rank = np.arange(n + 1)[:, None, None]
+        self._pad = np.concatenate([srt, np.zeros((1, npts))])[:, None, :]  # value at rank r
+        self._before = np.concatenate([np.zeros((1, npts)), srt])[:, None, :]  # … at r − 1
 
-    return raising, owner
+    @classmethod
+    def of(cls, cols, need, exclusion: int):
+        """From per-limit (others' linear values (n, P), proposal (P,), limit without it +
+        1e-9 dB (P,), class level (P,))."""
+        owner = np.repeat(np.arange(len(cols)), [c[1].size for c in cols])
+        n_rows = max(c[0].shape[0] for c in cols)
+        lin = np.concatenate([np.vstack([c[0], np.zeros((n_rows - c[0].shape[0], c[1].size))])
+                              for c in cols], axis=1)
+        prop, bar, fixed = (np.concatenate([c[i] for c in cols]) for i in (1, 2, 3))
+        srt = -np.sort(-lin, axis=0)  # (n, P), largest first
+        return cls(srt, prop, bar, fixed, owner, np.asarray(need, dtype=float), exclusion)
+
+    def only(self, mask) -> _EntryColumns:
+        return _EntryColumns(self.srt[:, mask], self.prop[mask], self.bar[mask],
+                             self.fixed[mask], self.owner[mask], self.need[mask],
+                             self.exclusion)
+
+    def raising(self, xs):
+        """(len(xs), P): does the proposal's product changed by x [dB] raise the limit at
+        each point? The same arithmetic as :meth:`NeighbourLimit.limit_with` (RSS with the
+        exclusion rule, never below the class level), with only the proposal's value slotted
+        into its place in every sorted column (after equal values, as a stable sort of the
+        stacked rows puts it)."""
+        v = _dbu_to_linear(self.prop[None, :] + np.asarray(xs, dtype=float)[:, None])  # (m, P)
+        pos = (self.srt[:, None, :] >= v[None]).sum(axis=0)  # the proposal's rank per column
+        seq = np.where(self._rank < pos, self._pad,
+                       np.where(self._rank == pos, v[None], self._before))
+        limit = _limit_dbu(_rss_sorted(seq, self.exclusion)[0], self.fixed[None, :])
+        return limit > self.bar[None, :]
 
 
 def first_entry_db(limits) -> tuple[float, int]:
@@ -452,28 +470,30 @@ def first_entry_db(limits) -> tuple[float, int]:
         return 80.0, 0
     lo = max(-80.0, float(need.min()) - 1e-6)
     hi = min(80.0, float(surely.min()))
-    raising, owner = _entry_columns(cols, exclusion, need <= hi)
-    npts = owner.size
+    pts = _EntryColumns.of(cols, need, exclusion)
+    pts = pts.only(pts.need <= hi)
 
     def which(x):
-        hit = raising([x])[0]
-        return int(owner[hit].min()) if hit.any() else 0
+        hit = pts.raising([x])[0]
+        return int(pts.owner[hit].min()) if hit.any() else 0
 
-    if npts == 0:
+    if pts.owner.size == 0:
         return 80.0, 0
-    if lo <= -80.0 and raising([-80.0]).any():
+    if lo <= -80.0 and pts.raising([-80.0]).any():
         return -80.0, which(-80.0)
-    if hi >= 80.0 and not raising([80.0]).any():
+    if hi >= 80.0 and not pts.raising([80.0]).any():
         return 80.0, 0
     while hi - lo > 4e-5:  # 16 sub-intervals a round
         xs = np.linspace(lo, hi, 17)[1:-1]
-        hit = raising(xs).any(axis=1)
+        hit = pts.raising(xs).any(axis=1)
         if not hit.any():
             lo = float(xs[-1])
             continue
         first = int(np.argmax(hit))
         hi = float(xs[first])
         lo = float(xs[first - 1]) if first > 0 else lo
+        if (pts.need > hi).any():  # points that can no longer be first
+            pts = pts.only(pts.need <= hi)
     return lo, which(hi)
 
 
