@@ -27,6 +27,8 @@ __all__ = [
     "contour_geometry",
     "polar_region",
     "polar_regions",
+    "polar_area_km2",
+    "polar_shares",
     "field_raster",
 ]
 
@@ -308,6 +310,101 @@ def _polar_regions(bearings_deg, dist_km, field_dbu, shift, levels):
     step = 2.0 * max(float(np.max(np.diff(bb))), 1e-6)  # overlap of the halves [deg]
     halves = [(b[0] - step, 180.0 + step), (180.0 - step, b[0] + 360.0 + step)]
     return [_region_xy(*gen.filled(level, np.inf), halves, d[-1], max_deg) for level in levels]
+
+
+def polar_shares(bearings_deg, dist_km, field_dbu, levels_dbu, target_xy):
+    """For each level, the share of ``target_xy`` (a region in the site's plane, such as a
+    community) where the field is at or above it: the same regions as :func:`polar_regions`,
+    but contoured only over the bearings and distances that reach the target when it lies
+    within less than a half turn of bearings (one window then maps to the plane one to one).
+    Marching squares is local to each cell, so the regions inside the window are those of the
+    whole grid."""
+    import contourpy
+    import shapely
+    from shapely.geometry import Polygon
+
+    total = target_xy.area
+    if total <= 0:
+        return [0.0 for _ in levels_dbu]
+    b = np.asarray(bearings_deg, dtype=float)
+    f = np.asarray(field_dbu, dtype=float)
+    order = np.argsort(b, kind="stable")
+    b, f = b[order], f[order]
+    dist = np.asarray(dist_km, dtype=float)
+    xy = shapely.get_coordinates(target_xy)
+    ang = np.mod(np.degrees(np.arctan2(xy[:, 0], xy[:, 1])), 360.0)
+    srt = np.sort(ang)
+    gaps = np.diff(np.concatenate([srt, srt[:1] + 360.0]))
+    k = int(np.argmax(gaps))
+    start, span = srt[(k + 1) % srt.size], 360.0 - gaps[k]  # the smallest arc with every vertex
+    step = float(np.max(np.diff(np.append(b, b[0] + 360.0)))) if b.size > 1 else 360.0
+    if (b.size < 3 or span + 4 * step >= 180.0
+            or target_xy.distance(shapely.Point(0.0, 0.0)) <= dist[0]):
+        return [min(1.0, r.intersection(target_xy).area / total)
+                for r in polar_regions(b, dist, f, levels_dbu)]
+    # rows from one bearing before the arc to one after, unwrapped to increase
+    rel = np.mod(b - start + step, 360.0)
+    rows = np.flatnonzero(rel <= span + 2 * step)
+    rows = rows[np.argsort(rel[rows], kind="stable")]
+    bw = start - step + rel[rows]
+    end = min(int(np.searchsorted(dist, float(np.hypot(xy[:, 0], xy[:, 1]).max()))) + 2,
+              dist.size)
+    z = f[rows][:, :end]
+    z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
+    d = np.concatenate([[0.0], dist[:end]])
+    gen = contourpy.contour_generator(d, bw, z, fill_type=contourpy.FillType.OuterOffset)
+    max_deg = max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
+    shares = []
+    for level in levels_dbu:
+        points, offsets = gen.filled(float(level), np.inf)
+        inside = 0.0
+        for pts, off in zip(points, offsets):  # disjoint polygons of one level
+            rings = [_ring_xy(pts[a:e], max_deg) for a, e in zip(off[:-1], off[1:])]
+            poly = Polygon(rings[0], rings[1:])
+            if not poly.is_valid:
+                poly = shapely.make_valid(poly)
+            inside += poly.intersection(target_xy).area
+        shares.append(min(1.0, inside / total))
+    return shares
+
+
+def polar_area_km2(bearings_deg, dist_km, field_dbu, level_dbu, projection) -> float:
+    """Area [km², on the ellipsoid] where the field is at or above ``level_dbu``, straight from
+    the filled marching squares in (distance, bearing) space, without building the region.
+
+    The grid is contoured over exactly one turn (the first bearing repeated at +360°), and the
+    area is the line integral ∮ F(ρ) dφ along the rings (Green's theorem in geodesic polar
+    coordinates; F as in :meth:`~.geodesy.LocalProjection.plane_area_km2`), with each ring edge
+    straight in (distance, bearing): between radials the contour then follows the bearing like
+    the arcs of :func:`polar_region`, rather than cutting across as a chord."""
+    import contourpy
+
+    b = np.asarray(bearings_deg, dtype=float)
+    f = np.asarray(field_dbu, dtype=float)
+    order = np.argsort(b, kind="stable")
+    b, f = b[order], f[order]
+    dist = np.asarray(dist_km, dtype=float)
+    z = f - float(level_dbu)
+    reached = np.flatnonzero(z.max(axis=0) >= 0.0)
+    if b.size < 3 or reached.size == 0:
+        return 0.0
+    end = min(int(reached[-1]) + 2, dist.size)
+    z = np.column_stack([z[:, :1], z[:, :end]])  # the field at the first distance, to the site
+    d = np.concatenate([[0.0], dist[:end]])
+    gen = contourpy.contour_generator(d, np.append(b, b[0] + 360.0), np.vstack([z, z[:1]]),
+                                      fill_type=contourpy.FillType.OuterOffset)
+    points, offsets = gen.filled(0.0, np.inf)
+    r2 = projection.gaussian_radius_km ** 2
+    total = 0.0
+    for pts, off in zip(points, offsets):
+        for k, (a, e) in enumerate(zip(off[:-1], off[1:])):
+            rho, beta = pts[a:e, 0], np.radians(pts[a:e, 1])
+            r0, r1, dphi = rho[:-1], rho[1:], -np.diff(beta)  # φ counter-clockwise from east
+            q = (0.5 * (r0 + r1)) ** 2 / r2
+            ring = float(np.sum(((r0 * r0 + r0 * r1 + r1 * r1) / 6.0
+                                 + r2 * q * q * (-1 / 24 + q * (1 / 720 - q / 40320))) * dphi))
+            total += abs(ring) * (1 if k == 0 else -1)
+    return total
 
 
 def _region_xy(points, offsets, halves, d_end, max_deg):

@@ -135,6 +135,15 @@ class LocalProjection:
         lon, lat, _ = GEOD.fwd(np.full(d.size, self.lon), np.full(d.size, self.lat), az, d)
         return np.asarray(lon).reshape(x.shape), np.asarray(lat).reshape(x.shape)
 
+    @property
+    def gaussian_radius_km(self) -> float:
+        """√(M·N) at the site [km]: M and N, the ellipsoid's principal radii of curvature (the
+        meridian's and the prime vertical's), give its Gaussian curvature 1/(M·N)."""
+        a, f = GEOD.a / 1e3, GEOD.f
+        e2 = f * (2 - f)
+        w = 1.0 - e2 * np.sin(np.radians(self.lat)) ** 2
+        return float(np.sqrt((a * (1 - e2) / w**1.5) * (a / np.sqrt(w))))
+
     def plane_area_km2(self, geom_xy) -> float:
         """Area [km²] on the ellipsoid of a (multi)polygon given in this plane, without taking
         its vertices back to lon/lat (the site search's fast path; full runs use
@@ -152,10 +161,7 @@ class LocalProjection:
 
         if geom_xy is None or geom_xy.is_empty:
             return 0.0
-        a, f = GEOD.a / 1e3, GEOD.f
-        e2 = f * (2 - f)
-        w = 1.0 - e2 * np.sin(np.radians(self.lat)) ** 2
-        r2 = (a * (1 - e2) / w**1.5) * (a / np.sqrt(w))  # M·N [km²]
+        r2 = self.gaussian_radius_km ** 2
         total = 0.0
         for poly in shapely.get_parts(geom_xy):
             if poly.geom_type != "Polygon" or poly.is_empty:

@@ -28,7 +28,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import shapely
 
-from .contours import distance_grid, polar_regions, radial_fields, radial_length_km
+from .contours import (distance_grid, polar_area_km2, polar_shares, radial_fields,
+                       radial_length_km)
 from .geodesy import inverse, local_projection
 from .groundwave import mv_m_to_dbu
 
@@ -151,16 +152,6 @@ def _checks_for(spec, token: str):
     return hit
 
 
-def _share(region_xy, community_xy):
-    """Share of the community inside a contour region, as a ratio of areas in the candidate's
-    own plane: the plane's area scale changes by under 1e-4 across a community within a few
-    hundred km, far below the 0.5 % to which shares are quoted."""
-    if community_xy is None:
-        return None
-    total = community_xy.area
-    return min(1.0, region_xy.intersection(community_xy).area / total) if total > 0 else 0.0
-
-
 def _search_grid(freq_khz: float, max_km: float, fine_to_km: float, step_km: float):
     """Distances [km] for a candidate's own radials: the usual grid (geometric to 10 km, then
     ``step_km``) as far as ``fine_to_km``, then every ``SEARCH_FAR_STEP_KM`` to ``max_km``."""
@@ -207,15 +198,18 @@ def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float
     rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km, step,
                         spec.mixed_path, spec.earth_k,
                         dist_km=_search_grid(st.freq_khz, max_km, fine_to, step))
-    service_dbu = float(mv_m_to_dbu(settings.service_mv_m))
-    levels = [float(mv_m_to_dbu(protected_mv)), service_dbu]
-    if max_day is not None:
-        levels.append(service_dbu - gain_db)
-    # the protected contour's area, and the community's shares, from one contouring
-    regions = polar_regions(rad.bearings_deg, rad.dist_km, rad.field_dbu, levels)
-    area = proj.plane_area_km2(regions[0])
-    share0 = _share(regions[1], community_xy)
-    share_max = share0 if max_day is None else _share(regions[2], community_xy)
+    area = polar_area_km2(rad.bearings_deg, rad.dist_km, rad.field_dbu,
+                          float(mv_m_to_dbu(protected_mv)), proj)
+    share0 = share_max = None
+    if community_xy is not None:
+        # community shares as ratios of areas in the candidate's own plane: the plane's area
+        # scale changes by under 1e-4 across a community within a few hundred km, far below
+        # the 0.5 % to which shares are quoted
+        service_dbu = float(mv_m_to_dbu(settings.service_mv_m))
+        levels = [service_dbu] if max_day is None else [service_dbu, service_dbu - gain_db]
+        shares = polar_shares(rad.bearings_deg, rad.dist_km, rad.field_dbu, levels,
+                              community_xy)
+        share0, share_max = shares[0], shares[-1]
     dist = None
     if community is not None:
         c = community.representative_point()

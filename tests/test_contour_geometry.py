@@ -142,3 +142,34 @@ def test_geojson_valid_at_antimeridian_and_poles(tmp_path, lat, lon):
         pole = 90.0 if lat > 0 else -90.0
         assert np.isclose(np.abs(coords[:, 1]).max(), 90.0)  # closed along the pole
         assert g.buffer(1e-9).contains(Point(0.0, pole - math.copysign(0.01, pole)))
+
+
+def test_polar_area_without_the_region():
+    # polar_area_km2 (the site search's area) against the area of the region itself: on the
+    # demo's own fields with 1° radials they agree to 0.01 % (both are the same contour; they
+    # differ by the chords between radials); with 5° radials the line integral follows the
+    # bearing between radials and comes out nearer the 1° figure than the 5° region does
+    from mwreach.coverage.contours import polar_area_km2, polar_region, radial_fields
+    from mwreach.coverage.groundwave import mv_m_to_dbu
+
+    spec = load_study(pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml")
+    st = spec.station
+    proj = local_projection(st.lat, st.lon)
+    level = float(mv_m_to_dbu(0.5))
+    got = {}
+    for step in (1.0, 5.0):
+        b = np.arange(0.0, 360.0, step)
+        rad = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, b,
+                            st.antenna.field_mv_m(b, 0.0, st.power_day_kw), 400.0, 0.5)
+        region = proj.plane_area_km2(polar_region(b, rad.dist_km, rad.field_dbu, level))
+        got[step] = (region, polar_area_km2(b, rad.dist_km, rad.field_dbu, level, proj))
+    assert got[1.0][1] == pytest.approx(got[1.0][0], rel=1e-4)
+    assert abs(got[5.0][1] - got[1.0][0]) < abs(got[5.0][0] - got[1.0][0])
+    # and a circle: 2π F(r) = π r² (1 − (r/R)²/12 + …) on the sphere of the site's Gaussian
+    # radius (a geodesic disc's area, R² (1 − cos(r/R)) 2π); 1e-8 for the series' next term
+    b = np.arange(0.0, 360.0, 5.0)
+    d = np.linspace(0.3, 300.0, 600)
+    field = np.tile(-d, (b.size, 1))  # falls with distance: the level −120 is crossed at 120 km
+    r, big_r = 120.0, proj.gaussian_radius_km
+    want = math.pi * r**2 * (1 - (r / big_r) ** 2 / 12)
+    assert polar_area_km2(b, d, field, -r, proj) == pytest.approx(want, rel=1e-8)
