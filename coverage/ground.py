@@ -137,17 +137,10 @@ def _ray_interval_arrays(geoms_xy, bearings_deg, max_km: float):
     radial, then polygon, then start."""
     none = (np.empty(0, dtype=int), np.empty(0, dtype=int), np.empty(0), np.empty(0))
     b = np.mod(np.atleast_1d(np.asarray(bearings_deg, dtype=float)), 360.0)
-    tables = [_edge_table(g) if g is not None and not g.is_empty else None for g in geoms_xy]
-    nz = len(tables)
-    if b.size == 0 or all(t is None or t[0].shape[0] == 0 for t in tables):
+    e, ap, aq, zone_of_edge, inside0 = _edge_tables(geoms_xy)
+    nz = len(geoms_xy)
+    if b.size == 0 or e.shape[0] == 0:
         return none
-    empty = (np.empty((0, 4)), np.empty(0), np.empty(0), False)
-    tables = [t if t is not None else empty for t in tables]
-    e = np.vstack([t[0] for t in tables])
-    ap = np.concatenate([t[1] for t in tables])
-    aq = np.concatenate([t[2] for t in tables])
-    zone_of_edge = np.repeat(np.arange(nz), [t[0].shape[0] for t in tables])
-    inside0 = np.array([t[3] for t in tables], dtype=bool)
     p, q = e[:, :2], e[:, 2:]
     lo, hi = np.minimum(ap, aq), np.maximum(ap, aq)
     wraps = hi - lo > 180.0  # the edge spans north: bearings in [hi, 360) and [0, lo)
@@ -202,25 +195,34 @@ def _ray_interval_arrays(geoms_xy, bearings_deg, max_km: float):
 _EDGE_CACHE: dict = {}
 
 
-def _edge_table(geom_xy):
-    """Ring edges of a (multi)polygon as (n, 4) [x0, y0, x1, y1], their end angles from the
-    origin [deg] and whether the origin is inside; cached per geometry object."""
+def _edge_tables(geoms_xy):
+    """Ring edges of several (multi)polygons (None or empty allowed) as (n, 4)
+    [x0, y0, x1, y1] in order (polygon by polygon, ring by ring), their end angles from the
+    origin [deg], the polygon of each edge, and whether the origin is inside each polygon;
+    cached per list of geometry objects."""
     import shapely
 
-    key = id(geom_xy)
+    key = tuple(id(g) for g in geoms_xy)
     hit = _EDGE_CACHE.get(key)
-    if hit is not None and hit[0] is geom_xy:
+    if hit is not None and all(a is b for a, b in zip(hit[0], geoms_xy)):
         return hit[1]
-    polys = [g for g in shapely.get_parts(geom_xy) if g.geom_type == "Polygon"]
-    c, ring = shapely.get_coordinates(shapely.get_rings(polys), return_index=True)
+    arr = np.empty(len(geoms_xy), dtype=object)
+    arr[:] = [g if g is not None else shapely.Polygon() for g in geoms_xy]
+    parts, owner = shapely.get_parts(arr, return_index=True)
+    poly = shapely.get_type_id(parts) == 3  # Polygon
+    rings, ring_part = shapely.get_rings(parts[poly], return_index=True)
+    c, ring = shapely.get_coordinates(rings, return_index=True)
     same = ring[1:] == ring[:-1]  # consecutive vertices of one ring make an edge
     e = np.column_stack([c[:-1][same], c[1:][same]]) if c.size else np.empty((0, 4))
+    zone_of_edge = owner[poly][ring_part][ring[:-1][same]] if c.size else np.empty(0, int)
     ap = np.mod(np.degrees(np.arctan2(e[:, 0], e[:, 1])), 360.0)
     aq = np.mod(np.degrees(np.arctan2(e[:, 2], e[:, 3])), 360.0)
-    table = (e, ap, aq, bool(shapely.contains_xy(geom_xy, 0.0, 0.0)))
+    inside0 = np.array([not g.is_empty and bool(shapely.contains_xy(g, 0.0, 0.0)) for g in arr],
+                       dtype=bool)
+    table = (e, ap, aq, zone_of_edge, inside0)
     if len(_EDGE_CACHE) > 512:
         _EDGE_CACHE.clear()
-    _EDGE_CACHE[key] = (geom_xy, table)
+    _EDGE_CACHE[key] = (list(geoms_xy), table)
     return table
 
 
