@@ -29,6 +29,9 @@ __all__ = [
     "polar_regions",
     "polar_area_km2",
     "polar_shares",
+    "share_window",
+    "window_shares",
+    "arc_step_deg",
     "field_raster",
 ]
 
@@ -306,54 +309,56 @@ def _polar_regions(bearings_deg, dist_km, field_dbu, shift, levels):
     bb = np.concatenate([b[-k:] - 360.0, b, b[:k] + 360.0])
     zz = np.vstack([z[-k:], z, z[:k]])
     gen = contourpy.contour_generator(d, bb, zz, fill_type=contourpy.FillType.OuterOffset)
-    max_deg = max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
+    max_deg = arc_step_deg(b)
     step = 2.0 * max(float(np.max(np.diff(bb))), 1e-6)  # overlap of the halves [deg]
     halves = [(b[0] - step, 180.0 + step), (180.0 - step, b[0] + 360.0 + step)]
     return [_region_xy(*gen.filled(level, np.inf), halves, d[-1], max_deg) for level in levels]
 
 
-def polar_shares(bearings_deg, dist_km, field_dbu, levels_dbu, target_xy):
-    """For each level, the share of ``target_xy`` (a region in the site's plane, such as a
-    community) where the field is at or above it: the same regions as :func:`polar_regions`,
-    but contoured only over the bearings and distances that reach the target when it lies
-    within less than a half turn of bearings (one window then maps to the plane one to one).
-    Marching squares is local to each cell, so the regions inside the window are those of the
-    whole grid."""
-    import contourpy
+def share_window(bearings_deg, target_xy, first_km: float):
+    """The bearings whose radials reach ``target_xy`` (a region in the site's plane), for
+    :func:`polar_shares`: ``(rows, unwrapped)`` — the indices into the sorted ``bearings_deg``
+    from one bearing before the target's arc to one after, in order, and those bearings
+    unwrapped to increase — or None when no window serves (the target surrounds the site, its
+    arc with two bearings each side is half a turn or more, or it comes within ``first_km``
+    of the site), and the whole turn must be contoured."""
     import shapely
-    from shapely.geometry import Polygon
 
-    total = target_xy.area
-    if total <= 0:
-        return [0.0 for _ in levels_dbu]
-    b = np.asarray(bearings_deg, dtype=float)
-    f = np.asarray(field_dbu, dtype=float)
-    order = np.argsort(b, kind="stable")
-    b, f = b[order], f[order]
-    dist = np.asarray(dist_km, dtype=float)
+    b = np.sort(np.asarray(bearings_deg, dtype=float))
     xy = shapely.get_coordinates(target_xy)
+    if b.size < 3 or xy.size == 0:
+        return None
     ang = np.mod(np.degrees(np.arctan2(xy[:, 0], xy[:, 1])), 360.0)
     srt = np.sort(ang)
     gaps = np.diff(np.concatenate([srt, srt[:1] + 360.0]))
     k = int(np.argmax(gaps))
     start, span = srt[(k + 1) % srt.size], 360.0 - gaps[k]  # the smallest arc with every vertex
-    step = float(np.max(np.diff(np.append(b, b[0] + 360.0)))) if b.size > 1 else 360.0
-    if (b.size < 3 or span + 4 * step >= 180.0
-            or target_xy.distance(shapely.Point(0.0, 0.0)) <= dist[0]):
-        return [min(1.0, r.intersection(target_xy).area / total)
-                for r in polar_regions(b, dist, f, levels_dbu)]
-    # rows from one bearing before the arc to one after, unwrapped to increase
+    step = float(np.max(np.diff(np.append(b, b[0] + 360.0))))
+    if span + 4 * step >= 180.0 or target_xy.distance(shapely.Point(0.0, 0.0)) <= first_km:
+        return None
     rel = np.mod(b - start + step, 360.0)
     rows = np.flatnonzero(rel <= span + 2 * step)
     rows = rows[np.argsort(rel[rows], kind="stable")]
-    bw = start - step + rel[rows]
-    end = min(int(np.searchsorted(dist, float(np.hypot(xy[:, 0], xy[:, 1]).max()))) + 2,
-              dist.size)
-    z = f[rows][:, :end]
+    return rows, start - step + rel[rows]
+
+
+def window_shares(unwrapped_deg, dist_km, field_dbu, levels_dbu, target_xy, max_deg: float):
+    """The shares of :func:`polar_shares` from the rows of one :func:`share_window` only:
+    ``field_dbu`` holds those rows (in its order) on ``dist_km``, which must reach past the
+    target's farthest point. ``max_deg`` is the densifying step along arcs [deg]."""
+    import contourpy
+    import shapely
+    from shapely.geometry import Polygon
+
+    total = target_xy.area
+    dist = np.asarray(dist_km, dtype=float)
+    far = float(np.hypot(*shapely.get_coordinates(target_xy).T).max())
+    end = min(int(np.searchsorted(dist, far)) + 2, dist.size)
+    z = np.asarray(field_dbu, dtype=float)[:, :end]
     z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
     d = np.concatenate([[0.0], dist[:end]])
-    gen = contourpy.contour_generator(d, bw, z, fill_type=contourpy.FillType.OuterOffset)
-    max_deg = max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
+    gen = contourpy.contour_generator(d, np.asarray(unwrapped_deg, dtype=float), z,
+                                      fill_type=contourpy.FillType.OuterOffset)
     shares = []
     for level in levels_dbu:
         points, offsets = gen.filled(float(level), np.inf)
@@ -366,6 +371,35 @@ def polar_shares(bearings_deg, dist_km, field_dbu, levels_dbu, target_xy):
             inside += poly.intersection(target_xy).area
         shares.append(min(1.0, inside / total))
     return shares
+
+
+def polar_shares(bearings_deg, dist_km, field_dbu, levels_dbu, target_xy):
+    """For each level, the share of ``target_xy`` (a region in the site's plane, such as a
+    community) where the field is at or above it: the same regions as :func:`polar_regions`,
+    but contoured only over the bearings and distances that reach the target when it lies
+    within less than a half turn of bearings (one window then maps to the plane one to one).
+    Marching squares is local to each cell, so the regions inside the window are those of the
+    whole grid."""
+    total = target_xy.area
+    if total <= 0:
+        return [0.0 for _ in levels_dbu]
+    b = np.asarray(bearings_deg, dtype=float)
+    f = np.asarray(field_dbu, dtype=float)
+    order = np.argsort(b, kind="stable")
+    b, f = b[order], f[order]
+    dist = np.asarray(dist_km, dtype=float)
+    window = share_window(b, target_xy, float(dist[0]))
+    if window is None:
+        return [min(1.0, r.intersection(target_xy).area / total)
+                for r in polar_regions(b, dist, f, levels_dbu)]
+    rows, unwrapped = window
+    return window_shares(unwrapped, dist, f[rows], levels_dbu, target_xy, arc_step_deg(b))
+
+
+def arc_step_deg(sorted_bearings) -> float:
+    """The densifying step along arcs between radials [deg]: the finest bearing step."""
+    b = sorted_bearings
+    return max(0.5, float(np.min(np.diff(b))) if b.size > 1 else 1.0)
 
 
 def polar_area_km2(bearings_deg, dist_km, field_dbu, level_dbu, projection) -> float:
