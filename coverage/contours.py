@@ -342,10 +342,15 @@ def share_window(bearings_deg, target_xy, first_km: float):
     return rows, start - step + rel[rows]
 
 
-def window_shares(unwrapped_deg, dist_km, field_dbu, levels_dbu, target_xy, max_deg: float):
+def window_shares(unwrapped_deg, dist_km, field_dbu, levels_dbu, target_xy, max_deg: float,
+                  from_site: bool = True):
     """The shares of :func:`polar_shares` from the rows of one :func:`share_window` only:
     ``field_dbu`` holds those rows (in its order) on ``dist_km``, which must reach past the
-    target's farthest point. ``max_deg`` is the densifying step along arcs [deg]."""
+    target's farthest point. ``max_deg`` is the densifying step along arcs [deg].
+
+    ``dist_km`` may also be the tail of the grid from a point nearer than the target
+    (``from_site=False``): the cells beyond it are contoured as in the whole grid, and the
+    region's cut at its first distance lies outside the target."""
     import contourpy
     import shapely
     from shapely.geometry import Polygon
@@ -355,8 +360,10 @@ def window_shares(unwrapped_deg, dist_km, field_dbu, levels_dbu, target_xy, max_
     far = float(np.hypot(*shapely.get_coordinates(target_xy).T).max())
     end = min(int(np.searchsorted(dist, far)) + 2, dist.size)
     z = np.asarray(field_dbu, dtype=float)[:, :end]
-    z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
-    d = np.concatenate([[0.0], dist[:end]])
+    d = dist[:end]
+    if from_site:
+        z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
+        d = np.concatenate([[0.0], d])
     gen = contourpy.contour_generator(d, np.asarray(unwrapped_deg, dtype=float), z,
                                       fill_type=contourpy.FillType.OuterOffset)
     shares = []

@@ -43,13 +43,15 @@ SEA_LIKE_MS_M = 1000.0
 #: Bearing step of a candidate's radials for its protected contour's area [deg]: 5° left the
 #: demo candidates' areas up to 1.9 % short of a full run's on 1° radials, 2.5° within 0.5 %.
 SEARCH_BEARING_STEP_DEG = 2.5
-#: Points of those radials from one wavelength to 10 km (geometric): 40 against the full run's
-#: 100 move the demo candidates' areas by under 0.05 %.
-SEARCH_NEAR_POINTS = 40
-#: Their distance step beyond 10 km [km] (the study's own step when coarser): the area comes
-#: from the filled marching squares, linear between grid points, and 4 km against 0.5 km moves
-#: the demo candidates' areas by under 0.05 %.
+#: Points of those radials from one wavelength to 10 km (geometric). The area comes from the
+#: filled marching squares, linear between grid points; against the full run's 100 points and
+#: 0.25 km steps, 25 points and the far steps below move 19 demo candidates' areas by under
+#: 0.01 %: the 2.5° bearing step is what leaves them within 0.5 %.
+SEARCH_NEAR_POINTS = 25
+#: Their distance step beyond 10 km: this many km, or ``SEARCH_FAR_RATIO`` of the distance
+#: where that is longer (the study's own step where that is coarser still).
 SEARCH_FAR_STEP_KM = 4.0
+SEARCH_FAR_RATIO = 0.12
 CHUNK = 24  # candidates per task
 
 
@@ -154,36 +156,44 @@ def _checks_for(spec, token: str):
 
 def _area_grid(freq_khz: float, max_km: float, step_km: float):
     """Distances [km] for a candidate's area radials: ``SEARCH_NEAR_POINTS`` geometric from
-    one wavelength to 10 km, then every ``SEARCH_FAR_STEP_KM`` (or ``step_km``) to ``max_km``."""
+    one wavelength to 10 km, then steps of ``SEARCH_FAR_STEP_KM`` or ``SEARCH_FAR_RATIO`` of
+    the distance, whichever is longer, to ``max_km``."""
     d0 = max(299.792458 / freq_khz, 0.05)
     near_end = min(10.0, max_km)
     near = np.geomspace(d0, near_end, SEARCH_NEAR_POINTS) if near_end > d0 else np.array([d0])
-    far_step = max(step_km, SEARCH_FAR_STEP_KM)
-    return np.concatenate([near, np.arange(near_end + far_step, max_km + far_step / 2, far_step)])
+    far = [near_end]
+    while far[-1] < max_km:
+        far.append(far[-1] + max(step_km, SEARCH_FAR_STEP_KM, SEARCH_FAR_RATIO * far[-1]))
+    return np.concatenate([near, far[1:]])
 
 
 def _community_shares(spec, moved, community_xy, levels):
     """The community's shares inside ``levels`` [dBµV/m] at the study's power, from radials on
     the study's own bearings and distance grid — as a full run — but only over the bearings
-    that reach the community and only as far as its farthest point (:func:`share_window`)."""
+    that reach the community (:func:`share_window`) and only over the distances from two grid
+    points before its nearest point to two past its farthest."""
     st = moved.station
     if community_xy.is_empty or community_xy.area <= 0:
         return [0.0 for _ in levels]
     far = float(np.hypot(*shapely.get_coordinates(community_xy).T).max())
-    max_km = max(far + 3 * spec.step_km, 10.0)  # two grid points past the community and more
+    max_km = max(far + 3 * spec.step_km, 10.0)
     dist = distance_grid(st.freq_khz, max_km, spec.step_km)
     brg = spec.bearings
     window = share_window(brg, community_xy, float(dist[0]))
-    if window is not None:
-        rows, unwrapped = window
-        brg = brg[rows]
-    e1 = st.antenna.field_mv_m(brg, 0.0, st.power_day_kw)
-    rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km,
-                        spec.step_km, spec.mixed_path, spec.earth_k, dist_km=dist)
     if window is None:  # the whole turn, as polar_shares contours it
+        e1 = st.antenna.field_mv_m(brg, 0.0, st.power_day_kw)
+        rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km,
+                            spec.step_km, spec.mixed_path, spec.earth_k, dist_km=dist)
         return polar_shares(brg, dist, rad.field_dbu, levels, community_xy)
+    rows, unwrapped = window
+    near = community_xy.distance(shapely.Point(0.0, 0.0))
+    first = max(int(np.searchsorted(dist, near)) - 2, 0)
+    dist = dist[first:]
+    e1 = st.antenna.field_mv_m(brg[rows], 0.0, st.power_day_kw)
+    rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg[rows], e1, max_km,
+                        spec.step_km, spec.mixed_path, spec.earth_k, dist_km=dist)
     return window_shares(unwrapped, dist, rad.field_dbu, levels, community_xy,
-                         arc_step_deg(spec.bearings))
+                         arc_step_deg(spec.bearings), from_site=first == 0)
 
 
 def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float,
