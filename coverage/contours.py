@@ -364,10 +364,20 @@ def window_shares(unwrapped_deg, dist_km, field_dbu, levels_dbu, target_xy, max_
     if from_site:
         z = np.column_stack([z[:, :1], z])  # the field at the first distance, down to the site
         d = np.concatenate([[0.0], d])
-    gen = contourpy.contour_generator(d, np.asarray(unwrapped_deg, dtype=float), z,
-                                      fill_type=contourpy.FillType.OuterOffset)
+    gen = None
     shares = []
     for level in levels_dbu:
+        # the window holds the target with a bearing and two distances to spare on each side:
+        # all of it above the level fills it, all below leaves it empty
+        if (z >= level).all():
+            shares.append(1.0)
+            continue
+        if (z < level).all():
+            shares.append(0.0)
+            continue
+        if gen is None:
+            gen = contourpy.contour_generator(d, np.asarray(unwrapped_deg, dtype=float), z,
+                                              fill_type=contourpy.FillType.OuterOffset)
         points, offsets = gen.filled(float(level), np.inf)
         inside = 0.0
         for pts, off in zip(points, offsets):  # disjoint polygons of one level
