@@ -142,15 +142,18 @@ def candidate_sites(spec, settings: SearchSettings):
 _WORKER: dict = {}
 
 
-def _checks_for(spec, token: str):
-    """The per-study tables (neighbour checks), built once per worker process."""
+def _worker_study(spec, token: str):
+    """The study and its per-study tables (neighbour checks) as this worker process first got
+    them for ``token``: every chunk arrives with its own unpickled copy of the study, and
+    keeping the first one keeps its ground map's caches (zone geometry in each site's plane,
+    edge tables) from one chunk to the next."""
     from .interference import NeighbourChecks
 
     hit = _WORKER.get(token)
     if hit is None:
         _WORKER.clear()
         checks = NeighbourChecks(spec, spec.interference) if spec.interference else None
-        hit = _WORKER[token] = checks
+        hit = _WORKER[token] = (spec, checks)
     return hit
 
 
@@ -259,7 +262,7 @@ def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float
 def evaluate_chunk(spec, settings: SearchSettings, token: str, items) -> list[Candidate]:
     """A chunk of candidates ((index, lat, lon), …) in one task; per-study tables are built
     once per worker and kept for the next chunk of the same study."""
-    checks = _checks_for(spec, token)
+    spec, checks = _worker_study(spec, token)
     return [evaluate_site(spec, settings, checks, i, la, lo) for i, la, lo in items]
 
 
