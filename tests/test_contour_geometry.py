@@ -173,3 +173,31 @@ def test_polar_area_without_the_region():
     r, big_r = 120.0, proj.gaussian_radius_km
     want = math.pi * r**2 * (1 - (r / big_r) ** 2 / 12)
     assert polar_area_km2(b, d, field, -r, proj) == pytest.approx(want, rel=1e-8)
+
+
+def test_window_shares_equal_the_whole_turn():
+    # the community shares of a window of radials (the site search's) against the regions of
+    # the whole turn cut by the community: marching squares is local to each cell, so the
+    # two agree to rounding, also when the window's grid starts just before the community
+    from mwreach.coverage.contours import (distance_grid, polar_regions, polar_shares,
+                                           share_window, window_shares)
+
+    b = np.arange(0.0, 360.0, 1.0)
+    d = distance_grid(1000.0, 80.0, 0.25)
+    # a field falling with distance, stronger toward the north-east and with a ridge across
+    # the community, so that its contours cut it
+    field = (110.0 - 20 * np.log10(d)[None, :] - 0.2 * d[None, :]
+             + 4 * np.cos(np.radians(b - 45.0))[:, None]
+             + 3 * np.sin(d / 3.0)[None, :])
+    community = shapely.box(20.0, 15.0, 32.0, 24.0)  # x east, y north [km]
+    levels = [70.0, 74.0, 78.0, 0.0, 200.0]
+    whole = [r.intersection(community).area / community.area
+             for r in polar_regions(b, d, field, levels)]
+    assert 0.05 < whole[1] < 0.95 and 0.05 < whole[2] < 0.95  # contours cut the community
+    assert polar_shares(b, d, field, levels, community) == pytest.approx(whole, abs=1e-9)
+    rows, unwrapped = share_window(b, community, float(d[0]))
+    first = int(np.searchsorted(d, community.distance(Point(0.0, 0.0)))) - 2
+    tail = window_shares(unwrapped, d[first:], field[rows][:, first:], levels, community, 1.0,
+                         from_site=False)
+    assert tail == pytest.approx(whole, abs=1e-9)
+    assert tail[3] == 1.0 and tail[4] == 0.0  # every value above / below the level
