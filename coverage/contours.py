@@ -19,6 +19,7 @@ __all__ = [
     "RadialFields",
     "LevelContour",
     "distance_grid",
+    "first_distance_km",
     "radial_length_km",
     "radial_fields",
     "crossings",
@@ -80,11 +81,15 @@ def radial_length_km(freq_khz: float, ground_map: GroundMap, level_mv_m: float,
     return float(np.clip(1.2 * d, min_km, MAX_RADIAL_KM))
 
 
+def first_distance_km(freq_khz: float) -> float:
+    """The first distance of every radial grid [km]: one wavelength, at least 50 m."""
+    return max(299.792458 / freq_khz, 0.05)
+
+
 def distance_grid(freq_khz: float, max_km: float, step_km: float) -> np.ndarray:
     """Distances [km] for radial fields: geometric from one wavelength to 10 km (100 points),
     then every ``step_km`` to ``max_km``."""
-    lam = 299.792458 / freq_khz  # wavelength [km]
-    d0 = max(lam, 0.05)
+    d0 = first_distance_km(freq_khz)
     near_end = min(10.0, max_km)
     near = np.geomspace(d0, near_end, 100) if near_end > d0 else np.array([d0])
     far = np.arange(near_end + step_km, max_km + step_km / 2, step_km)

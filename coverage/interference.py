@@ -23,8 +23,8 @@ from .classes import OVERLAP_RULES, PROTECTION_PLANS, STATION_CLASSES, StationCl
 from .contours import (
     MAX_RADIAL_KM,
     contour_geometry,
-    distance_grid,
     first_crossings,
+    first_distance_km,
     polar_region,
     level_contour,
     radial_fields,
@@ -1033,7 +1033,7 @@ def _overlap_entries(st: Station, spec, other_xy):
         return None
     which = np.array([i for i, _a, _e in hits])
     # the first distance of a radial grid, never below the wavelength as the curves compute it
-    near = max(distance_grid(st.freq_khz, far, 0.25)[0],
+    near = max(first_distance_km(st.freq_khz),
                model(st.freq_khz, spec.ground.default, spec.earth_k).wavelength_km)
     return brg[which], np.maximum(np.array([a for _i, a, _e in hits]), near)
 

@@ -28,8 +28,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import shapely
 
-from .contours import (arc_step_deg, distance_grid, polar_area_km2, polar_shares,
-                       radial_fields, radial_length_km, share_window, window_shares)
+from .contours import (arc_step_deg, distance_grid, first_distance_km, polar_area_km2,
+                       polar_shares, radial_fields, radial_length_km, share_window,
+                       window_shares)
 from .geodesy import inverse, local_projection
 from .groundwave import mv_m_to_dbu
 
@@ -40,18 +41,19 @@ SCORES = ("community_share", "area", "max_power")
 #: Ground at or above this conductivity is sea water and not a place for a tower [mS/m]
 #: (ITU-R P.368 sea classes: 1 and 5 S/m; fresh water 3 mS/m must be marked by the user).
 SEA_LIKE_MS_M = 1000.0
-#: Bearing step of a candidate's radials for its protected contour's area [deg]: 5° left the
-#: demo candidates' areas up to 1.9 % short of a full run's on 1° radials, 2.5° within 0.5 %.
+#: Bearing step of a candidate's radials for its protected contour's area [deg]. Against full
+#: runs (1° radials, 0.25 km steps), on 49 demo candidates: 5° left areas up to 1.9 % short,
+#: 2.5° with the distance grid below within 0.6 %, 2° within 0.4 % (a quarter slower).
 SEARCH_BEARING_STEP_DEG = 2.5
-#: Points of those radials from one wavelength to 10 km (geometric). The area comes from the
-#: filled marching squares, linear between grid points; against the full run's 100 points and
-#: 0.25 km steps, 25 points and the far steps below move 19 demo candidates' areas by under
-#: 0.01 %: the 2.5° bearing step is what leaves them within 0.5 %.
+#: Points of those radials from one wavelength to 10 km (geometric).
 SEARCH_NEAR_POINTS = 25
 #: Their distance step beyond 10 km: this many km, or ``SEARCH_FAR_RATIO`` of the distance
-#: where that is longer (the study's own step where that is coarser still).
-SEARCH_FAR_STEP_KM = 4.0
-SEARCH_FAR_RATIO = 0.12
+#: where that is longer (the study's own step where that is coarser still). The area comes
+#: from the filled marching squares, linear in dB between grid points, so a step that crosses
+#: a zone boundary misplaces the contour: 4 km and 12 % left one demo candidate's area 1.4 %
+#: short, 1 km and 4 % (109 points to 370 km) keep all 49 within 0.6 %.
+SEARCH_FAR_STEP_KM = 1.0
+SEARCH_FAR_RATIO = 0.04
 CHUNK = 24  # candidates per task
 
 
@@ -161,7 +163,7 @@ def _area_grid(freq_khz: float, max_km: float, step_km: float):
     """Distances [km] for a candidate's area radials: ``SEARCH_NEAR_POINTS`` geometric from
     one wavelength to 10 km, then steps of ``SEARCH_FAR_STEP_KM`` or ``SEARCH_FAR_RATIO`` of
     the distance, whichever is longer, to ``max_km``."""
-    d0 = max(299.792458 / freq_khz, 0.05)
+    d0 = first_distance_km(freq_khz)
     near_end = min(10.0, max_km)
     near = np.geomspace(d0, near_end, SEARCH_NEAR_POINTS) if near_end > d0 else np.array([d0])
     far = [near_end]
