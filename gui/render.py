@@ -320,12 +320,19 @@ def _draw_field(p: QPainter, view: View, result):
     p.restore()
 
 
-def _draw_field_scale(p: QPainter, view: View, opts: MapOptions) -> QRectF:
-    """The colour scale of the field shading, bottom right of the map."""
+def _draw_colour_scale(p: QPainter, view: View, opts: MapOptions, title: str, low: str,
+                       high: str, above: QRectF | None = None) -> QRectF:
+    """A colour scale of :func:`heat_colour`, bottom right of the map (above ``above`` when
+    given), with its title over it and the values of its ends under it; returns its box."""
     s = opts.line_scale
-    w, h = 150 * s, 10 * s
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(opts.font_pt * 0.8)
+    p.save()
+    p.setFont(font)
+    w = max(150 * s, p.fontMetrics().horizontalAdvance(title) + 4 * s)
+    h = 10 * s
     x = view.rect.right() - w - 12 * s
-    y = view.rect.bottom() - h - 22 * s
+    y = (view.rect.bottom() if above is None else above.top()) - h - 22 * s
     box = QRectF(x - 6 * s, y - 14 * s, w + 12 * s, h + 30 * s)
     p.setPen(Qt.NoPen)
     p.setBrush(QColor(255, 255, 255, 225))
@@ -335,14 +342,10 @@ def _draw_field_scale(p: QPainter, view: View, opts: MapOptions) -> QRectF:
     p.setPen(QPen(Qt.black, 0.6 * s))
     p.setBrush(Qt.NoBrush)
     p.drawRect(QRectF(x, y, w, h))
-    font = QFont("DejaVu Sans", 1)
-    font.setPointSizeF(opts.font_pt * 0.8)
-    p.setFont(font)
-    p.drawText(QRectF(x, y - 13 * s, w, 12 * s), Qt.AlignCenter, "field [dBµV/m]")
-    p.drawText(QRectF(x - 4 * s, y + h + 1 * s, 40 * s, 12 * s), Qt.AlignLeft,
-               f"{SHADE_DBU[0]:g}")
-    p.drawText(QRectF(x + w - 36 * s, y + h + 1 * s, 40 * s, 12 * s), Qt.AlignRight,
-               f"{SHADE_DBU[1]:g}")
+    p.drawText(QRectF(x, y - 13 * s, w, 12 * s), Qt.AlignCenter, title)
+    p.drawText(QRectF(x - 4 * s, y + h + 1 * s, w / 2, 12 * s), Qt.AlignLeft, low)
+    p.drawText(QRectF(x + w / 2, y + h + 1 * s, w / 2 + 4 * s, 12 * s), Qt.AlignRight, high)
+    p.restore()
     return box
 
 
@@ -577,8 +580,16 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         labels.reserved.append(_draw_scale_bar(p, view, opts))
     if opts.north_arrow:
         labels.reserved.append(_draw_north_arrow(p, view, opts))
+    scale_box = None
     if opts.field_shading:
-        labels.reserved.append(_draw_field_scale(p, view, opts))
+        scale_box = _draw_colour_scale(p, view, opts, "field [dBµV/m]", f"{SHADE_DBU[0]:g}",
+                                       f"{SHADE_DBU[1]:g}")
+        labels.reserved.append(scale_box)
+    if opts.heat is not None and opts.legend:  # the heat-map picture draws its own scale
+        heat = opts.heat
+        labels.reserved.append(_draw_colour_scale(
+            p, view, opts, f"site search: {heat.label}", f"{heat.vmin:.4g}",
+            f"{heat.vmax:.4g}", scale_box))
     labels.flush()
     p.setPen(QPen(Qt.black, 1.0 * s))
     p.setBrush(Qt.NoBrush)

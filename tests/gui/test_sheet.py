@@ -256,3 +256,41 @@ def test_margin_table_columns_hold_their_widest_bold_text(tmp_path):
         assert share * width > widest
     doc.painter.end()
     buf.close()
+
+
+def test_map_with_a_heat_layer_shows_its_colour_scale(demo_result):
+    # the interactive map names what the site-search squares mean: a colour scale with the
+    # score's title and ends, stacked above the field shading's scale when both are on
+    from PySide6.QtCore import QRectF
+    from PySide6.QtGui import QImage, QPainter
+
+    from mwreach.gui.qt import ensure_app
+    from mwreach.gui.render import (HeatLayer, MapOptions, View, _draw_colour_scale,
+                                    draw_map, fit_view, heat_colour)
+
+    ensure_app()
+    heat = HeatLayer(np.array([0.0, 3.0]), np.array([0.0, 3.0]), np.array([0.2, 0.9]), 3.0,
+                     0.2, 0.9, "community share")
+    img = QImage(900, 700, QImage.Format_ARGB32)
+    img.fill(0xFFFFFFFF)
+    p = QPainter(img)
+    view = fit_view(demo_result, QRectF(10, 10, 880, 680))
+    opts = MapOptions(heat=heat, field_shading=True)
+    draw_map(p, view, demo_result, opts)
+    p.end()
+    # where the two scales go, found on a scratch picture
+    scratch = QImage(900, 700, QImage.Format_ARGB32)
+    q = QPainter(scratch)
+    below = _draw_colour_scale(q, view, opts, "field [dBµV/m]", "-", "-")
+    box = _draw_colour_scale(q, view, opts, "site search: community share", "-", "-", below)
+    q.end()
+    assert box.bottom() <= below.top()  # stacked, not overlapping
+    # the ramp's dark low end, inside the heat scale's box, in the picture draw_map made
+    # (10 levels: the first colour band is 2.5 px wide and its edge blends with the next;
+    # the map under the box is light)
+    low = heat_colour(0.0)
+    x = int(box.left() + 6 * opts.line_scale + 2)
+    ys = range(int(box.top()), int(box.bottom()))
+    assert any(max(abs(img.pixelColor(x, y).red() - low.red()),
+                   abs(img.pixelColor(x, y).green() - low.green()),
+                   abs(img.pixelColor(x, y).blue() - low.blue())) <= 10 for y in ys)
