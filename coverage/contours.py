@@ -31,6 +31,7 @@ __all__ = [
     "polar_area_km2",
     "polar_shares",
     "share_window",
+    "bearing_arc",
     "window_shares",
     "arc_step_deg",
     "field_raster",
@@ -320,6 +321,17 @@ def _polar_regions(bearings_deg, dist_km, field_dbu, shift, levels):
     return [_region_xy(*gen.filled(level, np.inf), halves, d[-1], max_deg) for level in levels]
 
 
+def bearing_arc(xy) -> tuple[float, float]:
+    """The smallest arc of bearings from the origin that holds every point of ``xy`` ((n, 2),
+    x east, y north): (its first bearing [deg, 0..360), its span [deg]); it starts after the
+    widest gap between the points' bearings."""
+    ang = np.mod(np.degrees(np.arctan2(xy[:, 0], xy[:, 1])), 360.0)
+    srt = np.sort(ang)
+    gaps = np.diff(np.concatenate([srt, srt[:1] + 360.0]))
+    k = int(np.argmax(gaps))
+    return float(srt[(k + 1) % srt.size]), float(360.0 - gaps[k])
+
+
 def share_window(bearings_deg, target_xy, first_km: float):
     """The bearings whose radials reach ``target_xy`` (a region in the site's plane), for
     :func:`polar_shares`: ``(rows, unwrapped)`` — the indices into the sorted ``bearings_deg``
@@ -333,11 +345,7 @@ def share_window(bearings_deg, target_xy, first_km: float):
     xy = shapely.get_coordinates(target_xy)
     if b.size < 3 or xy.size == 0:
         return None
-    ang = np.mod(np.degrees(np.arctan2(xy[:, 0], xy[:, 1])), 360.0)
-    srt = np.sort(ang)
-    gaps = np.diff(np.concatenate([srt, srt[:1] + 360.0]))
-    k = int(np.argmax(gaps))
-    start, span = srt[(k + 1) % srt.size], 360.0 - gaps[k]  # the smallest arc with every vertex
+    start, span = bearing_arc(xy)
     step = float(np.max(np.diff(np.append(b, b[0] + 360.0))))
     if span + 4 * step >= 180.0 or target_xy.distance(shapely.Point(0.0, 0.0)) <= first_km:
         return None

@@ -22,6 +22,7 @@ from .antenna import Array
 from .classes import OVERLAP_RULES, PROTECTION_PLANS, STATION_CLASSES, StationClass
 from .contours import (
     MAX_RADIAL_KM,
+    bearing_arc,
     contour_geometry,
     first_crossings,
     first_distance_km,
@@ -976,13 +977,7 @@ def _bearings_toward(g, bearings=OVERLAP_BEARINGS):
         return np.array([])
     if g.contains(shapely.Point(0.0, 0.0)) or g.distance(shapely.Point(0.0, 0.0)) < 1e-6:
         return np.asarray(bearings, dtype=float)
-    xy = shapely.get_coordinates(g)
-    ang = np.mod(np.degrees(np.arctan2(xy[:, 0], xy[:, 1])), 360.0)
-    # the smallest arc that holds every vertex angle
-    srt = np.sort(ang)
-    gaps = np.diff(np.concatenate([srt, srt[:1] + 360.0]))
-    k = int(np.argmax(gaps))
-    start, span = srt[(k + 1) % srt.size], 360.0 - gaps[k]
+    start, span = bearing_arc(shapely.get_coordinates(g))
     step = float(bearings[1] - bearings[0]) if len(bearings) > 1 else 360.0
     rel = np.mod(np.asarray(bearings, dtype=float) - start + step, 360.0)
     return np.asarray(bearings, dtype=float)[rel <= span + 2 * step]
