@@ -184,7 +184,7 @@ def _community_shares(spec, moved, community_xy, levels):
     far = float(np.hypot(*shapely.get_coordinates(community_xy).T).max())
     max_km = max(far + 3 * spec.step_km, 10.0)
     dist = distance_grid(st.freq_khz, max_km, spec.step_km)
-    brg = spec.bearings
+    brg = spec.bearings  # sorted
     window = share_window(brg, community_xy, float(dist[0]))
     if window is None:  # the whole turn, as polar_shares contours it
         e1 = st.antenna.field_mv_m(brg, 0.0, st.power_day_kw)
@@ -199,7 +199,7 @@ def _community_shares(spec, moved, community_xy, levels):
     rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg[rows], e1, max_km,
                         spec.step_km, spec.mixed_path, spec.earth_k, dist_km=dist)
     return window_shares(unwrapped, dist, rad.field_dbu, levels, community_xy,
-                         arc_step_deg(spec.bearings), from_site=first == 0)
+                         arc_step_deg(brg), from_site=first == 0)
 
 
 def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float,
