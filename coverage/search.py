@@ -182,6 +182,8 @@ def _community_shares(spec, moved, community_xy, levels):
     if community_xy.is_empty or community_xy.area <= 0:
         return [0.0 for _ in levels]
     far = float(np.hypot(*shapely.get_coordinates(community_xy).T).max())
+    # window_shares reads two grid points past the farthest point; 10 km keeps the near
+    # part of the grid the full run's
     max_km = max(far + 3 * spec.step_km, 10.0)
     dist = distance_grid(st.freq_khz, max_km, spec.step_km)
     brg = spec.bearings  # sorted
