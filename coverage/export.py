@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import csv
 import io
 import json
 import math
@@ -13,7 +12,8 @@ import numpy as np
 
 from .groundwave import mv_m_to_dbu
 from .inputs import spec_to_doc
-from .safefiles import atomic_write, write_set
+from . import version
+from .safefiles import atomic_write, csv_writer, write_set
 from .study import StudyResult
 
 __all__ = ["KM_PER_MI", "version", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
@@ -93,23 +93,12 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
     return out
 
 
-def version() -> str:
-    """The installed mwreach version ("unknown" when running from an uninstalled tree)."""
-    from importlib.metadata import PackageNotFoundError
-    from importlib.metadata import version as dist_version
-
-    try:
-        return dist_version("mwreach")
-    except PackageNotFoundError:  # running from a source tree without install
-        return "unknown"
-
-
 def radials_csv(result: StudyResult) -> str:
     """Bearing × level distances in km and mi, and the stretches beyond the first crossing
     where the field is above the level again (recovery), each in two numeric columns
     (``…_further_N_from_km``, ``…_further_N_to_km``)."""
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv_writer(buf)
     head = ["bearing_deg", "e1km_mv_m"]
     spans = [max((len(f) for f in c.further), default=0) for c in result.contours]
     for c, n in zip(result.contours, spans):
@@ -320,7 +309,7 @@ def night_json(result: StudyResult) -> dict:
 def interference_csv(result: StudyResult) -> str:
     """One row per neighbour and check point: fields, ratio, margin, pass."""
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv_writer(buf)
     w.writerow(["kind", "neighbour", "offset_channels", "bearing_deg", "lat", "lon",
                 "wanted_dbu", "wanted_mv_m", "unwanted_dbu", "unwanted_mv_m", "ratio_db",
                 "margin_db", "pass", "mechanism", "overlap_km2"])

@@ -517,7 +517,7 @@ class MainWindow(QMainWindow):
         QMessageBox.information(self, "Cautions", CAUTIONS)
 
     def show_about(self):
-        from mwreach.coverage.export import version
+        from mwreach.coverage import version
 
         QMessageBox.about(self, "About mwreach",
                           f"mwreach {version()}\nMedium-wave coverage and interference "

@@ -13,7 +13,8 @@ import numpy as np
 from PySide6.QtCore import QMarginsF, QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QFont, QPageLayout, QPageSize, QPainter, QPdfWriter, QPen
 
-from mwreach.coverage.export import KM_PER_MI, version
+from mwreach.coverage import version
+from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.geodesy import dms, inverse
 from mwreach.coverage.interference import describe_max_power, summary_cells
 
