@@ -397,11 +397,12 @@ def fit_json(fits, combined: CombinedFit | None, spec, eps_r: float, near_km: fl
 
 
 def fit_csv(fits) -> str:
-    import csv
     import io
 
+    from .safefiles import csv_writer
+
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv_writer(buf)
     w.writerow(["radial", "line", "dist_km", "measured_dbu", "fitted_dbu", "residual_db",
                 "status", "note"])
     for f in fits:

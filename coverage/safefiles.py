@@ -8,6 +8,7 @@
   with the old set kept aside until the swap is complete and put back if it fails. A failure
   (disk full, permission, interruption) leaves the old set complete and no temporaries behind.
 - :func:`refuse_overwriting_inputs` stops a run whose outputs would replace a file it reads.
+- :func:`csv_writer` writes CSV whose text cells a spreadsheet will not run as formulas.
 
 Every error is a ``ValueError`` with one line naming the file or folder.
 """
@@ -21,9 +22,45 @@ import stat
 import tempfile
 
 __all__ = ["atomic_write", "write_set", "refuse_overwriting_inputs", "writable_folder",
-           "TMP_PREFIX"]
+           "csv_writer", "csv_cell", "TMP_PREFIX"]
 
 TMP_PREFIX = ".mwreach-"
+
+
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def csv_cell(value):
+    """A cell that a spreadsheet shows as text: a text cell that begins with ``=``, ``+``,
+    ``-``, ``@``, a tab or a carriage return gets a leading apostrophe, unless it is a number
+    (``-46.20000`` stays a number). Common practice, no published standard: the OWASP
+    "CSV injection" advice."""
+    if isinstance(value, str) and value.startswith(_FORMULA_START):
+        try:
+            float(value)
+        except ValueError:
+            return "'" + value
+    return value
+
+
+class _SafeWriter:
+    def __init__(self, writer):
+        self._w = writer
+
+    def writerow(self, row):
+        return self._w.writerow([csv_cell(v) for v in row])
+
+    def writerows(self, rows):
+        for row in rows:
+            self.writerow(row)
+
+
+def csv_writer(buf):
+    """``csv.writer(buf)`` with "\n" line ends whose rows pass through :func:`csv_cell`: every
+    CSV the tool writes goes through it."""
+    import csv
+
+    return _SafeWriter(csv.writer(buf, lineterminator="\n"))
 
 
 def _os_message(exc: OSError, path) -> str:
