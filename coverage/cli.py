@@ -387,22 +387,22 @@ def _cmd_search(args) -> int:
         raise UsageError("no candidate site in the area (all water, excluded or outside)")
     if n > 200_000:
         raise UsageError(f"{n} candidates: use a larger --step-km (at most 200000)")
-    workers = os.cpu_count() or 1 if args.workers is None else int(args.workers)
-    if workers < 1:
-        raise UsageError(f"--workers must be >= 1 (got {workers})")
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    cores = cores or 1
+    workers = cores if args.workers is None else int(args.workers)
+    if not 1 <= workers <= cores:
+        raise UsageError(f"--workers must be 1–{cores}, the cores available (got {workers})")
     print(f"{n} candidate sites every {settings.step_km:g} km; score: {settings.score}")
-    if args.scheduler:
-        try:
-            from dask.distributed import Client
-        except ImportError:
-            raise UsageError("--scheduler needs the cluster extra: pip install -e '.[cluster]'") from None
-        try:
-            client = Client(args.scheduler, timeout=10)
-        except OSError as exc:
-            raise UsageError(f"--scheduler {args.scheduler}: cannot connect ({exc})") from None
+    if args.scheduler is not None:
+        timeout = check_finite("--connect-timeout", args.connect_timeout, 0.5, 600.0)
+        client, lost = _connect_scheduler(args.scheduler, timeout)
         with client:
             workers = len(client.scheduler_info().get("workers", {})) or 1
-            search = run_search(spec, settings, client.get_executor(), _Eta(), workers)
+            search = run_search(spec, settings, client.get_executor(), _Eta(), workers, lost)
+        if search.stop_reason not in ("", "interrupted"):
+            print(f"mwreach search: lost the scheduler at {args.scheduler} "
+                  f"({search.stop_reason}); writing the "
+                  f"{len(search.candidates)} candidates done", file=sys.stderr)
     elif workers == 1:
         search = run_search(spec, settings, None, _Eta(), 1)
     else:
@@ -447,6 +447,83 @@ def _cmd_search(args) -> int:
     return 130 if search.stopped_early else 0
 
 
+def _connect_scheduler(address: str, timeout_s: float):
+    """A Dask client for ``address`` and the test that tells a lost scheduler, or a UsageError
+    naming the address within about ``timeout_s`` seconds: a refused or silent port, or
+    something there that does not speak Dask's protocol (a web proxy answers with text that
+    the protocol would read as a message length)."""
+    import logging
+    import socket
+    import urllib.parse
+
+    where = f"--scheduler {address!r}"
+    url = urllib.parse.urlsplit(address.strip())
+    try:
+        port = url.port
+    except ValueError:
+        port = None
+    if url.scheme not in ("tcp", "tls") or not url.hostname or port is None or url.path:
+        raise UsageError(f"{where}: give the scheduler as tcp://HOST:PORT (or tls://HOST:PORT)")
+    try:
+        from dask.distributed import Client
+    except ImportError:
+        raise UsageError("--scheduler needs the cluster extra: pip install -e '.[cluster]'") from None
+    # the cluster library logs each failed attempt on stderr: our one line says it instead
+    for name in ["tornado", "asyncio"] + [n for n in logging.root.manager.loggerDict
+                                          if n.split(".")[0] == "distributed"]:
+        logging.getLogger(name).setLevel(logging.CRITICAL + 1)
+    try:  # a refused or unreachable port answers fast, without the client's retries
+        socket.create_connection((url.hostname, port), timeout=timeout_s).close()
+    except OSError as exc:
+        raise UsageError(f"{where}: cannot connect ({exc.strerror or exc})") from None
+    kind = _scheduler_identity(address.strip(), timeout_s)
+    if kind != "Scheduler":
+        raise UsageError(f"{where}: no Dask scheduler answered within {timeout_s:g} s ({kind})")
+    try:
+        client = Client(address.strip(), timeout=timeout_s, set_as_default=False)
+    except Exception as exc:  # it answered the probe but not the client: not usable either
+        text = (str(exc).splitlines() or [""])[0][:160] or type(exc).__name__
+        raise UsageError(f"{where}: the scheduler did not take a client ({text})") from None
+
+    def lost(exc) -> bool:
+        import concurrent.futures
+
+        from distributed.comm.core import CommClosedError
+
+        return isinstance(exc, (CommClosedError, OSError, concurrent.futures.CancelledError,
+                                concurrent.futures.TimeoutError)) or client.status != "running"
+
+    return client, lost
+
+
+def _scheduler_identity(address: str, timeout_s: float) -> str:
+    """Ask what answers at ``address``: "Scheduler" for a Dask scheduler, else a short reason.
+
+    One handshake and one ``identity`` request on a connection of our own, bounded by
+    ``timeout_s`` as a whole, so that neither a silent port nor a stranger's reply (which the
+    protocol could read as an absurd message length) reaches the client library."""
+    import asyncio
+
+    from distributed.comm import connect
+
+    async def ask():
+        comm = await connect(address, timeout=timeout_s)
+        try:
+            await comm.write({"op": "identity", "reply": True})
+            reply = await comm.read()
+        finally:
+            comm.abort()
+        return reply.get("type", "no type in its reply") if isinstance(reply, dict) else \
+            "its reply is not a Dask message"
+
+    try:
+        return str(asyncio.run(asyncio.wait_for(ask(), timeout_s)))
+    except (asyncio.TimeoutError, TimeoutError):
+        return "no reply"
+    except Exception:  # what answers does not speak Dask's protocol
+        return "what answers there does not speak Dask's protocol"
+
+
 def _cmd_fit(args) -> int:
     import pathlib
 
@@ -469,8 +546,11 @@ def _cmd_fit(args) -> int:
     tower_m = max(float(e.tower.height_deg) / 360.0 * 299_792.458 / spec.station.freq_khz
                   for e in spec.station.antenna.elements)
     near = near_field_km(spec.station.freq_khz, tower_m)
-    fits = fit_all(spec, groups, eps, near)
-    combined = fit_combined(spec, groups, eps, near) if len(groups) > 1 else None
+    try:
+        fits = fit_all(spec, groups, eps, near)
+        combined = fit_combined(spec, groups, eps, near) if len(groups) > 1 else None
+    except ValueError as exc:  # too few usable readings: the file is what to mend
+        raise UsageError(f"{args.measurements}: {exc}") from None
     files = {"fit.json": json.dumps(fit_json(fits, combined, spec, eps, near), indent=1,
                                     ensure_ascii=False) + "\n",
              "fit.csv": fit_csv(fits)}
@@ -602,7 +682,7 @@ def _method_name(method: str) -> str:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from .export import version
+    from . import version
 
     p = _Parser(
         prog="mwreach", formatter_class=_HelpFormatter,
@@ -695,6 +775,8 @@ def build_parser() -> argparse.ArgumentParser:
     se.add_argument("--workers", type=int, help="local worker processes (default: all cores)")
     se.add_argument("--scheduler", help="tcp://HOST:PORT of a Dask distributed scheduler "
                     "(needs the cluster extra)")
+    se.add_argument("--connect-timeout", type=float, default=10.0,
+                    help="seconds to wait for the scheduler to answer [s], 0.5–600")
     se.set_defaults(func=_cmd_search)
 
     fi = sub.add_parser("fit", help="ground conductivity and E0 from field-strength "

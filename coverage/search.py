@@ -98,6 +98,7 @@ class SearchResult:
     total: int = 0  # candidates in the area
     elapsed_s: float = 0.0
     stopped_early: bool = False
+    stop_reason: str = ""  # why it stopped early: "interrupted", or the lost executor's message
     workers: int = 1
 
 
@@ -286,11 +287,14 @@ def _rank(cands: list[Candidate]) -> list[Candidate]:
 
 
 def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
-               progress=None, workers: int = 1) -> SearchResult:
+               progress=None, workers: int = 1, lost=None) -> SearchResult:
     """Evaluate every candidate, in chunks, on ``executor`` (None: in this process).
 
     ``progress(done, total, elapsed_s)`` is called as chunks come back. A KeyboardInterrupt
     stops the search: the candidates done so far are returned, ``stopped_early`` set.
+    ``lost(exc)`` tells an executor that has gone away (a cluster scheduler that died) from a
+    failure of the evaluation itself: the first stops the search like Ctrl-C, keeping what is
+    done, with the reason in ``stop_reason``; the second is raised.
     """
     t0 = time.perf_counter()
     lat, lon = candidate_sites(spec, settings)
@@ -311,8 +315,18 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
             try:
                 while pending:
                     done, pending = wait(pending, return_when=FIRST_COMPLETED)
-                    for fut in done:
-                        out += fut.result()
+                    gone = None
+                    for fut in done:  # keep every chunk that came back before stopping
+                        try:
+                            out += fut.result()
+                        except Exception as exc:
+                            if lost is None or not lost(exc):
+                                raise
+                            gone = gone or exc
+                    if gone is not None:
+                        text = str(gone).splitlines()[0] if str(gone) else "the connection closed"
+                        result.stop_reason = f"{type(gone).__name__}: {text}"
+                        raise KeyboardInterrupt from gone
                     if progress:
                         progress(len(out), len(items), time.perf_counter() - t0)
             except KeyboardInterrupt:
@@ -321,6 +335,7 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
                 raise
     except KeyboardInterrupt:
         result.stopped_early = True
+        result.stop_reason = result.stop_reason or "interrupted"
     result.candidates = _rank(out)
     result.elapsed_s = time.perf_counter() - t0
     return result
@@ -343,11 +358,12 @@ def _fmt(v, digits=4):
 
 def candidates_csv(search: SearchResult) -> str:
     """Ranked candidates, one row each (best first)."""
-    import csv
     import io
 
+    from .safefiles import csv_writer
+
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = csv_writer(buf)
     w.writerow(CSV_COLUMNS)
     for rank, c in enumerate(search.candidates, 1):
         w.writerow([rank, f"{c.lat:.6f}", f"{c.lon:.6f}", _fmt(c.score, 6),

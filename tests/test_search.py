@@ -140,3 +140,97 @@ def test_cli_search_writes_ranked_outputs(tmp_path):
     png = (out / "heatmap.png").read_bytes()
     assert png.startswith(b"\x89PNG") and len(png) > 20_000
     assert cli.main(["search", str(DEMO), "-o", str(out)]) == 2  # neither area nor radius
+
+
+def test_lost_executor_keeps_what_is_done(spec):
+    # a cluster whose scheduler dies after two chunks: the search stops like Ctrl-C, keeping
+    # the candidates done, and says why; a failure of the evaluation itself is still raised
+    from concurrent.futures import Executor, Future
+
+    class Dying(Executor):
+        def __init__(self, error):
+            self.n, self.error = 0, error
+
+        def submit(self, fn, *args):
+            fut = Future()
+            self.n += 1
+            if self.n <= 2:
+                fut.set_result(fn(*args))
+            else:
+                fut.set_exception(self.error)
+            return fut
+
+    settings = SearchSettings(step_km=4.0, radius_km=25.0)
+    gone = ConnectionResetError("scheduler went away")
+    res = run_search(spec, settings, Dying(gone), lost=lambda exc: exc is gone)
+    assert res.stopped_early and 0 < len(res.candidates) < res.total
+    assert "scheduler went away" in res.stop_reason
+    with pytest.raises(ZeroDivisionError):
+        run_search(spec, settings, Dying(ZeroDivisionError("a bug")), lost=lambda exc: exc is gone)
+
+
+def _cli_subprocess(*argv, timeout=120):
+    import subprocess
+    import sys
+
+    return subprocess.run([sys.executable, "-m", "mwreach.coverage.cli", *map(str, argv)],
+                          capture_output=True, text=True, timeout=timeout)
+
+
+@pytest.mark.parametrize("reply", [b"HTTP/1.1 400 Bad Request\r\nContent-Length: 0\r\n\r\n",
+                                   None])  # a web proxy's answer, or nothing at all
+def test_scheduler_address_that_is_not_a_scheduler(tmp_path, reply):
+    import socket
+    import threading
+
+    server = socket.create_server(("127.0.0.1", 0))
+    port = server.getsockname()[1]
+    held = []
+
+    def serve():
+        while True:
+            try:
+                conn, _ = server.accept()
+            except OSError:
+                return
+            held.append(conn)
+            if reply is not None:
+                try:
+                    conn.recv(1024)
+                    conn.sendall(reply)
+                finally:
+                    conn.close()
+
+    threading.Thread(target=serve, daemon=True).start()
+    try:
+        res = _cli_subprocess("search", DEMO, "--radius-km", "5", "--step-km", "3",
+                              "-o", tmp_path / "s", "--scheduler", f"tcp://127.0.0.1:{port}",
+                              "--connect-timeout", "2")
+    finally:
+        server.close()
+        for c in held:
+            c.close()
+    assert res.returncode == 2, res.stderr
+    assert res.stderr.count("\n") == 1 and "Traceback" not in res.stderr, res.stderr
+    assert f"--scheduler 'tcp://127.0.0.1:{port}'" in res.stderr
+    assert "no reply" in res.stderr if reply is None else "protocol" in res.stderr
+    assert not (tmp_path / "s").exists() or not any((tmp_path / "s").iterdir())
+
+
+@pytest.mark.parametrize("argv, needle", [
+    (["--scheduler", ""], "--scheduler ''"),
+    (["--scheduler", "not a url"], "--scheduler 'not a url'"),
+    (["--scheduler", "tcp://127.0.0.1:1"], "cannot connect"),
+    (["--scheduler", "tcp://127.0.0.1:1", "--connect-timeout", "nan"], "--connect-timeout"),
+    (["--workers", "100000"], "--workers must be 1–"),
+])
+def test_search_options_refused_in_one_line(tmp_path, argv, needle):
+    import contextlib
+    import io
+
+    err = io.StringIO()
+    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
+        rc = cli.main(["search", str(DEMO), "--radius-km", "5", "--step-km", "3",
+                       "-o", str(tmp_path / "s"), *argv])
+    assert rc == 2 and err.getvalue().count("\n") == 1 and needle in err.getvalue(), \
+        err.getvalue()
