@@ -97,6 +97,8 @@ class StationEditor(_Editor):
         self.apply(lambda d: d.setdefault("station", {}).__setitem__(key, value), widget)
 
     def _commit_title(self):
+        if self.title.text() == str(self.document.doc.get("study", {}).get("title", "")):
+            return
         self.apply(lambda d: d.setdefault("study", {}).__setitem__("title", self.title.text()))
 
     def refresh(self):
@@ -489,28 +491,41 @@ class NightEditor(_Editor):
         self._loading = False
 
     def _night(self, *_):
-        vals = {"method": self.method.currentData(), "percent": self.percent.currentData(),
-                "exclusion_percent": self.exclusion.currentData(),
-                "floor_mv_m": _number_or_text(self.floor.text())}
-        self.apply(lambda d: d.setdefault("night", {}).update(vals), self.floor)
-
-    def _ratios(self, *_):
         if self._loading:
             return
-        table = {}
-        for r, period in enumerate(("day", "night")):
-            for c, name in enumerate(self.OFFSETS):
-                item = self.ratios.item(r, c)
-                t = item.text().strip() if item else ""
-                if t:
-                    table[f"{period}_{name}_db"] = _number_or_text(t)
+        n = self.document.spec.interference.night
+        floor = _number_or_text(self.floor.text())
+        vals = {k: v for k, v, now in (
+            ("method", self.method.currentData(), n.method),
+            ("percent", self.percent.currentData(), n.percent),
+            ("exclusion_percent", self.exclusion.currentData(), n.exclusion_percent),
+            ("floor_mv_m", floor, f"{n.floor_mv_m:g}" if isinstance(floor, str) else n.floor_mv_m),
+        ) if v != now}  # only what the user changed; the file keeps the rest as it was
+        if not vals:
+            self.floor.setStyleSheet("")
+            return
+        self.apply(lambda d: d.setdefault("night", {}).update(vals), self.floor)
+
+    def _ratios(self, row, col):
+        """Only the edited cell changes the study: a number sets that row of [protection], an
+        empty cell takes the row back to the plan's; every other key (plan, raster, other rows)
+        stays as the file has it."""
+        if self._loading:
+            return
+        period, name = ("day", "night")[row], self.OFFSETS[col]
+        key = f"{period}_{name}_db"
+        item = self.ratios.item(row, col)
+        text = item.text().strip() if item else ""
+        shown = self.document.spec.interference.protection.ratios.get((period, col))
+        if text == ("" if shown is None else f"{shown[0]:g}"):
+            return  # the cell holds what it showed: nothing changed
 
         def mutate(d):
             prot = d.setdefault("protection", {})
-            raster = prot.get("raster_khz", 10)
-            prot.clear()
-            prot["raster_khz"] = raster
-            prot.update(table)
+            if text:
+                prot[key] = _number_or_text(text)
+            else:
+                prot.pop(key, None)
 
         self.apply(mutate)
 

@@ -287,7 +287,15 @@ def test_neighbour_with_height_m_is_editable(qtbot, window):
 
 @pytest.mark.parametrize("title", ["line one\nline two", "bell \u0001 and delete \u007f",
                                    'quote " back\\slash \t tab'])
-def test_save_reopen_text_with_control_characters(qtbot, window, tmp_path, title):
+def test_control_characters_in_text_are_refused_at_the_field(qtbot, window, title):
+    # they would break the KML, the CSVs and file names: refused like any bad value
+    _open_and_wait(qtbot, window)
+    err = window.document.try_update(lambda d: d["study"].__setitem__("title", title))
+    assert err is not None and "title must not contain control characters" in err
+
+
+def test_save_reopen_text_with_quotes_and_backslashes(qtbot, window, tmp_path):
+    title = 'quote " back\\slash \\t and \u00e9\u00b5 \U0001f4fb'
     _open_and_wait(qtbot, window)
     assert window.document.try_update(lambda d: d["study"].__setitem__("title", title)) is None
     target = tmp_path / "ctl.toml"
@@ -415,23 +423,110 @@ def test_every_input_control_reachable_and_headers_whole_at_1280x720(qtbot, wind
 
 
 def test_drag_preview_keeps_up_with_a_fast_mouse(qtbot, window):
-    # the mouse moves every 20 ms for 1.5 s: previews must keep arriving while it moves
-    import time
-
+    # the behaviour, not the timing (that is benchmarks/bench_gui.py): while a preview is in
+    # flight, newer positions wait and only the newest goes next; previews arrive while the
+    # mouse is still down, and the last one shown is at the last position
     _open_and_wait(qtbot, window)
     st = window.document.spec.station
-    times = []
+    submitted, shown = [], []
+    real_submit = window.computer.submit
+
+    def spy(spec, bearings=None, **kw):
+        if bearings is not None:
+            submitted.append((spec.station.lat, spec.station.lon))
+        return real_submit(spec, bearings=bearings, **kw)
+
+    window.computer.submit = spy
     window.computer.result.connect(
-        lambda req, res: times.append(time.perf_counter()) if req.bearings is not None else None)
+        lambda req, res: shown.append((req.spec.station.lat, req.spec.station.lon))
+        if req.bearings is not None else None)
     window.map._drag = ("site", QPointF(0, 0), (0.0, 0.0))  # as during a real drag
-    t0 = time.perf_counter()
-    k = 0
-    while time.perf_counter() - t0 < 1.5:
-        k += 1
-        window._on_site_drag(st.lat + 0.0005 * k, st.lon)
-        qtbot.wait(20)
+    pos = [(st.lat + 0.001 * k, st.lon) for k in range(1, 6)]
+    for p in pos[:4]:  # four moves before the first preview can be back
+        window._on_site_drag(*p)
+    assert submitted == [pos[0]]  # one preview at a time; the others wait
+    qtbot.waitUntil(lambda: len(shown) >= 1, timeout=30_000)
+    assert shown[0] == pos[0]
+    qtbot.waitUntil(lambda: len(submitted) == 2, timeout=30_000)
+    assert submitted[1] == pos[3]  # the newest waiting position went next; 2 and 3 dropped
+    window._on_site_drag(*pos[4])
+    qtbot.waitUntil(lambda: shown and shown[-1] == pos[4], timeout=30_000)
+    assert window.map._drag is not None  # all of it while the mouse is still down
+    assert submitted == [pos[0], pos[3], pos[4]]
     window.map._drag = None
-    assert len(times) >= 4, times  # without coalescing: none until the mouse stops
-    gaps = np.diff([t0] + times)
-    # the target is 150 ms on the development machine; a loaded CI machine gets twice that
-    assert gaps.max() < 0.3, gaps
+
+
+def _flat(value, path=()):
+    """{path: leaf} of a parsed TOML document, lists indexed."""
+    if isinstance(value, dict):
+        out = {}
+        for k, v in value.items():
+            out.update(_flat(v, path + (k,)))
+        return out
+    if isinstance(value, list) and any(isinstance(v, dict) for v in value):
+        out = {}
+        for i, v in enumerate(value):
+            out.update(_flat(v, path + (i,)))
+        return out
+    return {path: value}
+
+
+def _edit_line(widget, text):
+    widget.setText(text)
+    widget.editingFinished.emit()
+
+
+def _edit_cell(table, row, col, text):
+    from PySide6.QtWidgets import QTableWidgetItem
+
+    table.setItem(row, col, QTableWidgetItem(text))
+
+
+EDITS = {  # editor tab → (edit made through its widgets, the one key it must change)
+    "station": (lambda w: _edit_line(w.station_editor.edits["power_day_kw"], "2"),
+                {("station", "power_day_kw"): 2}),
+    "title": (lambda w: _edit_line(w.station_editor.title, "Retitled"),
+              {("study", "title"): "Retitled"}),
+    "antenna": (lambda w: _edit_cell(w.antenna_editor.table, 0, 7, "2"),
+                {("antenna", "tower", 0, "loss_ohm"): 2}),
+    "rotation": (lambda w: _edit_line(w.antenna_editor.rotation, "15"),
+                 {("antenna", "rotation_deg"): 15}),
+    "ground": (lambda w: _edit_line(w.ground_editor.sigma, "5"), {("ground", "sigma_ms_m"): 5}),
+    "contours": (lambda w: _edit_cell(w.levels_editor.table, 1, 1, "primary"),
+                 {("contour", 1, "label"): "primary"}),
+    "neighbours": (lambda w: _edit_cell(w.neighbours_editor.table, 0, 4, "3"),
+                   {("neighbour", 0, "power_day_kw"): 3}),
+    "night": (lambda w: _edit_line(w.night_editor.floor, "0.4"), {("night", "floor_mv_m"): 0.4}),
+    "ratios": (lambda w: _edit_cell(w.night_editor.ratios, 1, 1, "7"),
+               {("protection", "night_adjacent_1_db"): 7}),
+}
+
+
+@pytest.mark.parametrize("tab", sorted(EDITS))
+def test_an_edit_changes_only_what_was_edited(qtbot, window, tmp_path, tab):
+    # a study with keys no editor shows (the plan, the night layer height, comments): after one
+    # edit in one tab, save and reopen; every other value of every table is as it was
+    import shutil
+    import tomllib
+
+    for f in DEMO.parent.iterdir():
+        if f.suffix in (".geojson", ".csv", ".toml"):
+            shutil.copy(f, tmp_path / f.name)
+    study = tmp_path / "quellmoor.toml"
+    text = study.read_text(encoding="utf-8").replace(
+        "raster_khz = 10\n", 'plan = "region2"\nraster_khz = 10\n')
+    study.write_text(text, encoding="utf-8")
+    before = _flat(tomllib.loads(text))
+    _open_and_wait(qtbot, window, study)
+    edit, expected = EDITS[tab]
+    edit(window)
+    for key, value in expected.items():
+        assert key not in before or before[key] != value  # the edit is a change
+    editor_messages = [e.message.text() for e in window.editors]
+    assert not any(editor_messages), editor_messages
+    window.document.save()
+    after = _flat(tomllib.loads(study.read_text(encoding="utf-8")))
+    changed = {k: after.get(k) for k in set(before) | set(after) if before.get(k) != after.get(k)}
+    assert changed == expected
+    assert after[("protection", "plan")] == "region2"
+    assert load_study(study).interference.protection.plan == "region2"
