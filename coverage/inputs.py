@@ -30,7 +30,7 @@ import warnings
 
 import numpy as np
 
-from .validate import check_finite, check_keys, where_join
+from .validate import check_finite, check_keys, shown, where_join
 
 __all__ = [
     "read_text",
@@ -96,6 +96,13 @@ def read_toml(path, what: str = "TOML file") -> dict:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ValueError(f"{path}: {exc}") from None
+    except ValueError:  # Python's limit on the digits of an integer (4300)
+        import re
+
+        m = re.search(r"\d{4000,}", text)
+        line = text.count("\n", 0, m.start()) + 1 if m else "?"
+        raise ValueError(f"{path}: line {line}: a number with more digits than any value "
+                         "needs (Python reads at most 4300)") from None
 
 
 def read_json(path, what: str = "GeoJSON file"):
@@ -165,10 +172,24 @@ def _csv_numbers(row: dict, keys, where: str) -> dict:
 
 # --- typed values ----------------------------------------------------------------------------
 
+TEXT_MAX_CHARS = 200
+
+
 def text_value(name: str, value, where: str) -> str:
-    """A text value (names, titles, labels); numbers, booleans and dates are refused."""
+    """A text value (names, titles, labels); numbers, booleans and dates are refused, and so
+    are control characters (a tab, a NUL: they break CSV, XML and file names downstream) and
+    text longer than ``TEXT_MAX_CHARS``."""
+    import unicodedata
+
     if not isinstance(value, str):
         raise ValueError(f"{name} must be text in quotes (got {_show(value)}) in {where}")
+    bad = next((c for c in value if unicodedata.category(c) == "Cc"), None)
+    if bad is not None:
+        raise ValueError(f"{name} must not contain control characters (found U+{ord(bad):04X}) "
+                         f"in {where}")
+    if len(value) > TEXT_MAX_CHARS:
+        raise ValueError(f"{name} must be at most {TEXT_MAX_CHARS} characters (got "
+                         f"{len(value)}) in {where}")
     return value
 
 
@@ -190,7 +211,7 @@ def _show(value) -> str:
         return "true" if value else "false"
     if isinstance(value, (_dt.date, _dt.time)):
         return f"the date/time {value.isoformat()}"
-    return repr(value)
+    return shown(value)
 
 
 def file_key(table: dict, key: str, where: str, base: pathlib.Path, what: str) -> pathlib.Path:
@@ -235,6 +256,7 @@ def _polygon(geom_json, where: str, notes: list):
                                                                         "MultiPolygon"):
         got = geom_json.get("type") if isinstance(geom_json, dict) else geom_json
         raise ValueError(f"{where}: geometry must be a Polygon or MultiPolygon (got {got!r})")
+    _numeric_coordinates(geom_json.get("coordinates"), where)
     try:
         with warnings.catch_warnings():  # NaN coordinates: refused just below, in one line
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -260,6 +282,18 @@ def _polygon(geom_json, where: str, notes: list):
     if geom.is_empty or geom.area == 0:
         raise ValueError(f"{where}: the polygon is empty (no area)")
     return geom
+
+
+def _numeric_coordinates(coords, where: str, depth: int = 0) -> None:
+    """GeoJSON positions are JSON numbers (RFC 7946 §3.1.1): a coordinate written as text
+    (``"-46.5"``) or a boolean is refused rather than converted."""
+    if depth > 4 or not isinstance(coords, list):
+        raise ValueError(f"{where}: coordinates must be nested lists of numbers")
+    for c in coords:
+        if isinstance(c, list):
+            _numeric_coordinates(c, where, depth + 1)
+        elif isinstance(c, bool) or not isinstance(c, (int, float)):
+            raise ValueError(f"{where}: coordinates must be numbers (got {_show(c)})")
 
 
 def _features(data, path) -> list:
@@ -310,6 +344,9 @@ def load_zones(path, default, notes: list | None = None):
             raise ValueError(f"fit must be true or false (got {_show(fit)}) in {pw}")
         zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes), buildable,
                           fit))
+    if not zones:
+        notes.append(f"{path}: the zones file holds no feature; the default ground is used "
+                     "everywhere")
     return GroundMap(default, zones, source=str(path))
 
 
@@ -517,9 +554,11 @@ def read_measurements(path, spec) -> dict:
              if "bearing_deg" in num else float(az))
         if d <= 0:
             raise ValueError(f"the reading is at the site itself in {where}")
-        name = row.get("radial") or f"{round(b) % 360:03d}°"
+        name = (text_value("radial", row["radial"], where) if row.get("radial")
+                else f"{round(b) % 360:03d}°")
+        note = text_value("note", row.get("note") or "", where)
         line = int(where.split()[1])
-        groups.setdefault(name, []).append(Reading(d, f, lat, lon, b, row.get("note", ""), line))
+        groups.setdefault(name, []).append(Reading(d, f, lat, lon, b, note, line))
     if not groups:
         raise ValueError(f"{path}: no readings")
     return groups
@@ -697,7 +736,7 @@ def parse_study(doc: dict, path="<study>"):
         output["table_step_deg"] = check_finite("table_step_deg", out["table_step_deg"], 1.0,
                                                 90.0, where=w)
 
-    interference, neighbour_tables = _parse_interference(doc, base, fname, inputs)
+    interference, neighbour_tables = _parse_interference(doc, base, fname, inputs, notes)
 
     st_title = st.get("title", station.name)
     return StudySpec(
@@ -723,7 +762,8 @@ def parse_study(doc: dict, path="<study>"):
     )
 
 
-def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list):
+def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list,
+                        notes: list):
     """``[night]``, ``[interference]``, ``[protection]`` and ``[[neighbour]]``."""
     from .interference import InterferencePlan
 
@@ -745,7 +785,11 @@ def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list)
         npath = file_key(it, "neighbours", w, base, "neighbours file")
         nfile = it["neighbours"]
         inputs.append(npath)
-        neighbours += read_neighbours_csv(npath, inputs, classes)
+        listed = read_neighbours_csv(npath, inputs, classes)
+        if not listed:
+            notes.append(f"{npath}: the neighbours file lists no station (header only); "
+                         "no neighbour from it is checked")
+        neighbours += listed
     names = [n.name for n in neighbours]
     dup = {x for x in names if names.count(x) > 1}
     if dup:

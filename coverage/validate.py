@@ -12,7 +12,15 @@ from collections.abc import Iterable, Mapping
 
 import numpy as np
 
-__all__ = ["check_finite", "check_keys", "where_join"]
+__all__ = ["check_finite", "check_keys", "where_join", "shown"]
+
+
+def shown(value) -> str:
+    """A value as a message shows it: ``repr``, but an integer too long to read is described
+    by its number of digits rather than printed in full."""
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) >= 10 ** 15:
+        return f"an integer of {len(str(abs(value)))} digits"
+    return repr(value)
 
 
 def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_open=False):
@@ -42,17 +50,19 @@ def check_finite(name: str, value, low=None, high=None, *, where: str = "", low_
         raise ValueError(f"{name} must be a number (got the date/time {value.isoformat()}){suffix}")
     try:
         v = float(value)
+    except OverflowError:  # an integer beyond the largest float
+        v = math.inf
     except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a number (got {value!r}){suffix}") from None
+        raise ValueError(f"{name} must be a number (got {shown(value)}){suffix}") from None
     if not math.isfinite(v):
-        raise ValueError(f"{name} must be a finite number (got {value!r}){suffix}")
+        raise ValueError(f"{name} must be a finite number (got {shown(value)}){suffix}")
     too_low = low is not None and (v <= low if low_open else v < low)
     too_high = high is not None and v > high
     if too_low or too_high:
         lo = "" if low is None else (f"> {low:g}" if low_open else f">= {low:g}")
         hi = "" if high is None else f"<= {high:g}"
         rng = " and ".join(s for s in (lo, hi) if s)
-        raise ValueError(f"{name} must be {rng} (got {value!r}){suffix}")
+        raise ValueError(f"{name} must be {rng} (got {shown(value)}){suffix}")
     return v
 
 

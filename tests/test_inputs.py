@@ -297,6 +297,8 @@ def test_self_intersecting_zone_is_repaired_and_said(demo_copy):
          "coordinates must be finite numbers"),
         ({"type": "Point", "coordinates": [0, 0]}, "geometry must be a Polygon or MultiPolygon"),
         ({"type": "Polygon", "coordinates": [[["a", 0], [1, 0], [1, 1], ["a", 0]]]},
+         "coordinates must be numbers (got 'a')"),
+        ({"type": "Polygon", "coordinates": [[[0, 0], [1, 0], [1], [0, 0]]]},
          "malformed coordinates"),
     ],
 )
@@ -502,3 +504,81 @@ def test_fuzz_random_geojson_as_zones(tmp_path, geo):
     f = tmp_path / "z.geojson"
     f.write_text(_j.dumps(geo))
     _valid_or_one_line(lambda: load_zones(f, ground_class("land")))
+
+
+# --- values too large, files with nothing in them, what --help loads ---------------------------
+
+@pytest.mark.parametrize("old, new, needle", [
+    ("layer_height_km = 100.0", "layer_height_km = 1" + "0" * 400,
+     "layer_height_km must be a finite number (got an integer of 401 digits) in [night]"),
+    ("bearings = [137.5]", "bearings = [1" + "0" * 310 + "]", "bearings must be a finite number"),
+    ("field_mv_m = 5.0", "field_mv_m = -1" + "0" * 400, "field_mv_m must be a finite number"),
+    ("freq_khz = 1390\npower_day_kw", "freq_khz = 1" + "0" * 300 + "\npower_day_kw",
+     "freq_khz must be >= 10 and <= 30000 (got an integer of 301 digits)"),
+    ("percent = 10 ", "percent = 1" + "0" * 400 + " ", "percent must be one of 10, 50"),
+    ("layer_height_km = 100.0", "layer_height_km = 1" + "0" * 5001,
+     "a number with more digits than any value needs"),
+])
+def test_integers_too_large_for_a_float_are_bad_values(demo_copy, old, new, needle):
+    assert old in DEMO_TEXT
+    f = demo_copy / "big.toml"
+    f.write_text(DEMO_TEXT.replace(old, new, 1), encoding="utf-8")
+    before = digest(demo_copy)
+    rc, out, err = run_cli("run", f, "-o", demo_copy / "out")
+    assert rc == 2
+    one_line_error(err, needle, str(f))
+    assert len(err) < 400  # the value is described, not printed in full
+    assert digest(demo_copy) == before
+
+
+def test_geojson_coordinates_must_be_numbers(demo_copy):
+    zones = json.loads((demo_copy / "zones.geojson").read_text())
+    ring = zones["features"][0]["geometry"]["coordinates"][0]
+    ring[1] = [str(ring[1][0]), str(ring[1][1])]
+    (demo_copy / "zones.geojson").write_text(json.dumps(zones))
+    (demo_copy / "s.toml").write_text(DEMO_TEXT, encoding="utf-8")
+    rc, out, err = run_cli("run", demo_copy / "s.toml", "-o", demo_copy / "out")
+    assert rc == 2
+    one_line_error(err, "feature 1 of", "coordinates must be numbers (got '")
+
+
+def test_empty_zones_and_header_only_neighbours_are_said(demo_copy):
+    (demo_copy / "zones.geojson").write_text('{"type": "FeatureCollection", "features": []}')
+    head = (demo_copy / "neighbours.csv").read_text().splitlines()[0]
+    (demo_copy / "neighbours.csv").write_text(head + "\n")
+    (demo_copy / "s.toml").write_text(DEMO_TEXT, encoding="utf-8")
+    spec = load_study(demo_copy / "s.toml")
+    notes = " | ".join(spec.input_notes)
+    assert "zones.geojson: the zones file holds no feature" in notes, notes
+    assert "neighbours.csv: the neighbours file lists no station" in notes, notes
+    assert [n.name for n in spec.interference.neighbours] == ["Varnholt Radio"]
+
+
+@pytest.mark.parametrize("rows, needle", [
+    ([], "no readings"),
+    ([1, 2], "0 reading(s) beyond the near field"),  # both inside the near field
+    ([1, 12], "1 reading(s) beyond the near field"),
+])
+def test_measurements_with_too_few_usable_rows(demo_copy, tmp_path, rows, needle):
+    lines = (DEMO.parent / "measurements.csv").read_text().splitlines()
+    m = demo_copy / "few.csv"
+    m.write_text("\n".join([lines[0]] + [lines[i] for i in rows]) + "\n")
+    (demo_copy / "s.toml").write_text(DEMO_TEXT, encoding="utf-8")
+    rc, out, err = run_cli("fit", demo_copy / "s.toml", m, "-o", tmp_path / "fit")
+    assert rc == 2
+    one_line_error(err, f"{m}", needle)
+    assert not (tmp_path / "fit").exists() or not any((tmp_path / "fit").iterdir())
+
+
+def test_help_and_version_load_no_heavy_module():
+    # `mwreach --help` should cost little more than Python with numpy (the time itself is a
+    # benchmark: benchmarks/bench_cli.py); what it imports is the behaviour tested here
+    code = ("import sys; from mwreach.coverage import cli\n"
+            "for argv in (['--help'], ['--version'], ['run', '--help'], ['search', '--help']):\n"
+            "    try:\n        cli.main(argv)\n    except SystemExit:\n        pass\n"
+            "heavy = sorted(m for m in ('scipy', 'shapely', 'pyproj', 'PySide6', 'contourpy', "
+            "'distributed') if m in sys.modules)\n"
+            "print('HEAVY', heavy)")
+    p = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert p.returncode == 0, p.stderr
+    assert "HEAVY []" in p.stdout, p.stdout[-300:]
