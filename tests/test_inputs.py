@@ -582,3 +582,39 @@ def test_help_and_version_load_no_heavy_module():
     p = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert p.returncode == 0, p.stderr
     assert "HEAVY []" in p.stdout, p.stdout[-300:]
+
+
+# --- outputs aimed at inputs, empty names, devices ---------------------------------------------
+
+@pytest.mark.parametrize("target", ["quellmoor.toml", "zones.geojson", "neighbours.csv"])
+def test_screenshot_onto_an_input_is_refused_before_any_window(demo_copy, target):
+    study = demo_copy / "quellmoor.toml"
+    study.write_text(DEMO_TEXT, encoding="utf-8")
+    before = digest(demo_copy)
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen")
+    p = subprocess.run([sys.executable, "-m", "mwreach.coverage.cli", "gui", str(study),
+                        "--screenshot", str(demo_copy / target)],
+                       capture_output=True, text=True, timeout=120, env=env)
+    assert p.returncode == 2
+    one_line_error(p.stderr, "the study reads that file", target)
+    assert digest(demo_copy) == before
+
+
+@pytest.mark.parametrize("argv, needle", [
+    (["run", DEMO, "-o", ""], "argument -o/--out: an empty name"),
+    (["sheet", DEMO, "-o", " "], "argument -o/--out/--output: an empty name"),
+    (["search", DEMO, "--radius-km", "5", "-o", ""], "argument -o/--out: an empty name"),
+    (["fit", DEMO, DEMO.parent / "measurements.csv", "-o", "x", "--write-zones", ""],
+     "argument --write-zones: an empty name"),
+    (["sheet", DEMO, "-o", "/dev/full"], "/dev/full: is not a regular file"),
+    (["sheet", DEMO, "-o", DEMO.parent / "zones.geojson"], "the study reads that file"),
+])
+def test_output_names_that_mean_nothing_or_a_device(argv, needle, tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    before = digest(DEMO.parent)
+    rc, out, err = run_cli(*argv)
+    assert rc == 2
+    one_line_error(err, needle)
+    assert list(tmp_path.iterdir()) == [] and digest(DEMO.parent) == before
+    if os.path.exists("/dev/full"):
+        assert pathlib.Path("/dev/full").is_char_device()
