@@ -11,9 +11,14 @@ import json
 import os
 import sys
 
-import numpy as np
+# numpy and the core load inside the commands (and inside main's handling of Ctrl-C), so that
+# starting up is quick and an interrupt while starting is one line, not a traceback
 
-from .validate import check_finite
+
+def check_finite(*args, **kwargs):
+    from .validate import check_finite as check
+
+    return check(*args, **kwargs)
 
 __all__ = ["main", "EXIT_BAD_INPUT", "EXIT_VIOLATION"]
 
@@ -42,6 +47,8 @@ def _freq(args, low_high=None):
 
 
 def _cmd_field(args) -> int:
+    import numpy as np
+
     from . import groundwave as gw
 
     ground = _ground_from_args(args)
@@ -90,6 +97,8 @@ def _cmd_field(args) -> int:
 
 
 def _cmd_antenna(args) -> int:
+    import numpy as np
+
     from .antenna import HEIGHT_RANGE_DEG, Array, Tower, height_m
     from .inputs import array_from_table, read_toml
 
@@ -221,6 +230,8 @@ def _cmd_run(args) -> int:
 
 
 def _print_interference(result) -> None:
+    import numpy as np
+
     inter = result.interference
     n = inter.night
     method = "47 CFR 73.190" if inter.settings.method == "cfr" else "ITU-R P.1147"
@@ -308,14 +319,10 @@ def _cmd_sheet(args) -> int:
 
     import pathlib
 
-    from .safefiles import refuse_overwriting_inputs, writable_folder
-
     out = pathlib.Path(args.out)
     study = Study.from_file(args.study)
-    if out.is_dir():
-        raise UsageError(f"--out {out}: is a folder; give a PDF file name")
-    refuse_overwriting_inputs(out.parent, [out.name], study.spec.input_files)
-    writable_folder(out.parent)  # fail before the computation, not after it
+    # fail before the computation, not after it: never an input, a folder or a device
+    _check_file_target("--out", out, list(study.spec.input_files) + [args.study])
     result = study.run(progress=_Progress("computing"))
     from mwreach.gui.qt import ensure_app  # Qt only for this command
 
@@ -349,9 +356,11 @@ def _cmd_search(args) -> int:
     import json
     import pathlib
 
+    import numpy as np
+
     from .export import OUTPUT_NAMES  # noqa: F401  (the run's names stay distinct)
     from .inputs import load_study, read_boundary
-    from .safefiles import refuse_overwriting_inputs, writable_folder, write_set
+    from .safefiles import json_text, refuse_overwriting_inputs, writable_folder, write_set
     from .search import (
         SearchSettings,
         candidate_sites,
@@ -415,9 +424,8 @@ def _cmd_search(args) -> int:
 
     files = {
         "candidates.csv": candidates_csv(search),
-        "candidates.geojson": json.dumps(candidates_geojson(search)) + "\n",
-        "search.json": json.dumps(search_summary(search, spec), indent=1,
-                                  ensure_ascii=False) + "\n",
+        "candidates.geojson": json_text(candidates_geojson(search)),
+        "search.json": json_text(search_summary(search, spec), indent=1),
     }
     base = Study(spec).run(bearings=np.arange(0.0, 360.0, 5.0), interference=False)
     from mwreach.gui.qt import ensure_app  # Qt only for the picture
@@ -529,16 +537,19 @@ def _cmd_fit(args) -> int:
 
     from .fit import fit_all, fit_combined, fit_csv, fit_json, near_field_km, unknown_grounds
     from .inputs import load_study, read_measurements
-    from .safefiles import refuse_overwriting_inputs, writable_folder, write_set
+    from .safefiles import (atomic_write, json_text, refuse_overwriting_inputs, writable_folder,
+                            write_set)
 
     spec = load_study(args.study)
     groups = read_measurements(args.measurements, spec)
     inputs = list(spec.input_files) + [args.measurements]
-    names = ["fit.json", "fit.csv", "fit.pdf"] + [f"fit_{_safe(n)}.png" for n in groups]
+    plots = _plot_names(groups)
+    names = ["fit.json", "fit.csv", "fit.pdf"] + list(plots.values())
     refuse_overwriting_inputs(args.out, names, inputs)
-    if args.write_zones:
-        refuse_overwriting_inputs(pathlib.Path(args.write_zones).parent,
-                                  [pathlib.Path(args.write_zones).name], inputs)
+    if args.write_zones:  # every target is checked before anything is computed or written
+        _check_file_target("--write-zones", args.write_zones, inputs)
+        if not spec.zones_path:
+            raise UsageError("--write-zones needs a study with a zones file ([ground] zones)")
     writable_folder(args.out)
     unknown = unknown_grounds(spec)
     default_eps = next(iter(unknown))[1]  # the ground key is (σ, εr)
@@ -551,18 +562,21 @@ def _cmd_fit(args) -> int:
         combined = fit_combined(spec, groups, eps, near) if len(groups) > 1 else None
     except ValueError as exc:  # too few usable readings: the file is what to mend
         raise UsageError(f"{args.measurements}: {exc}") from None
-    files = {"fit.json": json.dumps(fit_json(fits, combined, spec, eps, near), indent=1,
-                                    ensure_ascii=False) + "\n",
-             "fit.csv": fit_csv(fits)}
+    summary = fit_json(fits, combined, spec, eps, near)
+    summary["plots"] = {f.radial: plots[f.radial] for f in fits}
+    files = {"fit.json": json_text(summary, indent=1), "fit.csv": fit_csv(fits)}
+    zones_text = (_fitted_zones_text(spec, combined, fits, unknown) if args.write_zones
+                  else None)
     from mwreach.gui.qt import ensure_app  # Qt only for the plots
 
     ensure_app()
     from mwreach.gui.fitplot import fit_pdf, fit_png
 
     for f in fits:
-        files[f"fit_{_safe(f.radial)}.png"] = fit_png(spec, f, eps)
+        files[plots[f.radial]] = fit_png(spec, f, eps)
     files["fit.pdf"] = fit_pdf(spec, fits, eps, near)
-    written = write_set(pathlib.Path(args.out), files, inputs=inputs)
+    written = write_set(pathlib.Path(args.out), files, inputs=inputs,
+                        known_patterns=("fit_*.png",))
     print(f"{spec.station.name}, {spec.station.freq_khz:g} kHz: {sum(len(g) for g in groups.values())} "
           f"readings on {len(groups)} radial(s); εr {eps:g}; near field < {near:.2f} km")
     print(f"{'radial':<18} {'σ mS/m':>8} {'95 % interval':>17} {'E0 mV/m':>9} {'RMS dB':>7}  used")
@@ -580,30 +594,67 @@ def _cmd_fit(args) -> int:
             print(f"all radials together: {name} σ {sg:.3g} mS/m "
                   f"({combined.sigma_low_ms_m[name]:.3g}–{combined.sigma_high_ms_m[name]:.3g}); "
                   f"RMS field at 1 km {combined.e1km_rms_mv_m:.1f} mV/m")
-    if args.write_zones:
-        _write_fitted_zones(spec, combined, fits, args.write_zones, unknown)
+    if zones_text is not None:
+        atomic_write(args.write_zones, zones_text[0],
+                     check=lambda b: json.loads(b.decode("utf-8")))
         written.append(pathlib.Path(args.write_zones))
+        if not zones_text[1]:
+            print("note: no zone is marked \"fit\": true; the fitted σ belongs to [ground] "
+                  "sigma_ms_m of the study (zones written unchanged)")
     print("wrote " + ", ".join(str(f) for f in written))
     print("Planning estimate only: measurements for a filing follow the regulator's procedures "
           "and a licensed engineer's review.")
     return 0
 
 
-def _safe(name: str) -> str:
-    return "".join(c if c.isalnum() or c in "-_" else "_" for c in name)
+def _plot_names(groups) -> dict:
+    """{radial: file name} for the plots, one file per radial: characters a file name cannot
+    hold become "_", and names that then meet (``a b``, ``a_b``, ``a/b``; or differ only in
+    case, for file systems that ignore it) get ``_2``, ``_3`` …"""
+    out, taken = {}, set()
+    for radial in groups:
+        base = "fit_" + "".join(c if c.isalnum() or c in "-_" else "_" for c in radial)
+        name, k = f"{base}.png", 1
+        while name.casefold() in taken:
+            k += 1
+            name = f"{base}_{k}.png"
+        taken.add(name.casefold())
+        out[radial] = name
+    return out
 
 
-def _write_fitted_zones(spec, combined, fits, target, unknown) -> None:
-    """The study's zones with the fitted conductivities written into the zones marked fit (or
-    a note when the default ground was fitted: it lives in the study file, not the zones)."""
-    import json as _json
+def _check_file_target(option: str, target, inputs) -> None:
+    """One output file named on the command line: not a file the run reads, not a folder, a
+    link's target or a device, and in a folder that can be written; checked before any work."""
+    import pathlib
+
+    from .safefiles import refuse_overwriting_inputs, writable_folder
+
+    path = pathlib.Path(target)
+    refuse_overwriting_inputs(path.parent, [path.name], inputs)
+    real = path.resolve() if path.is_symlink() else path
+    if real.is_dir():
+        raise UsageError(f"{option} {target}: is a folder; give a file name")
+    if real.exists() and not real.is_file():
+        raise UsageError(f"{option} {target}: is not a regular file (a device, pipe or "
+                         "socket); give a file name")
+    try:
+        writable_folder(real.parent)
+    except ValueError as exc:
+        raise UsageError(f"{option} {target}: {exc}") from None
+    if real.exists() and not os.access(real, os.W_OK):
+        raise UsageError(f"{option} {target}: the file is read-only")
+
+
+def _fitted_zones_text(spec, combined, fits, unknown) -> tuple[str, int]:
+    """(the study's zones with the fitted conductivities written into the zones marked fit, as
+    GeoJSON text; how many zones changed). With none marked, the fitted σ belongs to the
+    default ground, which lives in the study file, not the zones."""
     import pathlib
 
     from .inputs import read_json
-    from .safefiles import atomic_write
+    from .safefiles import json_text
 
-    if not spec.zones_path:
-        raise UsageError("--write-zones needs a study with a zones file")
     src = pathlib.Path(spec.path).parent / spec.zones_path
     data = read_json(src)
     by_name = {}
@@ -619,26 +670,19 @@ def _write_fitted_zones(spec, combined, fits, target, unknown) -> None:
             props["conductivity_ms_m"] = round(float(by_name[name]), 4)
             props["note"] = (props.get("note") or "") + " conductivity fitted to measurements"
             changed += 1
-    atomic_write(target, _json.dumps(data, indent=1, ensure_ascii=False) + "\n",
-                 check=lambda b: _json.loads(b.decode("utf-8")))
-    if not changed:
-        print("note: no zone is marked \"fit\": true; the fitted σ belongs to [ground] "
-              "sigma_ms_m of the study (zones written unchanged)")
+    return json_text(data, indent=1), changed
 
 
 def _cmd_gui(args) -> int:
     if args.screenshot:
-        # batch use never waits for a person: check the study before any window opens
+        # batch use never waits for a person: check the study and the picture's target (never
+        # a file the study reads) before any window opens
         from .inputs import load_study
-        from .safefiles import writable_folder
-        import pathlib
 
+        inputs = list(load_study(args.study).input_files) if args.study else []
         if args.study:
-            load_study(args.study)
-        shot = pathlib.Path(args.screenshot)
-        if shot.is_dir():
-            raise UsageError(f"--screenshot {shot}: is a folder; give a PNG file name")
-        writable_folder(shot.parent)
+            inputs.append(args.study)
+        _check_file_target("--screenshot", args.screenshot, inputs)
     from mwreach.gui.app import run_gui  # Qt only for this command
 
     return run_gui(args.study, screenshot=args.screenshot)
@@ -675,6 +719,14 @@ def _choices(*options):
 
     convert.__name__ = "choice"
     return convert
+
+
+def _path(text: str) -> str:
+    """An argparse type for file and folder names: an empty name would mean the current folder
+    (or nothing at all), so it is refused."""
+    if not text.strip():
+        raise argparse.ArgumentTypeError("an empty name is not a file or folder; give one")
+    return text
 
 
 def _method_name(method: str) -> str:
@@ -716,13 +768,13 @@ def build_parser() -> argparse.ArgumentParser:
                    help="loss resistance at the current loop (base if shorter than 90°) [Ω]; "
                         "default 0")
     a.add_argument("--efficiency", type=float, help="radiation efficiency (0–1]")
-    a.add_argument("--array", help="TOML file with rotation_deg and [[tower]] tables")
+    a.add_argument("--array", type=_path, help="TOML file with rotation_deg and [[tower]] tables")
     a.add_argument("--json", action="store_true", help="print JSON instead of text")
     a.set_defaults(func=_cmd_antenna)
 
     r = sub.add_parser("run", help="run a study file: contours, tables, GeoJSON, KML", **fmt)
-    r.add_argument("study", help="study file (TOML)")
-    r.add_argument("-o", "--out", required=True,
+    r.add_argument("study", type=_path, help="study file (TOML)")
+    r.add_argument("-o", "--out", type=_path, required=True,
                    help="output folder (created if missing; never a file the study reads)")
     r.add_argument("--fail-on-violation", action="store_true",
                    help="exit with status 3 when any protection check fails")
@@ -748,8 +800,8 @@ def build_parser() -> argparse.ArgumentParser:
     k.set_defaults(func=_cmd_sky)
 
     sh = sub.add_parser("sheet", help="contour sheet (PDF) for permit paperwork", **fmt)
-    sh.add_argument("study", help="study file (TOML)")
-    sh.add_argument("-o", "--out", "--output", dest="out", required=True,
+    sh.add_argument("study", type=_path, help="study file (TOML)")
+    sh.add_argument("-o", "--out", "--output", dest="out", type=_path, required=True,
                     help="PDF file to write")
     sh.add_argument("--paper", type=_choices("A4", "Letter"),
                     help="paper size (default: [output] paper of the study, else A4)")
@@ -760,18 +812,18 @@ def build_parser() -> argparse.ArgumentParser:
 
     se = sub.add_parser("search", help="site search: the study at every candidate site of an "
                         "area, ranked", **fmt)
-    se.add_argument("study", help="study file (TOML)")
+    se.add_argument("study", type=_path, help="study file (TOML)")
     where = se.add_mutually_exclusive_group()
-    where.add_argument("--area", help="search area: GeoJSON polygon")
+    where.add_argument("--area", type=_path, help="search area: GeoJSON polygon")
     where.add_argument("--radius-km", type=float, help="search within this distance of the "
                        "study's site [km]")
     se.add_argument("--step-km", type=float, default=2.0, help="candidate grid spacing [km]")
-    se.add_argument("--exclude", help="GeoJSON polygons where no tower may stand")
+    se.add_argument("--exclude", type=_path, help="GeoJSON polygons where no tower may stand")
     se.add_argument("--score", type=_choices("community_share", "area", "max_power"),
                     default="community_share", help="what ranks the sites")
     se.add_argument("--service-mv-m", type=float, default=5.0,
                     help="service contour whose community share counts [mV/m]")
-    se.add_argument("-o", "--out", required=True, help="output folder")
+    se.add_argument("-o", "--out", type=_path, required=True, help="output folder")
     se.add_argument("--workers", type=int, help="local worker processes (default: all cores)")
     se.add_argument("--scheduler", help="tcp://HOST:PORT of a Dask distributed scheduler "
                     "(needs the cluster extra)")
@@ -781,19 +833,19 @@ def build_parser() -> argparse.ArgumentParser:
 
     fi = sub.add_parser("fit", help="ground conductivity and E0 from field-strength "
                         "measurements", **fmt)
-    fi.add_argument("study", help="study file (TOML)")
-    fi.add_argument("measurements", help="CSV: lat, lon, field_mv_m or field_dbu, "
+    fi.add_argument("study", type=_path, help="study file (TOML)")
+    fi.add_argument("measurements", type=_path, help="CSV: lat, lon, field_mv_m or field_dbu, "
                     "[bearing_deg, dist_km, radial, note]")
-    fi.add_argument("-o", "--out", required=True, help="output folder")
+    fi.add_argument("-o", "--out", type=_path, required=True, help="output folder")
     fi.add_argument("--eps-r", type=float, help="relative permittivity (default: the fitted "
                     "ground's)")
-    fi.add_argument("--write-zones", help="write the zones with fitted conductivities to this "
+    fi.add_argument("--write-zones", type=_path, help="write the zones with fitted conductivities to this "
                     "GeoJSON file")
     fi.set_defaults(func=_cmd_fit)
 
     g = sub.add_parser("gui", help="the desktop application", **fmt)
-    g.add_argument("study", nargs="?", help="study file to open (default: the demo, unsaved)")
-    g.add_argument("--screenshot", help="open, compute, save a PNG of the window and exit")
+    g.add_argument("study", nargs="?", type=_path, help="study file to open (default: the demo, unsaved)")
+    g.add_argument("--screenshot", type=_path, help="open, compute, save a PNG of the window and exit")
     g.set_defaults(func=_cmd_gui)
 
     return p
@@ -803,17 +855,40 @@ EXIT_BAD_INPUT = 2
 EXIT_VIOLATION = 3
 
 
+def _placed_count() -> int:
+    safe = sys.modules.get("mwreach.coverage.safefiles")
+    return len(safe.placed_sets) if safe is not None else 0
+
+
+def _interrupted(command: str, mark: int) -> int:
+    """Ctrl-C: say what is on disk. The writer holds Ctrl-C back during a swap, so an output
+    set is either untouched or complete; ``mark`` counts the sets placed before this command."""
+    safe = sys.modules.get("mwreach.coverage.safefiles")
+    placed = list(dict.fromkeys(safe.placed_sets[mark:])) if safe is not None else []
+    if placed:
+        where = ", ".join(str(p) for p in placed)
+        print(f"mwreach {command}: interrupted; the new outputs are complete in {where}",
+              file=sys.stderr)
+    else:
+        print(f"mwreach {command}: interrupted; nothing was replaced", file=sys.stderr)
+    return 130
+
+
 def main(argv=None) -> int:
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        parser = build_parser()
+        args = parser.parse_args(argv)
+    except KeyboardInterrupt:  # Ctrl-C while starting: nothing was begun
+        print("mwreach: interrupted", file=sys.stderr)
+        return 130
+    mark = _placed_count()
     try:
         return int(args.func(args) or 0)
     except BrokenPipeError:  # output piped into e.g. `head`
         sys.stderr.close()
         return 0
     except KeyboardInterrupt:
-        print(f"mwreach {args.command}: interrupted; nothing was replaced", file=sys.stderr)
-        return 130
+        return _interrupted(args.command, mark)
     except (UsageError, ValueError, OSError) as exc:
         msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         if isinstance(exc, OSError) and exc.filename and str(exc.filename) not in msg:
