@@ -371,9 +371,17 @@ def fit_json(fits, combined: CombinedFit | None, spec, eps_r: float, near_km: fl
         return {"line": r.line, "dist_km": round(r.dist_km, 4), "field_dbu": round(r.field_dbu, 2),
                 "note": r.note}
 
+    ends = [v for f in fits for v in (f.sigma_low_ms_m, f.sigma_high_ms_m, f.e0_low_mv_m,
+                                       f.e0_high_mv_m)]
+    if combined is not None:
+        ends += list(combined.sigma_low_ms_m.values()) + list(combined.sigma_high_ms_m.values())
+    unbounded = not all(math.isfinite(v) for v in ends)
     return {
         "study_file": spec.path, "station": spec.station.name,
         "freq_khz": spec.station.freq_khz, "eps_r": eps_r, "near_field_km": round(near_km, 3),
+        "notes": (["an interval end written as null is one the readings do not bound (too few "
+                   "readings, or a flat misfit): that side of the interval is open"]
+                  if unbounded else []),
         "method": "least squares in dB over the smooth-earth ground-wave curve (Millington "
                   "where the radial crosses known zones); soft-L1 to find outliers; 95 % "
                   "intervals from the misfit profile (F test), docs/methods.md §7.2",

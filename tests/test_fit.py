@@ -6,6 +6,7 @@ from numpy's generator; the checks are statistical properties of the fit.
 """
 
 import json
+import os
 import pathlib
 import shutil
 
@@ -121,3 +122,96 @@ def test_cli_fit_on_the_demo_and_write_zones(demo_copy, tmp_path):
     got = next(f for f in written["features"] if f["properties"]["name"] == name)
     assert "fitted to measurements" in got["properties"]["note"]
     assert (demo_copy / "zones.geojson").read_bytes() == before  # the input stays as it was
+
+
+def _strict_json(text):
+    """json.loads that refuses NaN and Infinity (not JSON, RFC 8259 §6)."""
+    def refuse(name):
+        raise ValueError(f"{name} is not JSON")
+
+    return json.loads(text, parse_constant=refuse)
+
+
+def _fit_cli(*argv):
+    import contextlib
+    import io
+
+    err = io.StringIO()
+    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
+        rc = cli.main([str(a) for a in argv])
+    return rc, err.getvalue()
+
+
+@pytest.mark.gui
+def test_fit_targets_are_checked_before_anything_is_written(demo_copy, tmp_path):
+    # --write-zones into a read-only folder, onto a folder, or with a study without zones:
+    # exit 2, and the earlier fit set (with a plot the new one would not write) is untouched
+    import hashlib
+
+    study = demo_copy / "quellmoor.toml"
+    shutil.copy(DEMO, study)
+    meas = demo_copy / "measurements.csv"
+    out = tmp_path / "fit"
+    assert _fit_cli("fit", study, meas, "-o", out)[0] == 0
+    (out / "fit_north.png").write_bytes(b"an older fit's plot")
+
+    def digest():
+        return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in out.iterdir()}
+
+    before = digest()
+    ro = tmp_path / "ro"
+    ro.mkdir()
+    ro.chmod(0o500)
+    nozones = demo_copy / "nozones.toml"
+    nozones.write_text(study.read_text().replace('zones = "zones.geojson"\n', ""))
+    cases = [(study, ro / "z.geojson", "not writable"), (study, tmp_path, "is a folder"),
+             (study, meas / "z.geojson", "is a file, not a folder"),
+             (study, meas, "the study reads that file"),
+             (nozones, tmp_path / "z.geojson", "needs a study with a zones file")]
+    for st, target, needle in cases:
+        if needle == "not writable" and os.geteuid() == 0:
+            continue  # root writes into read-only folders; the other cases still run
+        rc, err = _fit_cli("fit", st, meas, "-o", out, "--write-zones", target)
+        assert rc == 2 and err.count("\n") == 1 and needle in err, err
+        assert digest() == before
+    ro.chmod(0o700)
+    # a good run replaces the whole set: the older plot goes with the older set
+    assert _fit_cli("fit", study, meas, "-o", out)[0] == 0
+    assert not (out / "fit_north.png").exists()
+    assert sorted(p.name for p in out.glob("fit_*.png")) == [
+        "fit_south-south-west.png", "fit_south-west.png", "fit_south.png"]
+
+
+@pytest.mark.gui
+def test_radial_names_that_meet_as_file_names_get_their_own_plots(demo_copy, tmp_path):
+    study = demo_copy / "quellmoor.toml"
+    shutil.copy(DEMO, study)
+    text = (DEMO.parent / "measurements.csv").read_text()
+    text = (text.replace(",south-south-west,", ",a b,").replace(",south-west,", ",a/b,")
+            .replace(",south,", ",a_b,"))
+    meas = demo_copy / "m.csv"
+    meas.write_text(text)
+    out = tmp_path / "fit"
+    assert _fit_cli("fit", study, meas, "-o", out)[0] == 0
+    data = _strict_json((out / "fit.json").read_text())
+    plots = data["plots"]
+    assert sorted(plots) == ["a b", "a/b", "a_b"] and len(set(plots.values())) == 3
+    for name in plots.values():
+        assert (out / name).read_bytes().startswith(b"\x89PNG")
+
+
+@pytest.mark.gui
+def test_fit_json_holds_no_nan_or_infinity(demo_copy, tmp_path):
+    # two readings leave one end of the E0 interval open: null, with a note saying so
+    study = demo_copy / "quellmoor.toml"
+    shutil.copy(DEMO, study)
+    lines = (DEMO.parent / "measurements.csv").read_text().splitlines()
+    south = [ln for ln in lines[1:] if ",south," in ln]
+    meas = demo_copy / "two.csv"
+    meas.write_text("\n".join([lines[0], south[7], south[13]]) + "\n")
+    out = tmp_path / "fit"
+    assert _fit_cli("fit", study, meas, "-o", out)[0] == 0
+    text = (out / "fit.json").read_text()
+    data = _strict_json(text)
+    assert None in data["radials"][0]["e0_95_mv_m"]
+    assert any("null" in n for n in data["notes"])
