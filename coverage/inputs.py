@@ -273,6 +273,9 @@ def _polygon(geom_json, where: str, notes: list):
     if lon.min() < -180 or lon.max() > 360 or lat.min() < -90 or lat.max() > 90:
         raise ValueError(f"{where}: coordinates must be lon/lat degrees (lon −180..360, lat "
                          f"−90..90; bounds {tuple(round(v, 4) for v in geom.bounds)})")
+    from .geodesy import wrap_lonlat_polygons
+
+    geom = wrap_lonlat_polygons(geom)  # a ring across ±180° covers what it encloses
     if not geom.is_valid:
         reason = shapely.is_valid_reason(geom)
         geom = shapely.make_valid(geom)
@@ -938,6 +941,47 @@ def _plain(v):
     if isinstance(v, np.generic):
         return v.item()
     return v
+
+
+def dump_toml_keeping(doc: dict, original_text: str | None) -> str:
+    """``doc`` as TOML text that keeps what the user wrote in ``original_text`` (the file the
+    study was read from): comments, order, spacing and the spelling of unchanged values. Only
+    the values that differ from the original are rewritten (tomlkit edits the parsed text in
+    place). Without an original, or if the edited text would not read back as ``doc``, the
+    plain :func:`dump_toml` is used."""
+    if not original_text:
+        return dump_toml(doc)
+    import tomlkit
+
+    try:
+        kept = tomlkit.parse(original_text)
+        _merge_into(kept, doc)
+        text = tomlkit.dumps(kept)
+        if _plain(tomllib.loads(text)) == {k: v for k, v in _plain(doc).items() if v != []}:
+            return text
+    except Exception:  # noqa: BLE001 - any failure of the careful path falls back to the plain one
+        pass
+    return dump_toml(doc)
+
+
+def _merge_into(target, new: dict) -> None:
+    """Make the tomlkit container ``target`` hold ``new``, touching only what differs."""
+    for key in [k for k in target if k not in new]:
+        del target[key]
+    for key, value in new.items():
+        if key not in target:
+            target[key] = value
+            continue
+        old = target[key]
+        if isinstance(value, dict) and isinstance(old, dict):
+            _merge_into(old, value)
+        elif (isinstance(value, list) and value and all(isinstance(v, dict) for v in value)
+              and isinstance(old, list) and len(old) == len(value)
+              and all(isinstance(v, dict) for v in old)):
+            for o, v in zip(old, value):
+                _merge_into(o, v)
+        elif _plain(old) != _plain(value):
+            target[key] = value
 
 
 def check_round_trip(doc: dict, text: str, path) -> dict:

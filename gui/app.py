@@ -22,6 +22,7 @@ from PySide6.QtWidgets import (
 
 from mwreach.coverage.export import KM_PER_MI, write_outputs
 from mwreach.coverage.geodesy import inverse, local_projection
+from mwreach.coverage.safefiles import atomic_write
 
 from .document import StudyDocument
 from .mapwidget import MapWidget
@@ -524,6 +525,21 @@ class MainWindow(QMainWindow):
                           "estimates.\n\n" + CAUTIONS)
 
 
+def _raise(exc):
+    raise exc
+
+
+def _png_bytes(pixmap) -> bytes:
+    from PySide6.QtCore import QBuffer, QByteArray, QIODevice
+
+    data = QByteArray()
+    buf = QBuffer(data)
+    buf.open(QIODevice.WriteOnly)
+    pixmap.save(buf, "PNG")
+    buf.close()
+    return bytes(data.data())
+
+
 def run_gui(study=None, screenshot=None) -> int:
     """Start the application; with ``screenshot`` compute, save a PNG of the window and exit."""
     app = ensure_app(gui=True)
@@ -558,13 +574,15 @@ def run_gui(study=None, screenshot=None) -> int:
             app.processEvents()
             win.map.fit()
             app.processEvents()
-            ok = win.grab().save(str(screenshot))
-            if ok:
+            try:  # encoded in memory, then written in one step like every other output
+                atomic_write(screenshot, _png_bytes(win.grab()),
+                             check=lambda b: None if b.startswith(b"\x89PNG") else
+                             _raise(ValueError(f"{screenshot}: the picture read back wrong")))
                 print(f"wrote {screenshot}")
-            else:
-                print(f"mwreach gui: error: {screenshot}: cannot write the picture",
-                      file=sys.stderr)
-            status["rc"] = 0 if ok else 2
+                status["rc"] = 0
+            except ValueError as exc:
+                print(f"mwreach gui: error: {str(exc).splitlines()[0]}", file=sys.stderr)
+                status["rc"] = 2
             app.quit()
 
         def failed(req, msg):

@@ -8,7 +8,8 @@ import pathlib
 
 from PySide6.QtCore import QObject, Signal
 
-from mwreach.coverage.inputs import check_round_trip, dump_toml, load_study_doc, parse_study
+from mwreach.coverage.inputs import (check_round_trip, dump_toml_keeping, load_study_doc,
+                                     parse_study)
 from mwreach.coverage.safefiles import atomic_write
 from mwreach.coverage.study import StudySpec
 
@@ -108,13 +109,25 @@ class StudyDocument(QObject):
         target = pathlib.Path(path).resolve() if path else self.path
         if target is None:
             raise ValueError("choose a file name to save the study")
+        own = self.path.resolve() if self.path else None
+        for read in self.spec.input_files if self.spec is not None else ():
+            if pathlib.Path(read).resolve() == target and target != own:
+                raise ValueError(f"{target}: not saved; the study reads that file (its zones, "
+                                 "boundary, neighbours or an array): choose another name")
         doc = copy.deepcopy(self.doc)
         if target.parent != self.base_dir:
             for table, key in _relative_paths(doc):
                 absolute = (self.base_dir / table[key]).resolve()
                 table[key] = os.path.relpath(absolute, target.parent)
+        original = None  # the text the study was read from: its comments and layout are kept
+        source = self.path if self.path is not None else (DEMO_PATH if self.doc else None)
+        if source is not None:
+            try:
+                original = source.read_text(encoding="utf-8-sig")
+            except (OSError, UnicodeDecodeError):
+                original = None
         try:
-            text = dump_toml(doc)
+            text = dump_toml_keeping(doc, original)
         except (TypeError, ValueError) as exc:
             raise ValueError(f"{target}: not saved ({exc})") from None
         atomic_write(target, text,

@@ -519,10 +519,11 @@ def write_sheet(result, path, paper: str | None = None, orientation: str | None 
         raise ValueError(f"orientation must be 'portrait' or 'landscape' (got {orientation!r})")
     from PySide6.QtCore import QBuffer, QByteArray, QIODevice
 
-    from mwreach.coverage.safefiles import atomic_write, writable_folder
+    from mwreach.coverage.safefiles import atomic_write, refuse_overwriting_inputs, writable_folder
 
     if path.is_dir():
         raise ValueError(f"{path}: is a folder; give a file name for the sheet")
+    refuse_overwriting_inputs(path.parent, [path.name], result.spec.input_files)
     writable_folder(path.parent)  # fail before drawing, in one line
     data = QByteArray()
     buf = QBuffer(data)

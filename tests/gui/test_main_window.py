@@ -311,7 +311,8 @@ def test_save_that_would_not_read_back_keeps_the_old_file(qtbot, window, tmp_pat
     warnings = []
     monkeypatch.setattr("mwreach.gui.app.QMessageBox.warning",
                         lambda *a: warnings.append(a[2]))
-    monkeypatch.setattr("mwreach.gui.document.dump_toml", lambda doc: "title = = broken\n")
+    monkeypatch.setattr("mwreach.gui.document.dump_toml_keeping",
+                        lambda doc, original: "title = = broken\n")
     assert not window._save_to(str(target))
     assert target.read_bytes() == before
     assert "not saved; the written text does not read back" in warnings[0]
@@ -530,3 +531,50 @@ def test_an_edit_changes_only_what_was_edited(qtbot, window, tmp_path, tab):
     assert changed == expected
     assert after[("protection", "plan")] == "region2"
     assert load_study(study).interference.protection.plan == "region2"
+
+
+def test_save_as_onto_a_file_the_study_reads_is_refused(qtbot, window, tmp_path, monkeypatch):
+    import shutil
+
+    for f in DEMO.parent.iterdir():
+        if f.suffix in (".geojson", ".csv", ".toml"):
+            shutil.copy(f, tmp_path / f.name)
+    _open_and_wait(qtbot, window, tmp_path / "quellmoor.toml")
+    warnings = []
+    monkeypatch.setattr("mwreach.gui.app.QMessageBox.warning",
+                        lambda *a: warnings.append(a[2]))
+    for name in ("zones.geojson", "community.geojson", "neighbours.csv",
+                 "varnholt_array.toml"):
+        before = (tmp_path / name).read_bytes()
+        assert not window._save_to(str(tmp_path / name))
+        assert (tmp_path / name).read_bytes() == before
+        assert "the study reads that file" in warnings[-1]
+    assert window._save_to(None)  # the study itself may be saved over
+
+
+def test_comments_and_layout_survive_a_save(qtbot, window, tmp_path):
+    import shutil
+
+    for f in DEMO.parent.iterdir():
+        if f.suffix in (".geojson", ".csv", ".toml"):
+            shutil.copy(f, tmp_path / f.name)
+    study = tmp_path / "quellmoor.toml"
+    original = study.read_text(encoding="utf-8")
+    _open_and_wait(qtbot, window, study)
+    _edit_line(window.station_editor.edits["power_day_kw"], "2")
+    assert window._save_to(None)
+    saved = study.read_text(encoding="utf-8")
+    comments = [ln for ln in original.splitlines() if "#" in ln]
+    for line in comments:
+        if "power_day_kw" in line:
+            continue
+        assert line in saved, line  # every other commented line exactly as written
+    assert "power_day_kw = 2" in saved and "power_day_kw = 1.0" not in saved
+    assert saved.count("\n") == original.count("\n")
+    # and a save into another folder rewrites only the file names
+    other = tmp_path / "sub"
+    other.mkdir()
+    assert window._save_to(str(other / "copy.toml"))
+    text = (other / "copy.toml").read_text(encoding="utf-8")
+    assert 'zones = "../zones.geojson"' in text and "# default ground outside the zones" in text
+    assert load_study(other / "copy.toml").ground.default.sigma_ms_m == 4.0
