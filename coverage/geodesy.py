@@ -215,6 +215,43 @@ def _split_antimeridian(geom):
     return polys
 
 
+def wrap_lonlat_polygons(geom):
+    """A (multi)polygon drawn in lon/lat whose rings cross the antimeridian (an edge from
+    179° E to 179° W, or longitudes written past 180°) → the same area on the sphere as parts
+    within −180..180 (RFC 7946 §3.1.9). Each ring's longitudes are unwrapped, so an edge takes
+    the short way round; a geometry that crosses nothing is returned as it is.
+
+    Without this a ring from 179° E to 179° W reads as a band round the whole earth."""
+    import shapely
+    import shapely.affinity  # noqa: F401  (used by _split_antimeridian)
+    from shapely.geometry import MultiPolygon, Polygon
+
+    def unwrapped(ring):
+        c = np.asarray(ring.coords, float)
+        lon = np.unwrap(c[:, 0], period=360.0)
+        return np.column_stack([lon - 360.0 * np.round(lon[0] / 360.0), c[:, 1]])
+
+    parts = [g for g in shapely.get_parts(geom) if g.geom_type == "Polygon" and not g.is_empty]
+    crosses = any(np.abs(np.diff(np.asarray(r.coords)[:, 0])).max(initial=0) > 180.0
+                  or np.asarray(r.coords)[:, 0].max() > 180.0
+                  for g in parts for r in [g.exterior, *g.interiors])
+    if not crosses:
+        return geom
+    out = []
+    for g in parts:
+        shell = unwrapped(g.exterior)
+        holes = []
+        for r in g.interiors:
+            h = unwrapped(r)
+            h[:, 0] -= 360.0 * np.round((h[:, 0].mean() - shell[:, 0].mean()) / 360.0)
+            holes.append(h)
+        p = Polygon(shell, holes)
+        out.extend(_split_antimeridian(p if p.is_valid else shapely.make_valid(p)))
+    merged = shapely.union_all(out) if len(out) > 1 else out[0]
+    polys = [g for g in shapely.get_parts(merged) if g.geom_type == "Polygon"]
+    return polys[0] if len(polys) == 1 else MultiPolygon(polys)
+
+
 def xy_to_lonlat_geometry(geom_xy, projection: LocalProjection):
     """A (multi)polygon in the site's local plane [km] → lon/lat [deg] as RFC 7946 asks.
 

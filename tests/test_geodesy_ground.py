@@ -230,3 +230,56 @@ def test_plane_area_equals_the_geodesic_area():
             # 1e-6 relative: the series for the ellipsoid's area element (docstring); the plane
             # area alone is 1.6e-3 off at 1000 km, so the check can fail
             assert proj.plane_area_km2(g) == pytest.approx(want, rel=1e-6)
+
+
+def _zone_file(tmp_path, rings):
+    feats = [{"type": "Feature", "properties": {"name": f"z{i}", "conductivity_ms_m": 5000.0,
+                                                "permittivity": 70.0},
+              "geometry": {"type": "Polygon", "coordinates": [ring]}}
+             for i, ring in enumerate(rings)]
+    path = tmp_path / "z.geojson"
+    path.write_text(json.dumps({"type": "FeatureCollection", "features": feats}))
+    return path
+
+
+@pytest.mark.parametrize("ring", [
+    [[179, -1], [-179, -1], [-179, 1], [179, 1], [179, -1]],  # across ±180 as written
+    [[179, -1], [181, -1], [181, 1], [179, 1], [179, -1]],    # longitudes past 180
+    [[-179, 1], [-179, -1], [179, -1], [179, 1], [-179, 1]],  # the other way round
+])
+def test_a_zone_across_the_antimeridian_covers_what_its_ring_encloses(tmp_path, ring):
+    land = ground_class("land")
+    gm = load_zones(_zone_file(tmp_path, [ring]), land)
+    zone = gm.zones[0].geometry
+    # area on the sphere (pyproj.Geod, GeographicLib): a 2° × 2° cell at the equator, not a
+    # band round the earth
+    ref = abs(Geod(ellps="WGS84").geometry_area_perimeter(
+        Polygon([(0, -1), (2, -1), (2, 1), (0, 1)]))[0]) / 1e6
+    assert geodesy.geodesic_area_km2(zone) == pytest.approx(ref, rel=2e-4)  # the seam's geodesic edges
+    sea = gm.zones[0].ground
+    assert gm.ground_at(-46.0, 0.0) == land  # far away: default ground, not the zone
+    assert gm.ground_at(179.5, 0.0) == sea and gm.ground_at(-179.5, 0.0) == sea
+    assert gm.ground_at(178.5, 0.0) == land and gm.ground_at(-178.5, 0.0) == land
+    # radials from a site inside the zone find 1° of longitude (111 km at the equator, WGS84)
+    # of zone to the east and to the west, seen the same across the seam
+    for lon in (179.5, -179.5):
+        sec = gm.radial_sections(0.0, lon, [90.0, 270.0], 400.0)
+        ends = [[s.end_km for s in sec[i] if s.ground == sea][0] for i in range(2)]
+        # 111.32 km per degree of longitude on the WGS84 equator (a = 6378.137 km)
+        near = 111.32 * abs(180.0 - abs(lon))
+        far = 111.32 * 2 - near
+        expected = (far, near) if lon > 0 else (near, far)
+        assert ends == pytest.approx(expected, abs=0.05)  # km: exact ray-edge intersections
+
+
+def test_zones_on_both_sides_of_the_antimeridian_leave_a_far_site_alone(tmp_path):
+    # the case: a zone from 179° E to 179° W once swallowed a site at 46° W
+    east = [[175, 30], [179.5, 30], [-179.5, 35], [175, 35], [175, 30]]
+    west = [[-176, 30], [-170, 30], [-170, 35], [-176, 35], [-176, 30]]
+    gm = load_zones(_zone_file(tmp_path, [east, west]), ground_class("land"))
+    assert gm.ground_at(-46.0, 38.4) == ground_class("land")
+    bounds = [z.geometry.bounds for z in gm.zones]
+    assert all(-180.0 <= b[0] and b[2] <= 180.0 for b in bounds)
+    assert geodesy.geodesic_area_km2(gm.zones[0].geometry) < 300_000  # not a band of the globe
+    sec = gm.radial_sections(38.4, -46.2, np.arange(0.0, 360.0, 10.0), 2000.0)
+    assert all(len(s) == 1 for s in sec)  # only the default ground within 2000 km
