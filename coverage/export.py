@@ -13,7 +13,7 @@ import numpy as np
 from .groundwave import mv_m_to_dbu
 from .inputs import spec_to_doc
 from . import version
-from .safefiles import atomic_write, csv_writer, write_set
+from .safefiles import atomic_write, csv_writer, json_text, write_set
 from .study import StudyResult
 
 __all__ = ["KM_PER_MI", "version", "write_outputs", "summary_dict", "radials_csv", "contours_geojson",
@@ -355,15 +355,13 @@ def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_featur
         nf = night_feature(result)
         if nf is not None:
             extra_features.append(nf)
-        extra_files["night.json"] = json.dumps(night_json(result), indent=1,
-                                               ensure_ascii=False) + "\n"
+        extra_files["night.json"] = json_text(night_json(result), indent=1)
         extra_files["interference.csv"] = interference_csv(result)
     gj = contours_geojson(result, extra_features)
     files = {
-        "summary.json": json.dumps(summary_dict(result, extra_summary), indent=1,
-                                   ensure_ascii=False) + "\n",
+        "summary.json": json_text(summary_dict(result, extra_summary), indent=1),
         "radials.csv": radials_csv(result),
-        "contours.geojson": json.dumps(gj) + "\n",
+        "contours.geojson": json_text(gj),
         "contours.kml": contours_kml(gj, result.spec.title),
     }
     files.update(extra_files or {})
