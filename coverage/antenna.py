@@ -41,6 +41,10 @@ ETA0 = 376.730313  # impedance of free space [Ω] (CODATA 2018: 376.730313668)
 #: radiation resistance 0.14 % high.
 FIELD_OHM = ETA0 / (2 * np.pi)
 MAX_TOWERS = 12
+# an array that radiates less than this share of what its towers would radiate apart (−60 dB)
+# is a mistake in its feeds (two equal co-located towers in anti-phase radiate nothing), not a
+# design: refused rather than run with every contour "not reached" or an absurd maximum power
+CANCEL_LIMIT = 1e-6
 HEIGHT_RANGE_DEG = (0.1, 350.0)
 #: Gauss–Legendre nodes in elevation for the power integral (azimuth is integrated exactly
 #: with J0). 64 nodes: doubling changes the field by < 0.001 dB for arrays up to 12 towers
@@ -202,6 +206,12 @@ class Array:
         eff = [e.tower.efficiency for e in self.elements]
         if any(x is not None for x in eff) and len(set(eff)) > 1:
             raise ValueError("give the same efficiency for every tower of an array")
+        ratio = self.hemisphere_integral() / self._pair_integral(ELEVATION_NODES, diagonal=True)
+        if not ratio > CANCEL_LIMIT:
+            shown = "nothing of" if ratio <= 0 else f"{10 * np.log10(ratio):.0f} dB of"
+            raise ValueError(f"the towers' fields cancel: the array radiates {shown} what its "
+                             "towers would radiate apart; check the field ratios, phases and "
+                             "spacings")
 
     @classmethod
     def single(cls, tower: Tower) -> Array:
@@ -235,8 +245,9 @@ class Array:
             total += a * e.tower.vertical(el) * np.exp(1j * proj * cos_el)
         return np.abs(total)
 
-    def _pair_integral(self, n_nodes: int) -> float:
-        """∫∫ |Σ|² cos θ dθ dφ over the upper hemisphere; azimuth exact via J0."""
+    def _pair_integral(self, n_nodes: int, diagonal: bool = False) -> float:
+        """∫∫ |Σ|² cos θ dθ dφ over the upper hemisphere; azimuth exact via J0. With
+        ``diagonal`` only the towers' own terms: the power they would radiate apart."""
         x, w = np.polynomial.legendre.leggauss(n_nodes)
         th = (x + 1) * np.pi / 4
         wt = w * np.pi / 4 * np.cos(th)
@@ -244,6 +255,8 @@ class Array:
         a = self._feeds
         sep = np.abs(self._positions[:, None] - self._positions[None, :])  # |p_i − p_j| [rad]
         coup = np.real(a[:, None] * np.conj(a[None, :]))  # Re(a_i a_j*)
+        if diagonal:
+            coup = np.diag(np.diag(coup))
         j0 = special.j0(sep[:, :, None] * np.cos(th)[None, None, :])
         inner = np.einsum("ij,ik,jk,ijk->k", coup, f, f, j0)
         return float(2 * np.pi * np.sum(wt * inner))

@@ -273,3 +273,31 @@ def test_cli_antenna_json(capsys):
     assert out["radiation_resistance_ohm"] == pytest.approx(36.5, rel=0.005)  # Kraus, from memory
     assert cli.main(["antenna", "--freq-khz", "1000", "--height-deg", "-1"]) == 2
     assert "--height-deg" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("loss", [0.0, 1.0])
+def test_an_array_whose_fields_cancel_is_refused(loss):
+    # two equal towers at one point fed in anti-phase radiate nothing at all (their currents
+    # cancel everywhere): a mistake in the feeds, refused in one line instead of a division
+    # by zero (lossless) or a "maximum power" of 10^30 kW (with loss)
+    t = Tower(90.0, loss_ohm=loss)
+    with pytest.raises(ValueError, match="the towers' fields cancel"):
+        Array((Element(t), Element(t, phase_deg=180.0)))
+    # the same pair a quarter wave apart in quadrature is a cardioid: a deep null, accepted
+    arr = Array((Element(t), Element(t, phase_deg=90.0, spacing_deg=90.0)))
+    assert arr.horizontal_summary(1.0)["min_mv_m"] < 1e-6 * arr.horizontal_summary(1.0)["max_mv_m"]
+
+
+def test_cli_refuses_a_cancelling_array_in_one_line(tmp_path):
+    import contextlib
+    import io
+
+    from mwreach.coverage import cli
+
+    f = tmp_path / "arr.toml"
+    f.write_text("[[tower]]\nheight_deg = 90\n[[tower]]\nheight_deg = 90\nphase_deg = 180\n")
+    err = io.StringIO()
+    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
+        assert cli.main(["antenna", "--freq-khz", "1000", "--array", str(f)]) == 2
+    assert err.getvalue().count("\n") == 1 and "fields cancel" in err.getvalue()
+    assert str(f) in err.getvalue()
