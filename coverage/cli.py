@@ -54,7 +54,9 @@ def _cmd_field(args) -> int:
     ground = _ground_from_args(args)
     freq = _freq(args)
     earth_k = check_finite("--earth-k", args.earth_k, *gw.EARTH_K_RANGE)
-    km = np.array([check_finite("--km", d, 0.0, 20_000.0, low_open=True) for d in args.km])
+    lam = gw.C0 / (freq * 1e3) / 1e3  # one wavelength [km]: the method's shortest distance
+    km = np.array([check_finite("--km", d, lam, round(gw.MAX_DIST_KM, 1))
+                   for d in args.km])
     e1 = check_finite("--e1km-mv-m", args.e1km_mv_m, 0.0, 1e6, low_open=True)
     m = gw.model(freq, ground, earth_k)
     att = m.attenuation(km)
@@ -264,6 +266,9 @@ def _print_interference(result) -> None:
         print(f"  note: {note}")
 
 
+MAX_HOPS = 20  # the longest path either method covers (12 000 km) needs fewer than 10 hops
+
+
 def _cmd_sky(args) -> int:
     from .geodesy import check_site
     from .skywave import METHOD_DISTANCE_KM, METHOD_FREQ_KHZ, sky_field_dbu, sky_path
@@ -272,8 +277,8 @@ def _cmd_sky(args) -> int:
     freq = _freq(args, METHOD_FREQ_KHZ[method])
     tx = check_site(*args.from_, where="--from", names=("--from LAT", "--from LON"))
     rx = check_site(*args.to, where="--to", names=("--to LAT", "--to LON"))
-    if args.hops is not None and args.hops < 1:
-        raise UsageError(f"--hops must be >= 1 (got {args.hops})")
+    if args.hops is not None and not 1 <= args.hops <= MAX_HOPS:
+        raise UsageError(f"--hops must be 1–{MAX_HOPS} (got {args.hops})")
     height = check_finite("--height-km", args.height_km, 50.0, 500.0)
     path = sky_path(tx[0], tx[1], rx[0], rx[1], hops=args.hops, height_km=height,
                     geometry="cfr" if method == "cfr" else "geodesic")
@@ -394,8 +399,6 @@ def _cmd_search(args) -> int:
     n = len(candidate_sites(spec, settings)[0])
     if n == 0:
         raise UsageError("no candidate site in the area (all water, excluded or outside)")
-    if n > 200_000:
-        raise UsageError(f"{n} candidates: use a larger --step-km (at most 200000)")
     cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
     cores = cores or 1
     workers = cores if args.workers is None else int(args.workers)
@@ -418,7 +421,10 @@ def _cmd_search(args) -> int:
         from concurrent.futures import ProcessPoolExecutor
         import multiprocessing as mp
 
-        with ProcessPoolExecutor(workers, mp_context=mp.get_context("spawn")) as pool:
+        from .search import ignore_interrupts
+
+        with ProcessPoolExecutor(workers, mp_context=mp.get_context("spawn"),
+                                 initializer=ignore_interrupts) as pool:
             search = run_search(spec, settings, pool, _Eta(), workers)
     from .study import Study
 

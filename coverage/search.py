@@ -18,6 +18,7 @@ not depend on the number of workers.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import math
 import os
@@ -102,6 +103,9 @@ class SearchResult:
     workers: int = 1
 
 
+MAX_CANDIDATES = 200_000
+
+
 def candidate_sites(spec, settings: SearchSettings):
     """(lat, lon) of the candidates: a grid every ``step_km`` in the study site's plane, inside
     the area, on buildable ground, outside the exclusion. Order: row by row from the south-west."""
@@ -116,6 +120,14 @@ def candidate_sites(spec, settings: SearchSettings):
         area_xy = shapely.Point(0.0, 0.0).buffer(r, 256)
         x0, y0, x1, y1 = -r, -r, r, r
     s = settings.step_km
+    # counted from the area and the step before any grid is built: a 2000 km radius every
+    # 50 m would otherwise ask for tens of GiB before the limit could say no
+    about = area_xy.area / (s * s)
+    cells = (math.floor(x1 / s) - math.floor(x0 / s) + 1) * (math.floor(y1 / s)
+                                                             - math.floor(y0 / s) + 1)
+    if about > MAX_CANDIDATES or cells > 20 * MAX_CANDIDATES:
+        raise ValueError(f"about {about:.3g} candidate sites ({area_xy.area:.4g} km² every "
+                         f"{s:g} km): use a larger step (--step-km); at most {MAX_CANDIDATES}")
     xs = np.arange(math.floor(x0 / s) * s, x1 + 1e-9, s)
     ys = np.arange(math.floor(y0 / s) * s, y1 + 1e-9, s)
     xx, yy = np.meshgrid(xs, ys)
@@ -142,6 +154,34 @@ def candidate_sites(spec, settings: SearchSettings):
 
 
 # --- the work of one worker ------------------------------------------------------------------
+
+@contextlib.contextmanager
+def _interrupts_ignored():
+    """SIGINT ignored in this (main) thread while local worker processes start: an ignored
+    signal stays ignored across the start of a new program, so a worker is never killed by a
+    Ctrl-C sent to the whole process group, even before its initializer runs. Ctrl-C typed in
+    these few milliseconds is lost; any later one stops the search."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
+
+
+def ignore_interrupts() -> None:
+    """Initializer of local worker processes: Ctrl-C in a terminal reaches the whole process
+    group, and a worker that died of it would take its finished chunks with it; the parent
+    alone handles Ctrl-C (it stops the search and keeps what is done)."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
 
 _WORKER: dict = {}
 
@@ -310,8 +350,9 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
                 if progress:
                     progress(len(out), len(items), time.perf_counter() - t0)
         else:
-            pending = {executor.submit(evaluate_chunk, spec, settings, token, ch)
-                       for ch in chunks}
+            with _interrupts_ignored():  # local workers start now and inherit the ignoring
+                pending = {executor.submit(evaluate_chunk, spec, settings, token, ch)
+                           for ch in chunks}
             try:
                 while pending:
                     done, pending = wait(pending, return_when=FIRST_COMPLETED)
@@ -319,10 +360,14 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
                     for fut in done:  # keep every chunk that came back before stopping
                         try:
                             out += fut.result()
+                        except KeyboardInterrupt as exc:  # a worker stopped by Ctrl-C
+                            gone = gone or exc
                         except Exception as exc:
                             if lost is None or not lost(exc):
                                 raise
                             gone = gone or exc
+                    if isinstance(gone, KeyboardInterrupt):
+                        raise gone
                     if gone is not None:
                         text = str(gone).splitlines()[0] if str(gone) else "the connection closed"
                         result.stop_reason = f"{type(gone).__name__}: {text}"
@@ -330,8 +375,11 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
                     if progress:
                         progress(len(out), len(items), time.perf_counter() - t0)
             except KeyboardInterrupt:
-                for fut in pending:
-                    fut.cancel()
+                for fut in pending:  # chunks that finished but were not yet collected count
+                    if fut.done() and not fut.cancelled() and fut.exception() is None:
+                        out += fut.result()
+                    else:
+                        fut.cancel()
                 raise
     except KeyboardInterrupt:
         result.stopped_early = True

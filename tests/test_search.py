@@ -234,3 +234,47 @@ def test_search_options_refused_in_one_line(tmp_path, argv, needle):
                        "-o", str(tmp_path / "s"), *argv])
     assert rc == 2 and err.getvalue().count("\n") == 1 and needle in err.getvalue(), \
         err.getvalue()
+
+
+@pytest.mark.parametrize("after_s", [0.0, 4.0])  # as the workers start; when chunks are done
+def test_ctrl_c_in_a_terminal_keeps_the_chunks_the_workers_finished(tmp_path, after_s):
+    # a terminal sends Ctrl-C to the whole process group, workers included: the workers ignore
+    # it, the parent stops the search and writes what was done (exit 130)
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    out = tmp_path / "s"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "mwreach.coverage.cli", "search", str(DEMO), "--radius-km", "40",
+         "--step-km", "1", "-o", str(out), "--workers", "2"],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=True,
+        preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
+    try:
+        deadline = time.monotonic() + 120
+        while proc.poll() is None and time.monotonic() < deadline:
+            kids = subprocess.run(["pgrep", "-g", str(proc.pid)], capture_output=True,
+                                  text=True).stdout.split()
+            if len(kids) >= 3:  # the parent and two workers at work
+                break
+            time.sleep(0.2)
+        time.sleep(after_s)
+        os_killpg(proc.pid, signal.SIGINT)
+        stdout, stderr = proc.communicate(timeout=120)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 130, stderr
+    assert "Traceback" not in stderr and "KeyboardInterrupt" not in stderr, stderr
+    assert stderr.count("\n") <= 1, stderr  # one line at most, from the parent
+    if after_s:
+        rows = (out / "candidates.csv").read_text().splitlines()
+        assert 1 < len(rows) - 1 < 3348, len(rows)  # some, not all, of the 3348 candidates
+        assert "stopped early" in stdout
+
+
+def os_killpg(pgid, sig):
+    import os
+
+    os.killpg(pgid, sig)
