@@ -23,6 +23,8 @@ from __future__ import annotations
 
 from functools import lru_cache
 
+import math
+
 import numpy as np
 from scipy import optimize, special
 from scipy.integrate import solve_ivp
@@ -50,6 +52,9 @@ __all__ = [
 C0 = 299_792_458.0  # speed of light [m/s]
 EPS0 = 8.8541878128e-12  # vacuum permittivity [F/m]
 EARTH_RADIUS_KM = 6371.0  # mean earth radius
+#: the longest ground-wave path [km]: 0.45 of half the earth's circumference, short of the
+#: antipode where the series' spherical-spreading factor diverges
+MAX_DIST_KM = 0.45 * math.pi * EARTH_RADIUS_KM
 E1KM_REF_MV_M = 300.0  # short monopole, 1 kW, perfect ground (ITU-R BS.561 / P.368 reference)
 FREQ_RANGE_KHZ = (10.0, 30_000.0)  # ITU-R P.368 range
 EARTH_K_RANGE = (0.5, 10.0)
@@ -306,10 +311,8 @@ class GroundWaveModel:
                 f"dist_km must be >= one wavelength ({self.wavelength_km:.3g} km at "
                 f"{self.freq_khz:g} kHz) for the far-field ground-wave method (got {d.min():g})"
             )
-        if d.size and d.max() > 0.45 * np.pi * EARTH_RADIUS_KM:
-            raise ValueError(
-                f"dist_km must be <= {0.45 * np.pi * EARTH_RADIUS_KM:.0f} km (got {d.max():g})"
-            )
+        if d.size and d.max() > MAX_DIST_KM:
+            raise ValueError(f"dist_km must be <= {MAX_DIST_KM:.0f} km (got {d.max():g})")
         return d
 
     # --- tabulated curve (for mixed paths and inversion) ---------------------------------

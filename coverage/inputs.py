@@ -64,25 +64,39 @@ def _article(what: str) -> str:
     return ("an " if what[:1].lower() in "aeiou" else "a ") + what
 
 
+#: the largest input file read [bytes]: far above any study, zones or neighbours file a person
+#: makes (the demo's largest is tens of kB), low enough that /dev/zero or a wrong file named
+#: by mistake is refused at once instead of filling memory
+MAX_INPUT_BYTES = 64 * 1024 * 1024
+
+
 def _existing_file(path, what: str = "file") -> pathlib.Path:
     path = pathlib.Path(path)
     if path.is_dir():
         raise ValueError(f"{path}: is a folder; expected {_article(what)}")
     if not path.exists():
         raise ValueError(f"{path}: {what} not found")
+    if not path.is_file():  # a device, a pipe (which would block), a socket
+        raise ValueError(f"{path}: is not a regular file (a device, pipe or socket); "
+                         f"expected {_article(what)}")
     return path
 
 
 def read_text(path, what: str = "file") -> str:
     """A UTF-8 text file's contents (a leading byte-order mark is dropped).
 
-    Errors name the file: not found, a folder, not UTF-8 text, unreadable.
+    Errors name the file: not found, a folder, a device or pipe, larger than
+    :data:`MAX_INPUT_BYTES`, not UTF-8 text, unreadable.
     """
     path = _existing_file(path, what)
     try:
-        raw = path.read_bytes()
+        with path.open("rb") as fh:
+            raw = fh.read(MAX_INPUT_BYTES + 1)
     except OSError as exc:
         raise ValueError(f"{path}: cannot read ({exc.strerror})") from None
+    if len(raw) > MAX_INPUT_BYTES:
+        raise ValueError(f"{path}: larger than {MAX_INPUT_BYTES // 2**20} MiB, the most "
+                         f"{_article(what)} may be")
     try:
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -234,10 +248,26 @@ def _table(doc: dict, key: str, where: str) -> dict:
     return value
 
 
+#: the most entries each list of a study may hold: each far above a real study (a crowded
+#: channel has hundreds of neighbours, a band-wide list a few thousand), low enough that a
+#: pasted column of 100 000 values is refused at once rather than run for hours
+LIST_LIMITS = {"bearings": 3600, "contour": 20, "neighbour": 10_000, "station_class": 100,
+               "zones": 10_000, "readings": 100_000}
+
+
+def check_count(key: str, n: int, where: str) -> None:
+    """Refuse a list longer than ``LIST_LIMITS[key]``, naming the key and the file."""
+    limit = LIST_LIMITS[key]
+    if n > limit:
+        raise ValueError(f"{key}: {n} entries, more than the {limit} a study may hold, in "
+                         f"{where}")
+
+
 def _list_of_tables(doc: dict, key: str, where: str, label: str) -> list:
     value = doc.get(key, [])
     if not isinstance(value, list):
         raise ValueError(f"{key} must be a list of {label} tables in {where}")
+    check_count(key, len(value), where)
     for i, t in enumerate(value, 1):
         if not isinstance(t, dict):
             raise ValueError(f"{label} {i} must be a table in {where}")
@@ -323,7 +353,9 @@ def load_zones(path, default, notes: list | None = None):
     notes = [] if notes is None else notes
     path = pathlib.Path(path)
     zones = []
-    for i, feat in enumerate(_features(read_json(path), path), 1):
+    features = _features(read_json(path), path)
+    check_count("zones", len(features), str(path))
+    for i, feat in enumerate(features, 1):
         where = f"feature {i} of {path}"
         if not isinstance(feat, dict) or feat.get("type") != "Feature":
             raise ValueError(f"{where}: expected a GeoJSON Feature")
@@ -513,7 +545,9 @@ def read_neighbours_csv(path, inputs: list | None = None, classes: dict | None =
     default). Errors name the file, the line and the column."""
     path = pathlib.Path(path)
     out = []
-    for where, row in read_csv(path, NEIGHBOUR_KEYS, NEIGHBOUR_REQUIRED):
+    rows = read_csv(path, NEIGHBOUR_KEYS, NEIGHBOUR_REQUIRED)
+    check_count("neighbour", len(rows), str(path))
+    for where, row in rows:
         out.append(neighbour_from_table(_csv_numbers(row, _NEIGHBOUR_NUMBERS, where), where,
                                         path.parent, inputs, classes))
     return out
@@ -539,7 +573,9 @@ def read_measurements(path, spec) -> dict:
     path = pathlib.Path(path)
     st = spec.station
     groups: dict = {}
-    for where, row in read_csv(path, MEASUREMENT_COLUMNS, ("lat", "lon")):
+    rows = read_csv(path, MEASUREMENT_COLUMNS, ("lat", "lon"))
+    check_count("readings", len(rows), str(path))
+    for where, row in rows:
         num = _csv_numbers(row, ("lat", "lon", "field_mv_m", "field_dbu", "bearing_deg",
                                  "dist_km"), where)
         lat, lon = check_site(num["lat"], num["lon"], where=where)
@@ -662,6 +698,7 @@ def parse_study(doc: dict, path="<study>"):
     extra = st.get("bearings", [])
     if not isinstance(extra, list):
         raise ValueError(f"bearings must be a list of degrees in {w}")
+    check_count("bearings", len(extra), w)
     extra = tuple(check_finite("bearings", b, 0.0, 360.0, where=w) for b in extra)
     max_km = check_finite("max_km", st.get("max_km", 0.0), 0.0, MAX_RADIAL_KM, where=w)
     step_km = check_finite("step_km", st.get("step_km", 0.25), 0.01, 5.0, where=w)
@@ -789,6 +826,7 @@ def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list,
         nfile = it["neighbours"]
         inputs.append(npath)
         listed = read_neighbours_csv(npath, inputs, classes)
+        check_count("neighbour", len(tables) + len(listed), f"{npath} and {fname}")
         if not listed:
             notes.append(f"{npath}: the neighbours file lists no station (header only); "
                          "no neighbour from it is checked")

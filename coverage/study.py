@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .contours import (
+    distance_grid,
     LevelContour,
     RadialFields,
     level_contour,
@@ -129,6 +130,23 @@ class StudyResult:
         return rows
 
 
+#: field points of one run (bearings × distances) above which a study is refused: each value
+#: in the range of step_km, max_km and bearing_step_deg is sensible alone, but together they
+#: can ask for more memory than a desktop has (0.01 km to 2000 km on 361 bearings is 72 million
+#: points, about 1.4 GiB in the arrays of one pass); 20 million is about 35 times the demo
+MAX_GRID_POINTS = 20_000_000
+
+
+def check_grid_size(n_bearings: int, n_distances: int, spec) -> None:
+    """Refuse a run whose bearings × distances exceed :data:`MAX_GRID_POINTS`, naming the keys."""
+    n = n_bearings * n_distances
+    if n > MAX_GRID_POINTS:
+        raise ValueError(
+            f"{n_bearings} bearings × {n_distances} distances = {n:.3g} field points, more "
+            f"than {MAX_GRID_POINTS:.3g}: use a larger step_km or bearing_step_deg, or a "
+            f"smaller max_km, in [study] of {spec.path}")
+
+
 class Study:
     """Runs a whole daytime coverage job from a :class:`StudySpec`.
 
@@ -176,6 +194,7 @@ class Study:
         e1 = st.antenna.field_mv_m(b, 0.0, power)
         summary = st.antenna.horizontal_summary(power)
         max_km = self.auto_max_km(summary["max_mv_m"])
+        check_grid_size(b.size, distance_grid(st.freq_khz, max_km, spec.step_km).size, spec)
         radials = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, b, e1, max_km,
                                 spec.step_km, spec.mixed_path, spec.earth_k, progress)
         proj = local_projection(st.lat, st.lon)

@@ -258,7 +258,13 @@ def test_daytime_only_neighbour_and_station_run(demo_copy):
          "--power-kw must be > 0"),
         (["antenna", "--freq-khz", "1000", "--height-deg", "90", "--efficiency", "1.5"],
          "--efficiency must be > 0 and <= 1"),
-        (["field", "--freq-khz", "1000", "--ground", "land", "--km", "-3"], "--km must be > 0"),
+        # one wavelength at 1000 kHz is c/f = 0.299792 km: the method's shortest distance
+        (["field", "--freq-khz", "1000", "--ground", "land", "--km", "-3"],
+         "--km must be >= 0.299792 and <= 9006.8 (got -3.0)"),
+        (["field", "--freq-khz", "1000", "--ground", "land", "--km", "20000"],
+         "--km must be >= 0.299792 and <= 9006.8 (got 20000.0)"),
+        (["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "45", "-80",
+          "--hops", "100000000"], "--hops must be 1–20 (got 100000000)"),
         (["field", "--freq-khz", "1000", "--ground", "LAND", "--km", "3", "--earth-k", "0"],
          "--earth-k must be >= 0.5"),
         (["field", "--freq-khz", "1000", "--km", "3"], "--ground NAME or both --sigma-ms-m"),
@@ -618,3 +624,67 @@ def test_output_names_that_mean_nothing_or_a_device(argv, needle, tmp_path, monk
     assert list(tmp_path.iterdir()) == [] and digest(DEMO.parent) == before
     if os.path.exists("/dev/full"):
         assert pathlib.Path("/dev/full").is_char_device()
+
+
+# --- what a study may cost ---------------------------------------------------------------------
+
+@pytest.mark.parametrize("old, new, needle", [
+    ("bearings = [137.5]", "bearings = [" + ", ".join(["1.5"] * 3601) + "]",
+     "bearings: 3601 entries, more than the 3600"),
+    ("step_km = 0.25", "step_km = 0.01\nmax_km = 2000",
+     "361 bearings × 199100 distances = 7.19e+07 field points"),
+])
+def test_lists_and_grids_beyond_what_a_study_may_cost(demo_copy, old, new, needle):
+    f = demo_copy / "big.toml"
+    f.write_text(DEMO_TEXT.replace(old, new, 1), encoding="utf-8")
+    rc, out, err = run_cli("run", f, "-o", demo_copy / "out")
+    assert rc == 2
+    one_line_error(err, needle, "big.toml")
+    assert not (demo_copy / "out").exists() or not any((demo_copy / "out").iterdir())
+
+
+def test_too_many_contours_and_neighbour_rows(demo_copy):
+    f = demo_copy / "many.toml"
+    levels = "".join(f"[[contour]]\nfield_mv_m = {0.01 * (k + 1):g}\n" for k in range(21))
+    f.write_text(DEMO_TEXT.replace("[community]", levels + "[community]", 1), encoding="utf-8")
+    with pytest.raises(ValueError, match="contour: 25 entries, more than the 20"):
+        load_study(f)
+    lines = (demo_copy / "neighbours.csv").read_text().splitlines()
+    (demo_copy / "neighbours.csv").write_text("\n".join(lines + lines[1:2] * 10_001) + "\n")
+    (demo_copy / "s.toml").write_text(DEMO_TEXT, encoding="utf-8")
+    with pytest.raises(ValueError, match="neighbour: 10007 entries, more than the 10000"):
+        load_study(demo_copy / "s.toml")
+
+
+@pytest.mark.parametrize("kind", ["fifo", "device", "large"])
+def test_only_regular_files_of_bounded_size_are_read(demo_copy, kind):
+    text = DEMO_TEXT
+    if kind == "fifo":
+        os.mkfifo(demo_copy / "pipe.geojson")  # reading it would block for ever
+        text = text.replace('zones = "zones.geojson"', 'zones = "pipe.geojson"')
+        needle = "pipe.geojson: is not a regular file"
+    elif kind == "device":
+        text = text.replace('zones = "zones.geojson"', 'zones = "/dev/zero"')
+        needle = "/dev/zero: is not a regular file"
+    else:
+        with open(demo_copy / "huge.geojson", "wb") as fh:
+            fh.truncate(65 * 2**20)  # a sparse file: 65 MiB of zeros
+        text = text.replace('zones = "zones.geojson"', 'zones = "huge.geojson"')
+        needle = "huge.geojson: larger than 64 MiB"
+    f = demo_copy / "s.toml"
+    f.write_text(text, encoding="utf-8")
+    rc, out, err = run_cli("run", f, "-o", demo_copy / "out")
+    assert rc == 2
+    one_line_error(err, needle)
+
+
+def test_search_counts_candidates_before_building_them(tmp_path):
+    import resource
+
+    before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    rc, out, err = run_cli("search", DEMO, "--radius-km", "2000", "--step-km", "0.05",
+                           "-o", tmp_path / "s")
+    assert rc == 2
+    one_line_error(err, "about 5.03e+09 candidate sites", "--step-km")
+    grown_mb = (resource.getrusage(resource.RUSAGE_SELF).ru_maxrss - before) / 1024
+    assert grown_mb < 200  # the grid it refused would need tens of GiB
