@@ -216,3 +216,42 @@ def test_interrupt_after_the_swap_says_the_new_set_is_in_place(demo_copy, monkey
     assert rc == 130
     assert "the new outputs are complete in" in err.getvalue(), err.getvalue()
     assert (demo_copy / "out" / "summary.json").exists()
+
+
+def test_staging_is_inside_the_output_folder(tmp_path, monkeypatch):
+    # staged on the output folder's own file system, so a mount point as --out never needs a
+    # rename across devices; nothing is created beside the folder
+    out = tmp_path / "mnt"
+    out.mkdir()
+    seen = {}
+
+    def step(name):
+        if name == "staged":
+            seen["inside"] = sorted(p.name.rsplit(".", 1)[0] for p in out.iterdir()
+                                    if p.name.startswith(TMP_PREFIX))
+            seen["beside"] = sorted(p.name for p in tmp_path.iterdir() if p != out)
+
+    monkeypatch.setattr(safefiles, "_step", step)
+    write_set(out, NEW, known_names=KNOWN)
+    assert seen == {"inside": [f"{TMP_PREFIX}set.new", f"{TMP_PREFIX}set.old"], "beside": []}
+    assert os.stat(out).st_dev == os.stat(out / "summary.json").st_dev
+
+
+def test_a_failing_writer_says_what_the_folder_holds(tmp_path, monkeypatch):
+    # A writes its set; B fails on a full disk: B says the previous set (A's) is kept, and the
+    # folder holds A's whole set
+    import errno
+
+    out = tmp_path / "out"
+    write_set(out, NEW, known_names=KNOWN)
+    real = safefiles._write_bytes
+
+    def full(path, data, mode):
+        if ".new." in str(path) and path.name == "radials.csv":
+            raise OSError(errno.ENOSPC, "No space left on device", str(path))
+        real(path, data, mode)
+
+    monkeypatch.setattr(safefiles, "_write_bytes", full)
+    with pytest.raises(ValueError, match="outputs not written, the previous ones are kept"):
+        write_set(out, {"summary.json": "B\n", "radials.csv": "B\n"}, known_names=KNOWN)
+    assert digest(out) == set_digest(NEW)
