@@ -688,3 +688,52 @@ def test_search_counts_candidates_before_building_them(tmp_path):
     one_line_error(err, "about 5.03e+09 candidate sites", "--step-km")
     grown_mb = (resource.getrusage(resource.RUSAGE_SELF).ru_maxrss - before) / 1024
     assert grown_mb < 200  # the grid it refused would need tens of GiB
+
+
+@pytest.mark.parametrize("where", ["mwreach.coverage.cli.build_parser",
+                                   "mwreach.coverage.inputs.load_study_doc",
+                                   "mwreach.coverage.study.Study.run"])
+def test_ctrl_c_while_starting_or_reading_is_one_line(monkeypatch, tmp_path, where):
+    # Ctrl-C lands wherever the program is: while it builds its options, reads the study or
+    # computes. Each gives one line and exit 130, never a traceback (the numpy and core imports
+    # happen inside main's handling, not when the command-line module loads)
+    def interrupted(*a, **k):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(where, interrupted)
+    rc, out, err = run_cli("run", DEMO, "-o", tmp_path / "out")
+    assert rc == 130
+    one_line_error(err, "interrupted")
+    assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
+
+
+def test_the_command_line_module_loads_no_numpy():
+    code = "import sys; import mwreach.coverage.cli; print(sorted(m for m in ('numpy', " \
+           "'scipy') if m in sys.modules))"
+    p = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert p.stdout.strip() == "[]", p.stdout + p.stderr
+
+
+def test_an_overlong_radial_name_is_blamed_on_the_readings_file(demo_copy, tmp_path):
+    text = (DEMO.parent / "measurements.csv").read_text().replace(",south,", "," + "r" * 300 + ",")
+    m = demo_copy / "long.csv"
+    m.write_text(text)
+    (demo_copy / "s.toml").write_text(DEMO_TEXT, encoding="utf-8")
+    rc, out, err = run_cli("fit", demo_copy / "s.toml", m, "-o", tmp_path / "fit")
+    assert rc == 2
+    one_line_error(err, "radial must be at most 200 characters (got 300)", "long.csv")
+
+
+def test_every_json_output_is_strict_json(demo_run):
+    # NaN and Infinity are not JSON (RFC 8259 §6): no output may hold them
+    from mwreach.coverage.safefiles import json_text
+
+    def refuse(name):
+        raise ValueError(f"{name} in JSON")
+
+    out, _ = demo_run
+    for name in ("summary.json", "night.json", "contours.geojson"):
+        json.loads((out / name).read_text(encoding="utf-8"), parse_constant=refuse)
+    text = json_text({"a": float("nan"), "b": [1.0, float("inf"), -float("inf")], "c": "x"})
+    assert json.loads(text, parse_constant=refuse) == {"a": None, "b": [1.0, None, None],
+                                                       "c": "x"}
