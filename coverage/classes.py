@@ -16,7 +16,12 @@ from dataclasses import dataclass
 __all__ = ["StationClass", "STATION_CLASSES", "PROTECTION_PLANS", "OVERLAP_RULES",
            "station_class"]
 
-_CLASS_SRC = "47 CFR 73.21 and 73.182 (from memory; verify against the published text)"
+_CLASS_SRC = ("levels: 47 CFR 73.182 (from memory: its paragraphs were not found in the stored "
+              "texts); powers: 47 CFR 73.21(a)(1)–(3) (read), class C 73.21(c) (from memory)")
+
+#: 47 CFR 73.21(a)(2)–(3) (read): a class B station below 0.25 kW needs an RMS field of at
+#: least 141 mV/m at 1 km; a class D station at night stays below both
+MIN_RMS_MV_M = 141.0
 
 
 @dataclass(frozen=True)
@@ -33,13 +38,39 @@ class StationClass:
     night: str
     night_mv_m: float | None
     source: str
+    #: the class's power range [kW] by day and by night (None: no range); ``power_max_top_kw``
+    #: replaces the maximum in 1605–1705 kHz (73.21(a)(2), read)
+    power_kw: tuple[float, float] | None = None
+    night_power_kw: tuple[float, float] | None = None
+    power_max_top_kw: float | None = None
+    #: below the minimum power, an RMS field of at least this at 1 km also qualifies (class B);
+    #: at night a class D station must stay below both the power and this field
+    min_rms_mv_m: float | None = None
+
+    def power_range_kw(self, period: str, freq_khz: float):
+        """(lowest, highest) power [kW] the class allows in ``period``, or None."""
+        rng = self.night_power_kw if period == "night" else self.power_kw
+        if rng is None:
+            return None
+        lo, hi = rng
+        if self.power_max_top_kw is not None and freq_khz >= 1605.0:
+            hi = min(hi, self.power_max_top_kw)
+        return lo, hi
 
 
 STATION_CLASSES: dict[str, StationClass] = {c.name: c for c in (
-    StationClass("A", 0.1, "skywave50", 0.5, _CLASS_SRC),
-    StationClass("B", 0.5, "nif", 2.5, _CLASS_SRC),
-    StationClass("C", 0.5, "nif", 4.0, _CLASS_SRC),
-    StationClass("D", 0.5, "none", None, _CLASS_SRC),
+    # 73.21(a)(1) (read): class A 10–50 kW
+    StationClass("A", 0.1, "skywave50", 0.5, _CLASS_SRC, (10.0, 50.0), (10.0, 50.0)),
+    # 73.21(a)(2) (read): class B 0.25–50 kW (10 kW in 1605–1705 kHz), or below 0.25 kW with
+    # an RMS field of at least 141 mV/m at 1 km
+    StationClass("B", 0.5, "nif", 2.5, _CLASS_SRC, (0.25, 50.0), (0.25, 50.0), 10.0,
+                 MIN_RMS_MV_M),
+    # 73.21(c) (from memory: not found in the stored text): class C 0.25–1 kW
+    StationClass("C", 0.5, "nif", 4.0, _CLASS_SRC, (0.25, 1.0), (0.25, 1.0)),
+    # 73.21(a)(3) (read): class D 0.25–50 kW by day; at night below 0.25 kW and below an RMS
+    # field of 141 mV/m at 1 km (the night maximum is the lower of the two)
+    StationClass("D", 0.5, "none", None, _CLASS_SRC, (0.25, 50.0), (0.0, 0.25), None,
+                 MIN_RMS_MV_M),
 )}
 
 
@@ -53,30 +84,39 @@ def station_class(name: str, table: dict | None = None, where: str = "") -> Stat
         raise ValueError(f"class must be one of {', '.join(table)} (got {name!r}){suffix}") from None
 
 
-_US = "47 CFR 73.37 / 73.182 (from memory); first adjacent by day also 47 CFR 73.183(c) (read)"
+_US = "47 CFR 73.37(a) table (read); first adjacent by day also 47 CFR 73.183(c) (read)"
 _RJ81 = "Rio de Janeiro 1981 Region 2 plan (from memory; verify)"
 _GE75 = "Geneva 1975 LF/MF plan, Regions 1 and 3 (from memory; verify)"
 
 #: D/U ratios [dB] by plan: {(period, offset): (ratio, source)} and the plan's raster [kHz].
 PROTECTION_PLANS: dict[str, dict] = {
     "us": {"raster_khz": 10.0, "ratios": {
+        # 73.37(a): co-channel contour pairs 0.005 against 0.1 and 0.025 against 0.5 mV/m
+        # (both 20:1, 26 dB); first adjacent 0.25 against 0.5 mV/m (2:1, 6 dB)
         ("day", 0): (26.0, f"co-channel 26 dB: {_US}"),
         ("day", 1): (6.0, f"first adjacent 6 dB: {_US}"),
-        ("night", 0): (26.0, f"co-channel 26 dB: {_US}"),
-        ("night", 1): (6.0, f"first adjacent 6 dB: {_US}"),
-    }},
+        ("night", 0): (26.0, f"co-channel 26 dB: {_US} (night: 73.182, from memory)"),
+        ("night", 1): (6.0, f"first adjacent 6 dB: {_US} (night: 73.182, from memory)"),
+     },
+     # 73.37(a) (read): on the first adjacent channel every class is protected to its 0.5 mV/m
+     # contour (class A's 0.1 mV/m contour is protected co-channel only)
+     "adjacent_day_mv_m": {1: (0.5, "47 CFR 73.37(a): first adjacent, 0.5 mV/m for all classes "
+                                    "(read)")},
+     # 47 CFR 73.183(d) (read): across ground of different conductivities the distance to a
+     # contour is found by the equivalent-distance method
+     "mixed_path": ("kirke", "equivalent distance, 47 CFR 73.183(d) (read)")},
     "region2": {"raster_khz": 10.0, "ratios": {
         ("day", 0): (26.0, f"co-channel 26 dB: {_RJ81}"),
         ("day", 1): (0.0, f"first adjacent 0 dB: {_RJ81}"),
         ("night", 0): (26.0, f"co-channel 26 dB: {_RJ81}"),
         ("night", 1): (0.0, f"first adjacent 0 dB: {_RJ81}"),
-    }},
+    }, "mixed_path": ("millington", "Millington, ITU-R P.368 Annex 2")},
     "regions-1-3": {"raster_khz": 9.0, "ratios": {
         ("day", 0): (30.0, f"co-channel 30 dB: {_GE75}"),
         ("day", 1): (0.0, f"first adjacent (9 kHz) 0 dB: {_GE75}"),
         ("night", 0): (30.0, f"co-channel 30 dB: {_GE75}"),
         ("night", 1): (0.0, f"first adjacent (9 kHz) 0 dB: {_GE75}"),
-    }},
+    }, "mixed_path": ("millington", "Millington, ITU-R P.368 Annex 2")},
 }
 
 #: Day contour-overlap rules for second and third adjacent channels: offset → (contour of the

@@ -249,8 +249,14 @@ def interference_summary(result: StudyResult) -> dict:
     inter = result.interference
     if inter is None:
         return {}
-    clean = lambda d: None if d is None else {k: (_num(v) if not isinstance(v, str) else v)  # noqa: E731
-                                               for k, v in d.items()}
+    def value(v):
+        if isinstance(v, str):
+            return v
+        return [_num(x) for x in v] if isinstance(v, list) else _num(v)
+
+    def clean(d):
+        return None if d is None else {k: value(v) for k, v in d.items()}
+
     return {
         "max_power": {k: clean(v) for k, v in inter.max_power.items()},
         "neighbours": [{k: (_num(v) if isinstance(v, float) else v) for k, v in row.items()}

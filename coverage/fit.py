@@ -19,8 +19,9 @@ max(3 λ, 10 × the tower height) are near field and left out; readings that a s
 down-weights below one half are listed and left out of the interval. A radial is flagged as not
 constraining σ when its interval spans more than a decade or reaches the grid's edge, when it
 has fewer than four readings, or when its farthest reading lies at a numerical distance below 1
-(there the field still follows the inverse-distance law whatever σ is: common practice, no
-published source).
+on the best ground the interval allows (there the field still follows the inverse-distance law
+whatever σ is: common practice, no published source). The interval's ends are where the misfit
+profile crosses the threshold, found by root finding between grid points.
 """
 
 from __future__ import annotations
@@ -95,6 +96,11 @@ class Reading:
     bearing_deg: float
     note: str = ""
     line: int = 0  # where it stands in the measurements file
+
+
+#: a radial whose farthest reading lies below this numerical distance on the best ground the
+#: readings allow does not constrain σ (see :func:`fit_radial`)
+NEAR_LAW_P = 1.0
 
 
 def near_field_km(freq_khz: float, tower_height_m: float) -> float:
@@ -217,32 +223,47 @@ def fit_radial(name: str, readings: list, family: CurveFamily, paths=None,
     thresh = stats.f.ppf(0.95, 1, dof) * s2 if n > 2 else np.inf
     # the misfit on a fine σ grid (cubic interpolation of the family) for the interval
     fine = np.linspace(lo_s, hi_s, 721 if far_paths is None else 145)
-    ss = np.empty(fine.size)
-    e0_fine = np.empty(fine.size)
-    for k, ls_k in enumerate(fine):
+
+    def misfit(ls_k):  # (sum of squares, best E0 [dB]) at one log σ
         res = y[keep] - curve(ls_k, d[keep], kept_paths)
-        e0_fine[k] = res.mean()
-        ss[k] = ((res - e0_fine[k]) ** 2).sum()
+        return float(((res - res.mean()) ** 2).sum()), float(res.mean())
+
+    ss, e0_fine = np.array([misfit(v) for v in fine]).T
     inside = ss - ss_min <= thresh
     idx = np.flatnonzero(inside)
     lo_i, hi_i = (int(idx[0]), int(idx[-1])) if idx.size else (0, fine.size - 1)
-    sig_lo, sig_hi = 10 ** fine[lo_i], 10 ** fine[hi_i]
+    # each end where the profile crosses the threshold, found by root finding between the last
+    # grid point inside and the first outside (a grid point alone would make the interval up
+    # to one step too narrow)
+    ends, e0_ends = [fine[lo_i], fine[hi_i]], []
+    if np.isfinite(thresh) and idx.size:
+        for j, (a, b) in enumerate(((lo_i - 1, lo_i), (hi_i, hi_i + 1))):
+            if 0 <= a and b < fine.size:
+                ends[j] = optimize.brentq(lambda v: misfit(v)[0] - ss_min - thresh,
+                                          fine[a], fine[b], xtol=1e-6)
+                e0_ends.append(misfit(ends[j])[1])
+    sig_lo, sig_hi = 10 ** ends[0], 10 ** ends[1]
     # E0: the spread of its best values over the σ interval, widened by its own 95 % error
     t = stats.t.ppf(0.975, dof) if n > 2 else np.inf
     se = math.sqrt(s2 / n) if n > 0 else np.inf
-    e0_band = e0_fine[lo_i:hi_i + 1]
+    e0_band = np.concatenate([e0_fine[lo_i:hi_i + 1], e0_ends])
     e0_lo = float(min(e0_band.min(), e0_db) - t * se)
     e0_hi = float(max(e0_band.max(), e0_db) + t * se)
     constrained = True
     from .groundwave import numerical_distance
 
-    p_far = float(abs(numerical_distance(family.freq_khz, Ground(float(10 ** log_s), family.eps_r),
+    # numerical distance of the farthest reading on the best ground the readings allow (the
+    # interval's upper σ: the smallest p); below p = 1 the flat-earth attenuation is under
+    # 3.7 dB there (Sommerfeld–Norton F(p), b = 0), a few readings' scatter, and E0 absorbs
+    # the rest, so the readings cannot tell σ: common practice, no published source
+    p_far = float(abs(numerical_distance(family.freq_khz, Ground(float(sig_hi), family.eps_r),
                                          d[keep].max())))
-    if p_far < 1.0:
+    if p_far < NEAR_LAW_P:
         constrained = False
         warnings.append(f"the farthest reading ({d[keep].max():.2f} km) has a numerical distance "
-                        f"of only {p_far:.2f}: the field has barely left the inverse-distance "
-                        "law there, so σ is not constrained (take readings farther out)")
+                        f"of only {p_far:.2f} on the best ground the readings allow: the field "
+                        "has barely left the inverse-distance law there, so σ is not "
+                        "constrained (take readings farther out)")
     if n < 4:
         constrained = False
         warnings.append(f"only {n} readings beyond the near field: σ is not constrained")

@@ -658,7 +658,7 @@ SECTIONS = ("study", "station", "antenna", "ground", "contour", "community", "ou
 CLASS_KEYS = ("name", "day_mv_m", "night", "night_mv_m", "source")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
               "step_km")
-STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw")
+STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw", "class")
 GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones")
 CONTOUR_KEYS = ("field_mv_m", "label")
 COMMUNITY_KEYS = ("name", "boundary")
@@ -692,7 +692,12 @@ def parse_study(doc: dict, path="<study>"):
     st = _table(doc, "study", fname)
     w = where_join("[study]", fname)
     check_keys(st, STUDY_KEYS, w)
-    mixed = choice("mixed_path", st.get("mixed_path", "millington"), tuple(METHODS), w)
+    if "mixed_path" in st:
+        mixed = choice("mixed_path", st["mixed_path"], tuple(METHODS), w)
+    else:  # the protection plan's method: its rules say how mixed paths are computed
+        mixed, why = _plan_mixed_path(doc, fname)
+        notes.append(f"mixed paths by {why}, the method of the protection plan; set [study] "
+                     "mixed_path to choose another")
     earth_k = check_finite("earth_k", st.get("earth_k", 4.0 / 3.0), *EARTH_K_RANGE, where=w)
     step = check_finite("bearing_step_deg", st.get("bearing_step_deg", 1.0), 0.1, 90.0, where=w)
     extra = st.get("bearings", [])
@@ -712,7 +717,13 @@ def parse_study(doc: dict, path="<study>"):
     p_night = check_finite("power_night_kw", sta.get("power_night_kw", p_day), 0.0, 1e4, where=w)
     name = text_value("name", sta.get("name", "unnamed station"), w)
     array = array_from_table(_table(doc, "antenna", fname), freq, where_join("[antenna]", fname))
-    station = Station(name, lat, lon, freq, p_day, p_night, array)
+    klass = sta.get("class", "B")
+    if not isinstance(klass, str):
+        raise ValueError(f"class must be text in quotes (got {_show(klass)}) in {w}")
+    from .classes import station_class
+
+    klass = station_class(klass.upper(), _classes(doc, fname), w).name
+    station = Station(name, lat, lon, freq, p_day, p_night, array, klass)
 
     gr = _table(doc, "ground", fname)
     w = where_join("[ground]", fname)
@@ -846,6 +857,16 @@ def _parse_interference(doc: dict, base: pathlib.Path, fname: str, inputs: list,
         classes=classes,
     )
     return plan, tuple(dict(t) for t in tables)
+
+
+def _plan_mixed_path(doc: dict, fname: str) -> tuple[str, str]:
+    """(method, source) of mixed paths under the study's protection plan ("us" by default)."""
+    from .classes import PROTECTION_PLANS
+
+    prot = doc.get("protection", {})
+    plan = prot.get("plan", "us") if isinstance(prot, dict) else "us"
+    plan = choice("plan", plan, tuple(PROTECTION_PLANS), where_join("[protection]", fname))
+    return PROTECTION_PLANS[plan]["mixed_path"]
 
 
 def _classes(doc: dict, fname: str) -> dict:
@@ -1053,7 +1074,8 @@ def spec_to_doc(spec) -> dict:
         study["max_km"] = spec.max_km
     doc["study"] = study
     doc["station"] = {"name": s.name, "lat": s.lat, "lon": s.lon, "freq_khz": s.freq_khz,
-                      "power_day_kw": s.power_day_kw, "power_night_kw": s.power_night_kw}
+                      "power_day_kw": s.power_day_kw, "power_night_kw": s.power_night_kw,
+                      "class": s.station_class}
     doc["antenna"] = array_to_table(s.antenna)
     g = spec.ground.default
     ground = {"class": spec.ground_class} if spec.ground_class else {

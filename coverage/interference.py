@@ -17,6 +17,7 @@ import functools
 from dataclasses import dataclass, field, fields
 
 import numpy as np
+import shapely
 
 from .antenna import Array
 from .classes import OVERLAP_RULES, PROTECTION_PLANS, STATION_CLASSES, StationClass
@@ -81,6 +82,14 @@ class ProtectionTable:
     ratios: dict = field(default_factory=lambda: dict(DEFAULT_RATIOS))
     plan: str = "us"
 
+    def adjacent_day_mv_m(self, offset: int | None) -> float | None:
+        """The plan's protected day contour for every class at this offset, if it sets one
+        (the US plan: 0.5 mV/m on the first adjacent channel, 47 CFR 73.37(a))."""
+        if offset is None:
+            return None
+        row = PROTECTION_PLANS.get(self.plan, {}).get("adjacent_day_mv_m", {}).get(abs(offset))
+        return None if row is None else row[0]
+
     def ratio_db(self, period: str, offset: int | None):
         """(ratio dB, source) or None when no ratio is defined for that offset."""
         if offset is None:
@@ -136,15 +145,18 @@ class Neighbour(Station):
     protected_day_mv_m: float | None = None  # None: from the class (docs/methods.md §5)
     protected_night_mv_m: float | None = None  # None: from the class
     antenna_desc: dict = field(default_factory=dict, compare=False, repr=False)
-    station_class: str = "B"
 
-    def klass(self, table: dict | None = None) -> StationClass:
-        return (table or STATION_CLASSES)[self.station_class]
-
-    def day_level_mv_m(self, table: dict | None = None) -> float:
-        """The protected day contour: as given, else the class's."""
+    def day_level_mv_m(self, table: dict | None = None, offset: int = 0,
+                       protection: ProtectionTable | None = None) -> float:
+        """The protected day contour: as given, else the plan's level for this channel offset
+        (47 CFR 73.37(a): 0.5 mV/m for every class on the first adjacent channel), else the
+        class's."""
         if self.protected_day_mv_m is not None:
             return self.protected_day_mv_m
+        if protection is not None:
+            level = protection.adjacent_day_mv_m(offset)
+            if level is not None:
+                return level
         return self.klass(table).day_mv_m
 
     def night_level_mv_m(self, table: dict | None = None) -> float | None:
@@ -586,6 +598,21 @@ def describe_max_power(period: str, mp: dict | None) -> str:
     where = f"{mp['limiting_neighbour']} at {mp['limiting_lat']:.4f}, {mp['limiting_lon']:.4f}"
     check = mp.get("check", "")
     by = f" ({check})" if check else ""
+    rng = mp.get("class_range_kw")
+    if mp.get("passes") is False:
+        if check == "day overlap" and not mp.get("neighbours_allow_kw"):
+            return (f"Maximum {period} power: no power passes: the site is inside the contour "
+                    f"of {mp['limiting_neighbour']} that the overlap rule protects")
+        return (f"Maximum {period} power: no power in the class range ({format_kw(rng[0])}–"
+                f"{format_kw(rng[1])} kW) passes: the neighbours allow at most "
+                f"{format_kw(mp['neighbours_allow_kw'])} kW, limited by {where}{by}")
+    if check == "class range":
+        allow = mp.get("neighbours_allow_kw")
+        more = ("no neighbour limits it" if allow is None else
+                f"the neighbours would allow {format_kw(allow)} kW")
+        return (f"Maximum {period} power: {format_kw(mp['max_power_kw'])} kW (now "
+                f"{format_kw(mp['current_power_kw'])} kW), the top of the "
+                f"{mp['limiting_neighbour']} ({more})")
     if mp["max_power_kw"] > 100 * mp["current_power_kw"]:
         return (f"Maximum {period} power: more than 100 × the present "
                 f"{format_kw(mp['current_power_kw'])} kW ({format_kw(mp['max_power_kw'])} kW by "
@@ -795,11 +822,22 @@ def _rss_limit(products_dbu, names, mechs, exclusion_percent: int, floor_dbu: fl
     return limits, used_names, used_mechs, used
 
 
+def night_floor_mv_m(spec, plan: InterferencePlan) -> float:
+    """The lowest night limit of the study's own station: its class's night level where the
+    class is protected to the higher of that level and its night interference-free limit
+    (class B 2.5 mV/m, class C 4 mV/m; 47 CFR 73.182, from memory), else ``[night]
+    floor_mv_m`` (classes A and D, and classes without a night level)."""
+    k = spec.station.klass(plan.classes or STATION_CLASSES)
+    if k.night == "nif" and k.night_mv_m is not None:
+        return k.night_mv_m
+    return plan.night.floor_mv_m
+
+
 def _limit_at(points_lat, points_lon, spec, plan: InterferencePlan, interferers, skipped=None):
     """Night limit [dBµV/m] at points: RSS of ratio × (10 % sky wave or night ground wave,
     whichever is larger) of the interferers, never below the floor."""
     n_pts = np.size(points_lat)
-    floor = float(mv_m_to_dbu(plan.night.floor_mv_m))
+    floor = float(mv_m_to_dbu(night_floor_mv_m(spec, plan)))
     if not interferers:
         empty = [[] for _ in range(n_pts)]
         return np.full(n_pts, floor), empty, empty
@@ -818,8 +856,8 @@ def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> Ni
     p = st.power_night_kw
     bearings = np.arange(0.0, 360.0 - 1e-9, plan.night.bearing_step_deg)
     e1 = st.antenna.field_mv_m(bearings, 0.0, p)
-    max_km = radial_length_km(st.freq_khz, spec.ground, plan.night.floor_mv_m, float(e1.max()),
-                              spec.earth_k)
+    max_km = radial_length_km(st.freq_khz, spec.ground, night_floor_mv_m(spec, plan),
+                              float(e1.max()), spec.earth_k)
     rad = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, bearings, e1, max_km,
                         max(spec.step_km, 0.25), spec.mixed_path, spec.earth_k)
     limit, used, mechs = _limit_at(np.full(bearings.shape, st.lat),
@@ -1090,26 +1128,41 @@ class NeighbourChecks:
         self.protected: dict = {}
         # neighbours' protected day contours
         self.day_points = {}
+        self.day_level = {}
         for n, off, ratio in self.day_ok:
-            level = n.day_level_mv_m(classes)
+            level = self.day_level[n.name] = n.day_level_mv_m(classes, off, prot)
             self.day_points[n.name] = protected_contour_points(
                 n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw, level,
                 self.brg, step_km=0.5, polygons=self.protected, key=(n.name, "day"), **common)
         # neighbours' night protection
         lo, hi = METHOD_DISTANCE_KM[plan.night.method]
         self.range_text = f"{lo:g}–{hi:g} km"
-        self.night_targets = {}  # name → ("sky", points, wanted) or ("nif", base)
+        self.night_targets = {}  # name → ("fixed", points, wanted) or ("nif", base)
         self.base_skipped: set = set()
         listed = [n for n in plan.neighbours if n.power_night_kw > 0]
         for n, off, ratio in self.night_ok:
             k = n.klass(classes)
             if k.night == "none":
                 notes.append(f"{n.name} is class {k.name}: no night protection, no night check")
-            elif k.night == "skywave50":
+            elif k.night == "skywave50" and off == 0:
                 level = n.night_level_mv_m(classes)
                 nb, _, nlat, nlon = skywave_service_points(n, level, self.brg, plan.night)
-                self.night_targets[n.name] = ("sky", (nb, nlat, nlon),
+                self.night_targets[n.name] = ("fixed", (nb, nlat, nlon),
                                               np.full(nb.shape, float(mv_m_to_dbu(level))))
+            elif k.night == "skywave50":
+                # 47 CFR 73.21(a)(1) (read): the secondary (sky-wave) service is protected from
+                # the same channel only; on an adjacent channel the primary service is, here
+                # its night ground-wave contour at the day level of that offset
+                level = n.day_level_mv_m(classes, off, prot)
+                nb, _, nlat, nlon = protected_contour_points(
+                    n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_night_kw, level,
+                    self.brg, step_km=0.5, **common)
+                self.night_targets[n.name] = ("fixed", (nb, nlat, nlon),
+                                              np.full(nb.shape, float(mv_m_to_dbu(level))))
+                notes.append(f"{n.name} is class {k.name} on an adjacent channel: at night its "
+                             f"primary service ({level:g} mV/m ground wave) is protected, not "
+                             "its sky-wave secondary service (co-channel only, 47 CFR "
+                             "73.21(a)(1))")
             else:
                 others = []
                 for o in listed:
@@ -1177,7 +1230,7 @@ class NeighbourChecks:
         for (n, off, ratio), (nb, _, nlat, nlon) in zip(self.day_ok, pts):
             u = u_all[k:k + nb.size]
             k += nb.size
-            wanted = float(mv_m_to_dbu(n.day_level_mv_m(self.classes)))
+            wanted = float(mv_m_to_dbu(self.day_level[n.name]))
             rows += _margin_rows("day caused", n.name, off, ratio, nb, nlat, nlon, wanted, u,
                                  every=all_rows)
         overlaps, overlap_power = [], None
@@ -1197,7 +1250,11 @@ class NeighbourChecks:
             # first enters the other contour, against the level (fields ∝ √P)
             onset = float(np.nanmax(u_all[k:k + m])) if m else None
             k += m
-            if onset is not None:
+            inside = bool(shapely.contains_xy(other, 0.0, 0.0))
+            if inside:  # the site stands inside the other contour: no power avoids overlap
+                if overlap_power is None or overlap_power[0] > 0.0:
+                    overlap_power = (0.0, n.name, (st.lat, st.lon))
+            elif onset is not None:
                 p_max = st.power_day_kw * 10 ** ((lvl - onset) / 10.0)
                 if overlap_power is None or p_max < overlap_power[0]:
                     where = points[0] if points else (st.lat, st.lon)
@@ -1225,7 +1282,7 @@ class NeighbourChecks:
             plist = []
             for n, _, _ in targets:
                 kind, data, *rest = self.night_targets[n.name]
-                plist.append(data[1:] if kind == "sky" else (data.lat, data.lon))
+                plist.append(data[1:] if kind == "fixed" else (data.lat, data.lon))
             caused_skip: set = set()
             if plist:
                 alat = np.concatenate([p[0] for p in plist])
@@ -1240,7 +1297,7 @@ class NeighbourChecks:
                 u, mech = u_all[k:k + plat.size], g_all[k:k + plat.size]
                 k += plat.size
                 kind, data, *rest = self.night_targets[n.name]
-                if kind == "sky":
+                if kind == "fixed":
                     nb, wanted = data[0], rest[0]
                 else:
                     lim = data.with_proposal(u + ratio)
@@ -1260,14 +1317,15 @@ class NeighbourChecks:
         for sk in skipped:
             notes.append(f"{sk['neighbour']}: {sk['check']} skipped where the "
                          f"{sk['reason']} (the method does not cover it)")
-        max_power = _max_powers(st, rows, limits, overlap_power)
+        max_power = _max_powers(st, rows, limits, overlap_power, st.klass(self.classes))
         return InterferenceResult(tuple(rows), night, max_power, tuple(notes), plan.protection,
                                   plan.night, tuple(skipped), dict(self.protected),
                                   tuple(limits), tuple(overlaps))
 
 
-def _max_powers(st, rows, limits, overlap_power) -> dict:
-    """The largest day and night powers every check allows, and what limits each."""
+def _max_powers(st, rows, limits, overlap_power, klass=None) -> dict:
+    """The largest day and night powers every check allows, and what limits each; within the
+    power range of the station's class (:func:`_class_range`)."""
     max_power = {}
     for period, kind, p0 in (("day", "day caused", st.power_day_kw),
                              ("night", "night caused", st.power_night_kw)):
@@ -1289,8 +1347,11 @@ def _max_powers(st, rows, limits, overlap_power) -> dict:
             max_power["day"] = {"max_power_kw": p_max, "current_power_kw": st.power_day_kw,
                                 "limiting_neighbour": name, "limiting_lat": lat,
                                 "limiting_lon": lon,
-                                "margin_db_now": 10 * np.log10(p_max / st.power_day_kw),
+                                "margin_db_now": (10 * np.log10(p_max / st.power_day_kw)
+                                                  if p_max > 0 else -np.inf),
                                 "mechanism": "ground", "check": "day overlap"}
+            if p_max == 0.0:  # the site is inside the contour the overlap rule protects
+                max_power["day"]["passes"] = False
     live = [lim for lim in limits if lim.proposal_dbu.size]
     if live and max_power.get("night") is not None:
         # the proposal must also stay out of each neighbour's RSS night limit: the power at
@@ -1306,7 +1367,43 @@ def _max_powers(st, rows, limits, overlap_power) -> dict:
                 "limiting_neighbour": lim.neighbour, "limiting_lat": float(lim.lat[i]),
                 "limiting_lon": float(lim.lon[i]), "margin_db_now": float(scale),
                 "mechanism": "RSS", "check": "night limit entry"}
+    if klass is not None:
+        _class_range(max_power, st, klass)
     return max_power
+
+
+def _class_range(max_power: dict, st, klass) -> None:
+    """Keep each period's maximum power inside the class's range (47 CFR 73.21, read): above
+    the range the class is what limits; below it no power of the class passes (the power the
+    neighbours allow is kept as ``neighbours_allow_kw``). A class B station may also go below
+    0.25 kW if its RMS field is at least 141 mV/m at 1 km; a class D station at night must
+    stay below both."""
+    rms_1kw = None
+    for period, p0 in (("day", st.power_day_kw), ("night", st.power_night_kw)):
+        rng = klass.power_range_kw(period, st.freq_khz)
+        if rng is None or p0 <= 0:
+            continue
+        lo, hi = rng
+        if klass.min_rms_mv_m is not None:
+            if rms_1kw is None:
+                rms_1kw = float(st.antenna.horizontal_summary(1.0)["rms_mv_m"])
+            p_rms = (klass.min_rms_mv_m / rms_1kw) ** 2  # power giving that RMS field
+            if period == "night" and lo == 0.0:
+                hi = min(hi, p_rms)  # class D at night: below 0.25 kW and below 141 mV/m
+            else:
+                lo = min(lo, p_rms)  # class B: 0.25 kW, or less with 141 mV/m
+        mp = max_power.get(period)
+        allow = float("inf") if mp is None else mp["max_power_kw"]
+        base = {"current_power_kw": p0, "limiting_lat": st.lat, "limiting_lon": st.lon,
+                "mechanism": "", "class_range_kw": [lo, hi],
+                "neighbours_allow_kw": None if mp is None else allow}
+        if allow > hi:
+            max_power[period] = base | {
+                "max_power_kw": hi, "limiting_neighbour": f"class {klass.name} range",
+                "margin_db_now": 10 * np.log10(hi / p0), "check": "class range"}
+        elif allow < lo:
+            max_power[period] = mp | {"max_power_kw": 0.0, "class_range_kw": [lo, hi],
+                                      "neighbours_allow_kw": allow, "passes": False}
 
 
 def run_interference(spec, plan: InterferencePlan) -> InterferenceResult:

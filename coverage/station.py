@@ -20,3 +20,10 @@ class Station:
     power_day_kw: float
     power_night_kw: float
     antenna: Array
+    station_class: str = "B"  # a row of the class table: its protection and power range
+
+    def klass(self, table: dict | None = None):
+        """The station's :class:`~.classes.StationClass` from ``table`` (default: built-in)."""
+        from .classes import STATION_CLASSES
+
+        return (table or STATION_CLASSES)[self.station_class]

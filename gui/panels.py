@@ -73,7 +73,8 @@ class _Editor(QWidget):
 class StationEditor(_Editor):
     FIELDS = [("name", "Station name", False), ("lat", "Latitude [deg, WGS84]", True),
               ("lon", "Longitude [deg, WGS84]", True), ("freq_khz", "Frequency [kHz]", True),
-              ("power_day_kw", "Day power [kW]", True), ("power_night_kw", "Night power [kW]", True)]
+              ("power_day_kw", "Day power [kW]", True), ("power_night_kw", "Night power [kW]", True),
+              ("class", "Class (A, B, C, D)", False)]
 
     def __init__(self, document, parent=None):
         super().__init__(document, parent)
@@ -92,9 +93,23 @@ class StationEditor(_Editor):
 
     def _commit(self, key, widget, numeric):
         value = _number_or_text(widget.text()) if numeric else widget.text()
-        if self.document.doc.get("station", {}).get(key) == value:
+        station = self.document.doc.get("station", {})
+        shown = self._shown_value(key)
+        if station.get(key) == value or (key not in station and str(value) == shown):
+            widget.setStyleSheet("")  # the text is what was shown: nothing changed
             return
         self.apply(lambda d: d.setdefault("station", {}).__setitem__(key, value), widget)
+
+    def _shown_value(self, key) -> str:
+        """The text a field shows: the file's value, or the effective one where the file leaves
+        the key out (the class)."""
+        st = self.document.doc.get("station", {})
+        if key == "class" and key not in st and self.document.spec is not None:
+            return self.document.spec.station.station_class
+        v = st.get(key, "")
+        if isinstance(v, float) and key in ("lat", "lon"):
+            return f"{v:.6f}".rstrip("0").rstrip(".")
+        return str(v)
 
     def _commit_title(self):
         if self.title.text() == str(self.document.doc.get("study", {}).get("title", "")):
@@ -103,11 +118,9 @@ class StationEditor(_Editor):
 
     def refresh(self):
         self._loading = True
-        st = self.document.doc.get("station", {})
         for key, e in self.edits.items():
             if not e.hasFocus() and e.styleSheet() == "":
-                v = st.get(key, "")
-                e.setText(f"{v:.6f}".rstrip("0").rstrip(".") if isinstance(v, float) and key in ("lat", "lon") else str(v))
+                e.setText(self._shown_value(key))
         self.title.setText(str(self.document.doc.get("study", {}).get("title", "")))
         self._loading = False
 

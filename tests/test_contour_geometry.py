@@ -101,6 +101,7 @@ def test_land_then_sea_gives_a_recovery_island(tmp_path):
                      "coordinates": [[[float(x), float(y)] for x, y in zip(lon, lat)]]}}]}
     (tmp_path / "sea.geojson").write_text(json.dumps(zones))
     text = _study(step=2.0, lat=10.0, lon=20.0).replace(
+        "[study]", '[study]\nmixed_path = "millington"').replace(
         'class = "land"', 'class = "very-dry"\nzones = "sea.geojson"').replace(
         "field_mv_m = 0.5", "field_mv_m = 0.5\n[[contour]]\nfield_mv_m = 0.1")
     res, gj = _run(tmp_path, text)

@@ -332,8 +332,9 @@ def test_night_and_interference_without_neighbours(demo_copy):
     assert rc == 0, err
     assert "no checks" in out
     night = json.loads((demo_copy / "o" / "night.json").read_text())
-    # no interferer: the night limit is the floor everywhere, 0.5 mV/m in the demo
-    assert {round(b["night_limit_mv_m"], 6) for b in night["bearings"]} == {0.5}
+    # no interferer: a class B station's night limit is its class level everywhere, 2.5 mV/m
+    # (47 CFR 73.182, from memory), not the [night] floor of 0.5 mV/m
+    assert {round(b["night_limit_mv_m"], 6) for b in night["bearings"]} == {2.5}
 
 
 # --- files from other programs ----------------------------------------------------------------
@@ -737,3 +738,19 @@ def test_every_json_output_is_strict_json(demo_run):
     text = json_text({"a": float("nan"), "b": [1.0, float("inf"), -float("inf")], "c": "x"})
     assert json.loads(text, parse_constant=refuse) == {"a": None, "b": [1.0, None, None],
                                                        "c": "x"}
+
+
+@pytest.mark.parametrize("plan, method", [("us", "kirke"), ("region2", "millington"),
+                                          ("regions-1-3", "millington")])
+def test_the_protection_plan_sets_the_default_mixed_path_method(demo_copy, plan, method):
+    # 47 CFR 73.183(d) (read): US mixed paths by the equivalent-distance method; the ITU
+    # regions' plans use Millington (ITU-R P.368 Annex 2); a study may still choose
+    text = DEMO_TEXT.replace('mixed_path = "millington"', "").replace(
+        "raster_khz = 10\n", f'plan = "{plan}"\n')
+    f = demo_copy / "plan.toml"
+    f.write_text(text, encoding="utf-8")
+    spec = load_study(f)
+    assert spec.mixed_path == method
+    assert any("the method of the protection plan" in n for n in spec.input_notes)
+    f.write_text(text.replace("[study]", '[study]\nmixed_path = "millington"'), encoding="utf-8")
+    assert load_study(f).mixed_path == "millington"

@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 
 from mwreach.coverage.antenna import Array, Tower
+from mwreach.coverage.classes import STATION_CLASSES, StationClass
 from mwreach.coverage.ground import GroundMap, ground_class
 from mwreach.coverage.interference import (
     InterferencePlan,
@@ -16,6 +17,7 @@ from mwreach.coverage.interference import (
     NightSettings,
     ProtectionTable,
     channel_offset,
+    describe_max_power,
     rss,
     run_interference,
 )
@@ -76,13 +78,19 @@ def test_default_ratios_carry_sources():
     assert t.ratio_db("day", 2) is None
 
 
-def _spec(neighbours, night=None, floor=0.5):
+#: a station class of the tests' own: no power range and no night level, so that the physics
+#: checks below see the neighbours' limits and the [night] floor, never a class's rule
+UNRANGED = StationClass("T", 0.5, "none", None, "test class without power range")
+
+
+def _spec(neighbours, night=None, floor=0.5, station_class="T"):
     spec = load_study(DEMO)
     plan = InterferencePlan(tuple(neighbours), night=night or NightSettings(floor_mv_m=floor,
                                                                            bearing_step_deg=30.0),
-                            contour_step_deg=30.0)
-    return dataclasses.replace(spec, ground=GroundMap(ground_class("land")), community=None,
-                               interference=plan)
+                            contour_step_deg=30.0, classes=dict(STATION_CLASSES, T=UNRANGED))
+    station = dataclasses.replace(spec.station, station_class=station_class)
+    return dataclasses.replace(spec, station=station, ground=GroundMap(ground_class("land")),
+                               community=None, interference=plan)
 
 
 def _nb(name, freq, lat=42.0, lon=-51.0, p=5.0):
@@ -455,3 +463,141 @@ def test_least_margin_rows_give_the_same_maximum_powers():
         for r in light.rows:  # the least margin of its neighbour and check
             assert r.margin_db == min(x.margin_db for x in full.rows
                                       if (x.kind, x.neighbour) == (r.kind, r.neighbour))
+
+
+# --- the rules as their text says (47 CFR 73.21, 73.37) ---------------------------------------
+
+def _class_a(spec, km, freq, p=50.0):
+    lat, lon = _north_of_site(spec, km)
+    return Neighbour("Clear", lat, lon, freq, p, p, Array.single(Tower(90.0)), station_class="A")
+
+
+@pytest.mark.parametrize("freq, level_mv_m", [
+    (1390.0, 0.1),  # 47 CFR 73.37(a): co-channel, class A's 0.1 mV/m contour (read)
+    (1400.0, 0.5),  # 47 CFR 73.37(a): first adjacent, 0.5 mV/m for every class (read)
+])
+def test_class_a_day_contour_by_channel_offset(freq, level_mv_m):
+    spec = _spec([])
+    n = _class_a(spec, 400.0, freq)
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(spec.interference,
+                                                                      neighbours=(n,)))
+    res = run_interference(spec, spec.interference)
+    caused = [r for r in res.rows if r.kind == "day caused"]
+    assert caused and {round(r.wanted_dbu, 6) for r in caused} == {
+        round(float(mv_m_to_dbu(level_mv_m)), 6)}
+
+
+def test_first_adjacent_class_a_limits_a_class_b_proposal_by_its_half_millivolt_contour():
+    # the issue's case: a class B proposal 400 km from a 50 kW first-adjacent class A station.
+    # Protecting the 0.1 mV/m contour (the old reading) allowed about 30 dB less than the rule's
+    # 0.5 mV/m contour; with the rule the neighbour allows more than class B's 50 kW maximum
+    # (47 CFR 73.21(a)(2), read), so the class range is what limits
+    spec = _spec([], station_class="B")
+    n = _class_a(spec, 400.0, 1400.0)
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(spec.interference,
+                                                                      neighbours=(n,)))
+    res = run_interference(spec, spec.interference)
+    mp = res.max_power["day"]
+    assert mp["check"] == "class range" and mp["max_power_kw"] == 50.0
+    assert mp["neighbours_allow_kw"] > 50.0
+    # the neighbours' limit alone: the caused margin at the present power, +10 log P ratio
+    w = res.worst("day caused")
+    allow = spec.station.power_day_kw * 10 ** (w.margin_db / 10)
+    assert mp["neighbours_allow_kw"] == pytest.approx(allow, rel=1e-9)
+
+
+def test_secondary_service_is_protected_co_channel_only():
+    # 47 CFR 73.21(a)(1) (read): a class A station's secondary (sky-wave) service is protected
+    # from the same channel only; on an adjacent channel its primary service is protected
+    spec = _spec([])
+    for freq, wanted_mv_m in ((1390.0, 0.5), (1400.0, 0.5)):
+        n = _class_a(spec, 900.0, freq)
+        sp = dataclasses.replace(spec, interference=dataclasses.replace(spec.interference,
+                                                                        neighbours=(n,)))
+        res = run_interference(sp, sp.interference)
+        night = [r for r in res.rows if r.kind == "night caused"]
+        assert night and {round(r.wanted_dbu, 6) for r in night} == {
+            round(float(mv_m_to_dbu(wanted_mv_m)), 6)}
+        # co-channel points lie on the 50 % sky-wave service contour, far beyond the ground
+        # wave; adjacent-channel points on the night ground-wave contour, within ~200 km
+        from mwreach.coverage.geodesy import inverse
+
+        d = inverse(n.lat, n.lon, np.array([r.lat for r in night]),
+                    np.array([r.lon for r in night]))[0]
+        if freq == 1390.0:
+            assert d.min() > 300.0
+            assert not any("adjacent channel: at night" in x for x in res.notes)
+        else:
+            assert d.max() < 300.0
+            assert any("primary service" in x and "73.21(a)(1)" in x for x in res.notes)
+
+
+@pytest.mark.parametrize("klass, freq, period, top", [
+    ("B", 1390.0, "day", 50.0),   # 47 CFR 73.21(a)(2) (read)
+    ("B", 1610.0, "day", 10.0),   # 73.21(a)(2): 10 kW in 1605–1705 kHz (read)
+    ("A", 1390.0, "day", 50.0),   # 73.21(a)(1) (read)
+    ("C", 1390.0, "day", 1.0),    # 73.21(c) (from memory)
+    ("D", 1390.0, "day", 50.0),   # 73.21(a)(3) (read)
+])
+def test_maximum_power_stays_in_the_class_range(klass, freq, period, top):
+    spec = _spec([], station_class=klass)
+    st = dataclasses.replace(spec.station, freq_khz=freq)
+    far = Neighbour("Far", 10.0, -20.0, freq, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, station=st, interference=dataclasses.replace(
+        spec.interference, neighbours=(far,)))
+    mp = run_interference(spec, spec.interference).max_power[period]
+    assert mp["check"] == "class range" and mp["max_power_kw"] == top
+    assert "the top of the class" in describe_max_power(period, mp)
+
+
+def test_class_d_night_power_stays_below_a_quarter_kilowatt_and_141_mv_m():
+    # 73.21(a)(3) (read): at night below 0.25 kW and below an RMS field of 141 mV/m at 1 km
+    spec = _spec([], station_class="D")
+    far = Neighbour("Far", 10.0, -20.0, 1390.0, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(
+        spec.interference, neighbours=(far,)))
+    mp = run_interference(spec, spec.interference).max_power["night"]
+    rms_1kw = spec.station.antenna.horizontal_summary(1.0)["rms_mv_m"]
+    assert mp["max_power_kw"] == pytest.approx(min(0.25, (141.0 / rms_1kw) ** 2), rel=1e-12)
+    assert mp["check"] == "class range"
+
+
+def test_below_the_class_minimum_no_power_passes_and_the_rms_field_counts():
+    # a co-channel neighbour so close that it allows only a few watts: class B's minimum is
+    # 0.25 kW, or less with an RMS field of at least 141 mV/m (73.21(a)(2), read)
+    spec = _spec([], station_class="B")
+    lat, lon = _north_of_site(spec, 60.0)
+    n = Neighbour("Close", lat, lon, 1390.0, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(
+        spec.interference, neighbours=(n,)))
+    res = run_interference(spec, spec.interference)
+    mp = res.max_power["day"]
+    assert mp["passes"] is False and mp["max_power_kw"] == 0.0
+    rms_1kw = spec.station.antenna.horizontal_summary(1.0)["rms_mv_m"]
+    lo = min(0.25, (141.0 / rms_1kw) ** 2)
+    assert mp["class_range_kw"] == pytest.approx([lo, 50.0])
+    assert 0 < mp["neighbours_allow_kw"] < lo
+    text = describe_max_power("day", mp)
+    assert text.startswith("Maximum day power: no power in the class range") and "Close" in text
+
+
+def test_a_site_inside_the_overlap_contour_passes_at_no_power():
+    # a third-adjacent neighbour 3 km away: the site stands inside its 25 mV/m contour (the
+    # overlap rule's, 73.37(a)), so every power of the proposal overlaps it
+    spec = _spec([])
+    lat, lon = _north_of_site(spec, 3.0)
+    n = Neighbour("Next door", lat, lon, 1420.0, 1.0, 1.0, Array.single(Tower(90.0)))
+    spec = dataclasses.replace(spec, interference=dataclasses.replace(
+        spec.interference, neighbours=(n,)))
+    mp = run_interference(spec, spec.interference).max_power["day"]
+    assert mp["max_power_kw"] == 0.0 and mp["passes"] is False
+    assert "no power passes: the site is inside" in describe_max_power("day", mp)
+
+
+@pytest.mark.parametrize("klass, level", [("B", 2.5), ("C", 4.0), ("T", 0.5)])
+def test_the_proposals_night_service_is_protected_to_its_class_level(klass, level):
+    # with no interferer the night limit is the class level (B 2.5, C 4 mV/m; 47 CFR 73.182,
+    # from memory), or the [night] floor for a class without one
+    spec = _spec([], floor=0.5, station_class=klass)
+    res = run_interference(spec, spec.interference)
+    assert np.allclose(res.night.limit_mv_m, level, rtol=1e-12)

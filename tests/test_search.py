@@ -85,6 +85,10 @@ def test_wide_sample_of_candidates_equals_full_runs(spec):
                     if x.level_mv_m == spec.interference.protected_day_mv_m)
         # 0.75 %, as in the five-candidate test above (2.5° radials against 1°)
         assert c.protected_area_km2 == pytest.approx(prot.area_km2, rel=0.0075)
+        assert c.share_at_study_power == pytest.approx(at_study.community_share, abs=0.005)
+        if c.max_day_kw == 0.0:  # no power passes (inside a contour the overlap rule protects)
+            assert c.share_at_max_power == 0.0
+            continue
         at_max = next(x for x in Study(moved).run(power_kw=c.max_day_kw,
                                                   interference=False).contours
                       if x.level_mv_m == settings.service_mv_m)
