@@ -1019,7 +1019,7 @@ def dump_toml_keeping(doc: dict, original_text: str | None) -> str:
         if _plain(tomllib.loads(text)) == {k: v for k, v in _plain(doc).items() if v != []}:
             return text
     except Exception:  # noqa: BLE001 - any failure of the careful path falls back to the plain one
-        pass
+        return dump_toml(doc)
     return dump_toml(doc)
 
 

@@ -38,7 +38,7 @@ from .panels import (
     RadialTable,
     StationEditor,
 )
-from .qt import ensure_app
+from .qt import ensure_app, png_bytes
 from .sheet import CAUTIONS
 from .worker import Computer
 
@@ -529,17 +529,6 @@ def _raise(exc):
     raise exc
 
 
-def _png_bytes(pixmap) -> bytes:
-    from PySide6.QtCore import QBuffer, QByteArray, QIODevice
-
-    data = QByteArray()
-    buf = QBuffer(data)
-    buf.open(QIODevice.WriteOnly)
-    pixmap.save(buf, "PNG")
-    buf.close()
-    return bytes(data.data())
-
-
 def run_gui(study=None, screenshot=None) -> int:
     """Start the application; with ``screenshot`` compute, save a PNG of the window and exit."""
     app = ensure_app(gui=True)
@@ -575,7 +564,7 @@ def run_gui(study=None, screenshot=None) -> int:
             win.map.fit()
             app.processEvents()
             try:  # encoded in memory, then written in one step like every other output
-                atomic_write(screenshot, _png_bytes(win.grab()),
+                atomic_write(screenshot, png_bytes(win.grab()),
                              check=lambda b: None if b.startswith(b"\x89PNG") else
                              _raise(ValueError(f"{screenshot}: the picture read back wrong")))
                 print(f"wrote {screenshot}")
