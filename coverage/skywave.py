@@ -305,6 +305,34 @@ def cfr_geometry(tx_lat, tx_lon, rx_lat, rx_lon):
     return dist, bearing(at, bt, ar, br), bearing(ar, br, at, bt), mlat, mlon
 
 
+def cfr_midpoint_literal(tx_lat, tx_lon, rx_lat, rx_lon):
+    """The path midpoint by 47 CFR 73.190(b) Eqs. 6–7 taken literally (for comparison only).
+
+    a_M = 90° − arccos[sin a_T cos(d°/2) + cos a_T sin(d°/2) cos α_T] and
+    b_M = b_T − k·arccos[(cos(d°/2) − sin a_T sin a_M)/(cos a_T cos a_M)], α_T the path azimuth
+    at the transmitter, k = −1 when b_R > b_T and 1 otherwise (Note 3, read). The form of Eqs. 6–7
+    is from memory (they are images in every stored copy). Note 3 decides the side by comparing
+    longitudes, so on a path across the antimeridian (b_R < b_T while the path runs east) the
+    literal b_M lands on the wrong side of the transmitter; elsewhere it equals the arc's middle
+    that :func:`cfr_geometry` uses. The tool uses the arc's middle everywhere, because the rule
+    defines a_M and b_M as the midpoint of the great-circle path (73.190(b), read) and says that
+    computed values control (73.190(e)); docs/methods.md §4.1.
+    """
+    at, bt, ar, br = (np.radians(np.asarray(v, dtype=float)) for v in (tx_lat, tx_lon, rx_lat, rx_lon))
+    at, bt, ar, br = np.broadcast_arrays(at, bt, ar, br)
+    cos_d = np.sin(at) * np.sin(ar) + np.cos(at) * np.cos(ar) * np.cos(br - bt)
+    half = 0.5 * np.arccos(np.clip(cos_d, -1.0, 1.0))
+    alpha = np.radians(cfr_geometry(tx_lat, tx_lon, rx_lat, rx_lon)[1])
+    am = 0.5 * np.pi - np.arccos(np.clip(np.sin(at) * np.cos(half)
+                                         + np.cos(at) * np.sin(half) * np.cos(alpha), -1.0, 1.0))
+    k = np.where(br > bt, -1.0, 1.0)  # Note 3
+    den = np.cos(at) * np.cos(am)
+    ratio = (np.cos(half) - np.sin(at) * np.sin(am)) / np.where(den != 0, den, 1.0)
+    bm = bt - k * np.arccos(np.clip(ratio, -1.0, 1.0))
+    lon = np.mod(np.degrees(bm) + 180.0, 360.0) - 180.0
+    return np.degrees(am), lon
+
+
 def sky_path(tx_lat, tx_lon, rx_lat, rx_lon, hops=None, height_km: float = 100.0,
              geometry: str = "geodesic") -> SkyPath:
     """Path geometry: distance, azimuths, midpoint, Φ_M, slant distance and departure angle.

@@ -196,3 +196,32 @@ def _points_at(lat, lon, d_km):
     from mwreach.coverage.geodesy import fwd_points
 
     return fwd_points(lat, lon, np.full(np.shape(d_km), 90.0), d_km)
+
+
+@pytest.mark.parametrize("tx, rx", [((40.0, -100.0), (45.0, -80.0)), ((45.0, -80.0), (40.0, -100.0)),
+                                    ((10.0, 20.0), (-5.0, 60.0)), ((38.4, -46.2), (42.23, -51.51))])
+def test_literal_eqs_6_7_agree_with_the_arc_middle_away_from_the_antimeridian(tx, rx):
+    # 47 CFR 73.190(b) Eqs. 6–7 (form from memory; Note 3's k read): on paths that do not cross
+    # 180° they are the middle of the great-circle arc, which the tool uses
+    lit = sw.cfr_midpoint_literal(tx[0], tx[1], rx[0], rx[1])
+    geo = sw.cfr_geometry(tx[0], tx[1], rx[0], rx[1])[3:]
+    assert float(lit[0]) == pytest.approx(float(geo[0]), abs=1e-9)  # deg
+    assert float(lit[1]) == pytest.approx(float(geo[1]), abs=1e-9)  # deg
+
+
+def test_across_the_antimeridian_the_tool_keeps_the_arc_middle_not_the_literal_k():
+    # 60° N 170° E to 55° N 160° W runs east across 180°, but b_R < b_T, so Note 3's k = 1 sends
+    # the literal Eq. 7 west of the transmitter: 153.9° E instead of 173.9° W (the arc's middle)
+    tx, rx = (60.0, 170.0), (55.0, -160.0)
+    lit_lat, lit_lon = sw.cfr_midpoint_literal(*tx, *rx)
+    path = sw.sky_path(*tx, *rx, geometry="cfr")
+    assert float(path.mid_lat) == pytest.approx(float(lit_lat), abs=1e-9)  # latitude agrees
+    assert float(path.mid_lon) == pytest.approx(-173.948, abs=0.001)  # deg, the arc's middle
+    assert float(lit_lon) == pytest.approx(153.948, abs=0.001)  # deg, the literal reading
+    # the two readings differ in Φ_M and so in the 50 % field; the tool's field is the arc's
+    phi_lit = float(sw.geomagnetic_lat_deg(lit_lat, lit_lon))
+    d = float(path.distance_km)
+    assert float(sw.sky_field_dbu(path, 100.0, "cfr", 50)) == pytest.approx(
+        float(sw.cfr_field_dbu(d, float(path.geomagnetic_lat_deg), 50)), abs=1e-9)
+    assert abs(float(sw.cfr_field_dbu(d, phi_lit, 50))
+               - float(sw.cfr_field_dbu(d, float(path.geomagnetic_lat_deg), 50))) > 1.0  # dB
