@@ -1122,7 +1122,8 @@ class NeighbourChecks:
         if plan.night.method == "itu":
             notes.append("ITU-R P.1147 constants (k, A, b, L_p) are recalled from memory, not "
                          "read in the published text (docs/methods.md §4.2); check them before "
-                         "filing")
+                         "filing. Its sea gain G_S is taken as 0 dB (the text was not found): "
+                         "with either terminal on a coast the sky-wave field may be higher")
         self.brg = np.arange(0.0, 360.0 - 1e-9, plan.contour_step_deg)
         common = dict(method=spec.mixed_path, earth_k=spec.earth_k)
         self.protected: dict = {}

@@ -18,6 +18,8 @@ from PySide6.QtWidgets import (
     QPushButton,
     QScrollArea,
     QTabWidget,
+    QVBoxLayout,
+    QWidget,
 )
 
 from mwreach.coverage.export import KM_PER_MI, write_outputs
@@ -38,6 +40,7 @@ from .panels import (
     RadialTable,
     StationEditor,
 )
+from .panels import max_power_text
 from .qt import ensure_app, png_bytes
 from .sheet import CAUTIONS
 from .worker import Computer
@@ -46,6 +49,20 @@ __all__ = ["MainWindow", "run_gui"]
 
 COARSE_BEARINGS = np.arange(0.0, 360.0, 5.0)  # 72 radials while dragging the site
 MAX_RECENT = 8
+
+
+def _with_header(table):
+    """The interference table under a line per period with the maximum power and its limit."""
+    box = QWidget()
+    lay = QVBoxLayout(box)
+    lay.setContentsMargins(0, 0, 0, 0)
+    box.header = QLabel()
+    box.header.setWordWrap(True)
+    box.header.setTextInteractionFlags(Qt.TextSelectableByMouse)
+    box.header.setContentsMargins(6, 4, 6, 4)
+    lay.addWidget(box.header)
+    lay.addWidget(table, 1)
+    return box
 
 
 class MainWindow(QMainWindow):
@@ -113,11 +130,12 @@ class MainWindow(QMainWindow):
         self.profile = ProfilePlot()
         self.pattern = PatternPlot()
         self.interference_table = InterferenceTable()
+        self.interference_view = _with_header(self.interference_table)
         self.results_tabs = QTabWidget()
         self.results_tabs.addTab(self.radial_table, "Radial distances")
         self.results_tabs.addTab(self.profile, "Field along a bearing")
         self.results_tabs.addTab(self.pattern, "Antenna pattern")
-        self.results_tabs.addTab(self.interference_table, "Interference checks")
+        self.results_tabs.addTab(self.interference_view, "Interference checks")
         from .measurements import MeasurementsView
 
         self.measurements = MeasurementsView(self.document)
@@ -443,8 +461,9 @@ class MainWindow(QMainWindow):
             self.profile.show_result(r, self.units, self.field_units)
         elif view is self.pattern:
             self.pattern.show_result(r)
-        elif view is self.interference_table:
+        elif view is self.interference_view:
             self.interference_table.show_result(r)
+            self.interference_view.header.setText(max_power_text(r))
 
     def _on_error(self, req, msg):
         self.error_label.setText(msg.splitlines()[0])

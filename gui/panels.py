@@ -30,7 +30,7 @@ from mwreach.coverage.antenna import height_m, quarter_wave_m
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
-from mwreach.coverage.interference import summary_cells
+from mwreach.coverage.interference import describe_max_power, summary_cells
 
 from .render import conductivity_colour, level_colour
 
@@ -815,3 +815,12 @@ class InterferenceTable(_RowsView):
                              sort_keys=[keys[i] for i in order], bad=[bad[i] for i in order])
         self.horizontalHeader().setSortIndicator(9, Qt.AscendingOrder)
         self.fit_columns()
+
+
+def max_power_text(result) -> str:
+    """The maximum day and night power lines of a full result (what limits each: a neighbour,
+    the overlap rule or the class's power range), as the sheet prints them."""
+    inter = result.interference
+    if inter is None:
+        return "No interference study: the study lists no neighbours."
+    return "\n".join(describe_max_power(period, mp) for period, mp in inter.max_power.items())

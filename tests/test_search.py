@@ -282,3 +282,21 @@ def os_killpg(pgid, sig):
     import os
 
     os.killpg(pgid, sig)
+
+
+def test_search_powers_stay_in_the_class_range(spec, local_search):
+    # 47 CFR 73.21(a)(2) (read): a class B station runs 0.25–50 kW, or less if its RMS field
+    # at 1 km is still at least 141 mV/m; no candidate reports a maximum power outside that
+    # range, and one the class range caps says so
+    klass = spec.station.klass()
+    rms_1kw = float(spec.station.antenna.horizontal_summary(1.0)["rms_mv_m"])
+    p_141 = (141.0 / rms_1kw) ** 2  # kW giving 141 mV/m RMS at 1 km (E scales with sqrt(P))
+    for c in local_search.candidates:
+        for period, got, by in (("day", c.max_day_kw, c.day_limited_by),
+                                ("night", c.max_night_kw, c.night_limited_by)):
+            if got is None or got == 0.0:  # no neighbour limits it, or no power passes
+                continue
+            lo, hi = klass.power_range_kw(period, spec.station.freq_khz)
+            assert min(lo, p_141) * (1 - 1e-9) <= got <= hi, (period, got)
+            if got == hi:
+                assert "class range" in by

@@ -55,7 +55,7 @@ def test_radial_table_matches_study(qtbot, window):
             expected = f"{d:.2f}" + ("*" if c.further[i] else "")
             assert window.radial_table.cell_value(bearing, k) == expected
     assert res.interference is not None
-    window.results_tabs.setCurrentWidget(window.interference_table)  # filled when shown
+    window.results_tabs.setCurrentWidget(window.interference_view)  # filled when shown
     inter = res.interference
     extra = len(inter.neighbour_limits) + len(inter.overlaps)
     assert window.interference_table.rowCount() == len(inter.rows) + extra
@@ -65,6 +65,13 @@ def test_radial_table_matches_study(qtbot, window):
     assert model.index(0, 0).data() == "day overlap" and model.index(0, 10).data() == "FAILS"
     first = model.index(extra, 9).data()
     assert float(first) == pytest.approx(min(r.margin_db for r in inter.rows), abs=0.01)
+    # above the table: the maximum day and night power with what limits each, as on the sheet
+    from mwreach.coverage.interference import describe_max_power
+
+    header = window.interference_view.header.text()
+    for period, mp in inter.max_power.items():
+        assert describe_max_power(period, mp) in header
+    assert "Maximum day power" in header and "Maximum night power" in header
 
 
 def test_drag_site_moves_contours(qtbot, window):
