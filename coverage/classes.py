@@ -86,6 +86,9 @@ def station_class(name: str, table: dict | None = None, where: str = "") -> Stat
 
 _US = "47 CFR 73.37(a) table (read); first adjacent by day also 47 CFR 73.183(c) (read)"
 _RJ81 = "Rio de Janeiro 1981 Region 2 plan (from memory; verify)"
+#: ITU-R BS.560-4 §1 Note 2 (read): the Region 2 conference (Rio de Janeiro, 1981) used 26 dB
+#: co-channel for both ground-wave and sky-wave services
+_RJ81_CO = "Rio de Janeiro 1981 Region 2 plan, as reported in ITU-R BS.560-4 §1 Note 2 (read)"
 _GE75 = "Geneva 1975 LF/MF plan, Regions 1 and 3 (from memory; verify)"
 
 #: D/U ratios [dB] by plan: {(period, offset): (ratio, source)} and the plan's raster [kHz].
@@ -106,9 +109,9 @@ PROTECTION_PLANS: dict[str, dict] = {
      # contour is found by the equivalent-distance method
      "mixed_path": ("kirke", "equivalent distance, 47 CFR 73.183(d) (read)")},
     "region2": {"raster_khz": 10.0, "ratios": {
-        ("day", 0): (26.0, f"co-channel 26 dB: {_RJ81}"),
+        ("day", 0): (26.0, f"co-channel 26 dB: {_RJ81_CO}"),
         ("day", 1): (0.0, f"first adjacent 0 dB: {_RJ81}"),
-        ("night", 0): (26.0, f"co-channel 26 dB: {_RJ81}"),
+        ("night", 0): (26.0, f"co-channel 26 dB: {_RJ81_CO}"),
         ("night", 1): (0.0, f"first adjacent 0 dB: {_RJ81}"),
     }, "mixed_path": ("millington", "Millington, ITU-R P.368 Annex 2")},
     "regions-1-3": {"raster_khz": 9.0, "ratios": {

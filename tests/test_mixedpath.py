@@ -131,3 +131,27 @@ def test_bad_paths():
         millington_db([Section(0, 10, LAND), Section(12, 20, SEA)], [15.0], F)
     with pytest.raises(ValueError, match="at least one"):
         millington_db([], [15.0], F)
+
+
+def test_kirke_reads_equivalent_distances_at_every_boundary():
+    # three sections, by hand (47 CFR 73.183(d), read: the equivalent-distance method): land to
+    # 40 km, sea to 100 km, dry ground beyond. At each boundary the field reached so far is
+    # found on the next section's curve (scipy brentq) and followed from that distance; the
+    # second boundary's field must come from the sea curve at its equivalent distance, not
+    # at 100 km. 0.005 dB: the curve tables' interpolation (groundwave.table docstring)
+    from scipy.optimize import brentq
+
+    secs = [Section(0, 40, LAND), Section(40, 100, SEA), Section(100, 400, DRY)]
+
+    def on(ground, target):
+        return brentq(lambda x: float(gw.field_dbu(F, ground, x)) - target, 0.5, 5000.0)
+
+    d_sea = on(SEA, float(gw.field_dbu(F, LAND, 40.0)))
+    at_100 = float(gw.field_dbu(F, SEA, d_sea + 60.0))
+    d_dry = on(DRY, at_100)
+    want = float(gw.field_dbu(F, DRY, d_dry + 100.0))
+    assert _dbu(kirke_db(secs, [100.0], F)[0]) == pytest.approx(at_100, abs=0.005)
+    assert _dbu(kirke_db(secs, [200.0], F)[0]) == pytest.approx(want, abs=0.005)
+    # the slip of reading the sea curve at the boundary's own distance would be far off
+    wrong = float(gw.field_dbu(F, DRY, on(DRY, float(gw.field_dbu(F, SEA, 100.0))) + 100.0))
+    assert abs(want - wrong) > 1.0  # dB

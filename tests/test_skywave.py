@@ -141,8 +141,11 @@ def test_cli_sky_json(capsys):
                 "field_50_dbu", "field_10_dbu"):
         assert key in out
     assert out["e1km_mv_m"] == 100.0
-    expected = float(sw.cfr_field_dbu(out["distance_km"], out["midpoint_geomagnetic_lat_deg"]))
-    assert out["field_50_dbu"] == pytest.approx(expected, abs=1e-9)
+    # against the rule written out by hand, not the command's own numbers
+    d_km, phi, f50 = _by_hand((40.0, -90.0), (40.0, -78.0))
+    assert out["distance_km"] == pytest.approx(d_km, abs=1e-6)  # km
+    assert out["midpoint_geomagnetic_lat_deg"] == pytest.approx(phi, abs=1e-9)  # deg
+    assert out["field_50_dbu"] == pytest.approx(f50, abs=1e-9)  # dB
     assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40.1", "-90",
                      "--method", "itu"]) == 2
     assert "the ITU-R P.1147 method covers 50–12000 km" in capsys.readouterr().err
@@ -154,13 +157,10 @@ def test_itu_latitude_cap():
         float(sw.itu_field_dbu(1500.0, 1000.0, 60.0)))
 
 
-@pytest.mark.parametrize("tx, rx", [((38.40, -46.20), (42.2312, -51.51)),
-                                    ((40.0, -90.0), (30.0, -100.0)),
-                                    ((-20.0, 179.5), (-25.0, -175.0)),  # across the antimeridian
-                                    ((10.0, 20.0), (10.0, 21.0))])
-def test_cfr_path_matches_a_hand_computation_from_the_published_equations(tx, rx):
-    # 47 CFR 73.190(b): d° by Eq. 5 [pub], d = 111.18·d° km (Eq. 4) [from memory], Φ_M by Eq. 3
-    # [pub] at the midpoint of the great-circle arc; written out here by hand
+def _by_hand(tx, rx):
+    """47 CFR 73.190(b) written out by hand: d° by Eq. 5 [pub], d = 111.18·d° km (Eq. 4)
+    [from memory], Φ_M by Eq. 3 [pub] at the middle of the great-circle arc, and Formula 1
+    [pub] for 100 mV/m at 1 km: 97.5 − 20 log D − (2π + 4.95 tan²Φ)·sqrt(D/1000)."""
     at, bt, ar, br = map(np.radians, (tx[0], tx[1], rx[0], rx[1]))
     d_deg = np.degrees(np.arccos(np.sin(at) * np.sin(ar)
                                  + np.cos(at) * np.cos(ar) * np.cos(br - bt)))
@@ -175,6 +175,18 @@ def test_cfr_path_matches_a_hand_computation_from_the_published_equations(tx, rx
     phi = np.degrees(np.arcsin(np.sin(am) * np.sin(np.radians(78.5))
                                + np.cos(am) * np.cos(np.radians(78.5))
                                * np.cos(np.radians(69.0) + bm)))
+    slant = np.sqrt(40000.0 + d_km**2)
+    t2 = np.tan(np.radians(min(abs(phi), 60.0))) ** 2
+    f50 = 97.5 - 20 * np.log10(slant) - (2 * np.pi + 4.95 * t2) * np.sqrt(slant / 1000.0)
+    return d_km, phi, f50
+
+
+@pytest.mark.parametrize("tx, rx", [((38.40, -46.20), (42.2312, -51.51)),
+                                    ((40.0, -90.0), (30.0, -100.0)),
+                                    ((-20.0, 179.5), (-25.0, -175.0)),  # across the antimeridian
+                                    ((10.0, 20.0), (10.0, 21.0))])
+def test_cfr_path_matches_a_hand_computation_from_the_published_equations(tx, rx):
+    d_km, phi, _ = _by_hand(tx, rx)
     path = sw.sky_path(tx[0], tx[1], rx[0], rx[1], geometry="cfr")
     assert float(path.distance_km) == pytest.approx(d_km, abs=1e-6)  # km
     assert float(path.geomagnetic_lat_deg) == pytest.approx(phi, abs=1e-9)  # deg
@@ -225,3 +237,21 @@ def test_across_the_antimeridian_the_tool_keeps_the_arc_middle_not_the_literal_k
         float(sw.cfr_field_dbu(d, float(path.geomagnetic_lat_deg), 50)), abs=1e-9)
     assert abs(float(sw.cfr_field_dbu(d, phi_lit, 50))
                - float(sw.cfr_field_dbu(d, float(path.geomagnetic_lat_deg), 50))) > 1.0  # dB
+
+
+def test_an_explicit_hop_count_sets_the_departure_angle(capsys):
+    # two equal hops off 100 km over 1800 km: tan θ = (cos ψ − a/(a + h))/sin ψ with
+    # ψ = d/(2·a·2), a = 6370 km (docs/methods.md §4.3, geometry by hand): about 11.3°,
+    # against about 2.1° for one hop
+    assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40", "-69",
+                     "--hops", "2", "--json"]) == 0
+    two = json.loads(capsys.readouterr().out)
+    assert cli.main(["sky", "--freq-khz", "1000", "--from", "40", "-90", "--to", "40", "-69",
+                     "--json"]) == 0
+    one = json.loads(capsys.readouterr().out)
+    a, h = 6370.0, 100.0
+    for out, n in ((two, 2), (one, 1)):
+        psi = out["distance_km"] / (2 * a * n)
+        want = np.degrees(np.arctan2(np.cos(psi) - a / (a + h), np.sin(psi)))
+        assert out["departure_deg"] == pytest.approx(want, abs=1e-9)  # deg
+    assert two["departure_deg"] - one["departure_deg"] > 5.0  # deg: the hop count matters
