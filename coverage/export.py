@@ -11,6 +11,7 @@ from xml.sax.saxutils import escape
 import numpy as np
 
 from .groundwave import mv_m_to_dbu
+from .interference import field_text, margin_text, mv_m_text
 from .inputs import spec_to_doc
 from . import version
 from .safefiles import atomic_write, csv_writer, json_text, write_set
@@ -294,6 +295,7 @@ def night_json(result: StudyResult) -> dict:
         "neighbour_night_limits": [
             {"neighbour": lim.neighbour, "proposal_excluded": lim.excluded,
              "increase_db": round(lim.increase_db, 3),
+             "margin_db": round(lim.margin_db(), 3),
              "points": [{"bearing_deg": float(b), "lat": round(float(a), 6),
                          "lon": round(float(o), 6),
                          "limit_without_mv_m": round(float(10 ** (w / 20) / 1e3), 4),
@@ -322,10 +324,22 @@ def interference_csv(result: StudyResult) -> str:
     inter = result.interference
     for r in inter.rows:
         w.writerow([r.kind, r.neighbour, r.offset_channels, f"{r.bearing_deg:g}", f"{r.lat:.5f}",
-                    f"{r.lon:.5f}", f"{r.wanted_dbu:.2f}", f"{10 ** (r.wanted_dbu / 20) / 1e3:.4g}",
-                    f"{r.unwanted_dbu:.2f}", f"{10 ** (r.unwanted_dbu / 20) / 1e3:.4g}",
-                    f"{r.ratio_db:g}", f"{r.margin_db:.2f}", "yes" if r.passed else "NO",
+                    f"{r.lon:.5f}", field_text(r.wanted_dbu), mv_m_text(r.wanted_dbu),
+                    field_text(r.unwanted_dbu), mv_m_text(r.unwanted_dbu),
+                    f"{r.ratio_db:g}", margin_text(r.margin_db, 2), "yes" if r.passed else "NO",
                     f"{r.mechanism} wave", ""])
+    # the neighbours' RSS night limits: wanted is the limit without the proposal, unwanted the
+    # proposal's ratio × field, at the point that decides; margin as in the summary
+    for lim in inter.neighbour_limits:
+        i = lim.deciding_point()
+        if i is None:
+            continue
+        w.writerow(["night limit entry", lim.neighbour, "", f"{float(lim.bearings_deg[i]):g}",
+                    f"{float(lim.lat[i]):.5f}", f"{float(lim.lon[i]):.5f}",
+                    field_text(float(lim.without_dbu[i])), mv_m_text(float(lim.without_dbu[i])),
+                    field_text(float(lim.proposal_dbu[i])), mv_m_text(float(lim.proposal_dbu[i])),
+                    "", margin_text(lim.margin_db(), 2), "yes" if lim.excluded else "NO",
+                    "RSS", ""])
     for ov in inter.overlaps:
         for lat, lon in ov.points or ((None, None),):
             w.writerow(["day overlap", ov.neighbour, ov.offset_channels, "",

@@ -61,6 +61,9 @@ __all__ = [
     "protected_contour_points",
     "describe_max_power",
     "summary_cells",
+    "margin_text",
+    "field_text",
+    "mv_m_text",
     "night_contribution",
     "NeighbourLimit",
     "OverlapCheck",
@@ -391,6 +394,21 @@ class NeighbourLimit:
         """Largest rise of the limit that the proposal causes [dB] (0 where it is excluded)."""
         return float(np.max(self.with_dbu - self.without_dbu)) if self.with_dbu.size else 0.0
 
+    def margin_db(self) -> float:
+        """The margin of this check [dB]: while the proposal is excluded, how far its products
+        may still rise before they enter the limit (:meth:`entry_scale_db`); once it enters,
+        minus the rise it causes."""
+        return self.entry_scale_db() if self.excluded else -self.increase_db
+
+    def deciding_point(self) -> int | None:
+        """Index of the point that decides the check: where the proposal raises the limit most,
+        or, while it is excluded, where its product comes nearest the limit."""
+        if not self.lat.size:
+            return None
+        if not self.excluded:
+            return int(np.argmax(self.with_dbu - self.without_dbu))
+        return int(np.argmax(self.proposal_dbu - self.without_dbu))
+
     @property
     def excluded(self) -> bool:
         """True when the proposal raises the limit nowhere (the exclusion rule leaves it out,
@@ -557,12 +575,12 @@ class InterferenceResult:
                                 "passed": w.passed, "lat": w.lat, "lon": w.lon,
                                 "mechanism": w.mechanism if kind == "night caused" else "ground"})
         for lim in self.neighbour_limits:
-            i = int(np.argmax(lim.with_dbu - lim.without_dbu)) if lim.with_dbu.size else 0
+            i = lim.deciding_point()
             out.append({"neighbour": lim.neighbour, "kind": "night limit entry",
                         "offset_channels": None, "ratio_db": None,
-                        "worst_margin_db": -lim.increase_db, "passed": lim.excluded,
-                        "lat": float(lim.lat[i]) if lim.lat.size else None,
-                        "lon": float(lim.lon[i]) if lim.lon.size else None,
+                        "worst_margin_db": lim.margin_db(), "passed": lim.excluded,
+                        "lat": float(lim.lat[i]) if i is not None else None,
+                        "lon": float(lim.lon[i]) if i is not None else None,
                         "mechanism": "RSS"})
         for ov in self.overlaps:
             lat, lon = ov.points[0] if ov.points else (None, None)
@@ -581,14 +599,48 @@ def summary_cells(row: dict) -> dict:
     if row["kind"] == "day overlap":
         value = f"{row['overlap_km2']:.1f} km² overlap"
     elif row["kind"] == "night limit entry":
-        value = "excluded" if row["passed"] else f"raises it {-row['worst_margin_db']:.2f} dB"
+        value = (f"excluded, {margin_text(row['worst_margin_db'], 2)} dB to spare"
+                 if row["passed"] else f"raises it {-row['worst_margin_db']:.2f} dB")
     else:
-        value = f"{row['worst_margin_db']:.1f} dB"
+        value = f"{margin_text(row['worst_margin_db'])} dB"
     by = {"ground": "ground wave", "sky": "sky wave", "RSS": "RSS"}.get(row["mechanism"],
                                                                       row["mechanism"])
     where = "" if row["lat"] is None else f"{row['lat']:.3f}, {row['lon']:.3f}"
     return {"offset": off, "ratio": ratio, "value": value, "by": by,
             "result": "pass" if row["passed"] else "FAILS", "at": where}
+
+
+#: Margins above this are printed as "> 60" where people read them (sheet, window, CSV, the
+#: command's table): a far neighbour with no real path by day would otherwise show hundreds of
+#: dB; JSON keeps the number. Common practice, no published source: no MF protection ratio
+#: exceeds 40 dB (ITU-R BS.560-4 §1, read), so 60 dB is ample room.
+SHOWN_MARGIN_MAX_DB = 60.0
+#: Fields below this [dBµV/m] (0.1 µV/m, far under the atmospheric noise of the band) are
+#: printed as "< −20" for the same reason.
+SHOWN_FIELD_MIN_DBU = -20.0
+
+
+def margin_text(margin_db: float, decimals: int = 1) -> str:
+    """A margin [dB] for people: "> 60" above :data:`SHOWN_MARGIN_MAX_DB`."""
+    if margin_db > SHOWN_MARGIN_MAX_DB:
+        return f"> {SHOWN_MARGIN_MAX_DB:g}"
+    return f"{margin_db:.{decimals}f}"
+
+
+def field_text(dbu: float, decimals: int = 2) -> str:
+    """A field [dBµV/m] for people: "< -20" below :data:`SHOWN_FIELD_MIN_DBU`."""
+    if dbu < SHOWN_FIELD_MIN_DBU:
+        return f"< {SHOWN_FIELD_MIN_DBU:g}"
+    return f"{dbu:.{decimals}f}"
+
+
+def mv_m_text(dbu: float) -> str:
+    """The same field in mV/m, four significant digits and never in scientific notation;
+    "< 0.0001" below :data:`SHOWN_FIELD_MIN_DBU`."""
+    if dbu < SHOWN_FIELD_MIN_DBU:
+        return f"< {10 ** (SHOWN_FIELD_MIN_DBU / 20) / 1e3:.4f}"
+    return np.format_float_positional(10 ** (dbu / 20) / 1e3, precision=4, unique=False,
+                                      fractional=False, trim="-")
 
 
 def describe_max_power(period: str, mp: dict | None) -> str:

@@ -7,7 +7,7 @@ import sys
 
 import numpy as np
 from PySide6.QtCore import QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QKeySequence
+from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import (
     QDockWidget,
     QFileDialog,
@@ -139,7 +139,11 @@ class MainWindow(QMainWindow):
         from .measurements import MeasurementsView
 
         self.measurements = MeasurementsView(self.document)
-        self.results_tabs.addTab(self.measurements, "Measurements")
+        # in a scroll area, so that its buttons and plot never set the window's least height
+        meas_scroll = QScrollArea()
+        meas_scroll.setWidgetResizable(True)
+        meas_scroll.setWidget(self.measurements)
+        self.results_tabs.addTab(meas_scroll, "Measurements")
         self._stale_views: set[int] = set()
         self.results_tabs.currentChanged.connect(self._refresh_view)
         rdock = QDockWidget("Results", self)
@@ -187,6 +191,15 @@ class MainWindow(QMainWindow):
         self.map.options.legend = self.act_legend.isChecked()
         self.act_dbu = self._action(v, "Fields in dBµV/m", lambda: self.set_field_units("dBu"))
         self.act_mvm = self._action(v, "Fields in mV/m", lambda: self.set_field_units("mV/m"))
+        # the active units carry a check mark; each pair is exclusive
+        for group, acts, current in (
+                (QActionGroup(self), (self.act_km, self.act_mi), self.units),
+                (QActionGroup(self), (self.act_dbu, self.act_mvm), self.field_units)):
+            group.setExclusive(True)
+            for a, unit in zip(acts, ("km", "mi") if acts[0] is self.act_km else ("dBu", "mV/m")):
+                a.setCheckable(True)
+                a.setChecked(unit == current)
+                group.addAction(a)
         t = mb.addMenu("&Tools")
         self._action(t, "Site search…", self.site_search_dialog)
         self.act_stop_search = self._action(t, "Stop the site search", self.stop_search)
@@ -516,8 +529,10 @@ class MainWindow(QMainWindow):
         self.field_units = units
         self.settings.setValue("units/field", units)
         self.profile.field_units = units
+        self.interference_table.field_units = units
         if self.full_result is not None:
-            self._stale_views.add(self.results_tabs.indexOf(self.profile))
+            self._stale_views |= {self.results_tabs.indexOf(self.profile),
+                                  self.results_tabs.indexOf(self.interference_view)}
             self._refresh_view(self.results_tabs.currentIndex())
 
     def toggle_legend(self):

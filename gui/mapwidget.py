@@ -27,7 +27,7 @@ class MapWidget(QWidget):
 
     def __init__(self, parent=None):
         super().__init__(parent)
-        self.setMinimumSize(420, 360)
+        self.setMinimumSize(420, 240)  # the window must fit a 1280×720 screen
         self.setMouseTracking(True)
         self.result = None
         self.view: View | None = None

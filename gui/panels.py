@@ -30,7 +30,13 @@ from mwreach.coverage.antenna import height_m, quarter_wave_m
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
-from mwreach.coverage.interference import describe_max_power, summary_cells
+from mwreach.coverage.interference import (
+    describe_max_power,
+    field_text,
+    margin_text,
+    mv_m_text,
+    summary_cells,
+)
 
 from .render import conductivity_colour, level_colour
 
@@ -610,6 +616,9 @@ class _RowsView(QTableView):
     def rowCount(self) -> int:  # noqa: N802 - mirrors QTableWidget for callers and tests
         return self.model_.rowCount()
 
+    def header_text(self, column: int) -> str:
+        return self.model_.headers[column]
+
     def fit_columns(self) -> None:
         """Column widths from the header texts and the first rows (cheap, unlike resizing to
         every cell)."""
@@ -645,9 +654,6 @@ class RadialTable(_RowsView):
         self.model_.set_rows([f"{c.level_mv_m:g} mV/m [{self.units}]" for c in cs], rows,
                              [f"{x:g}°" for x in b])
         self.fit_columns()
-
-    def header_text(self, column: int) -> str:
-        return self.model_.headers[column]
 
     def cell_value(self, bearing_deg: float, level_index: int) -> str:
         b = self.result.radials.bearings_deg
@@ -774,11 +780,18 @@ class PatternPlot(QWidget):
 class InterferenceTable(_RowsView):
     """Every D/U check with its margin; sortable (worst first); failures in red."""
 
-    HEAD = ["Check", "Neighbour", "Offset", "Bearing°", "Lat", "Lon", "Wanted dBµV/m",
-            "Unwanted dBµV/m", "Ratio dB", "Margin dB", "Result", "By"]
-
     def __init__(self, parent=None):
         super().__init__(True, parent)
+        self.field_units = "dBu"
+
+    @property
+    def HEAD(self):
+        unit = "mV/m" if self.field_units == "mV/m" else "dBµV/m"
+        return ["Check", "Neighbour", "Offset", "Bearing°", "Lat", "Lon", f"Wanted {unit}",
+                f"Unwanted {unit}", "Ratio dB", "Margin dB", "Result", "By"]
+
+    def _field(self, dbu: float) -> str:
+        return mv_m_text(dbu) if self.field_units == "mV/m" else field_text(dbu)
 
     def show_result(self, result):
         inter = result.interference
@@ -788,9 +801,10 @@ class InterferenceTable(_RowsView):
                     r.wanted_dbu, r.unwanted_dbu, r.ratio_db, r.margin_db,
                     "pass" if r.passed else "FAILS", f"{r.mechanism} wave")
             keys.append(vals)
-            rows.append(tuple(f"{v:.4f}" if j in (4, 5) else f"{v:g}" if j == 3 else
-                              f"{v:.2f}" if isinstance(v, float) else str(v)
-                              for j, v in enumerate(vals)))
+            rows.append((r.kind, r.neighbour, f"{r.offset_channels:g}", f"{r.bearing_deg:g}",
+                         f"{r.lat:.4f}", f"{r.lon:.4f}", self._field(r.wanted_dbu),
+                         self._field(r.unwanted_dbu), f"{r.ratio_db:g}",
+                         margin_text(r.margin_db, 2), vals[10], vals[11]))
             bad.append(not r.passed)
         # the checks that are not a D/U at a point: entry into a neighbour's night limit and
         # day contour overlap (margin column: minus the rise in dB, minus the overlap in km²)
@@ -803,8 +817,10 @@ class InterferenceTable(_RowsView):
             vals = (row["kind"], row["neighbour"], c["offset"], "", row["lat"] or 0.0,
                     row["lon"] or 0.0, "", "", "", margin, c["result"], c["by"])
             keys.append(vals)
+            value = (margin_text(margin, 2) if row["kind"] == "night limit entry"
+                     else c["value"])
             rows.append((row["kind"], row["neighbour"], c["offset"], "", c["at"].split(", ")[0],
-                         c["at"].split(", ")[-1], "", "", "", c["value"], c["result"], c["by"]))
+                         c["at"].split(", ")[-1], "", "", "", value, c["result"], c["by"]))
             bad.append(not row["passed"])
         n_du = len(inter.rows) if inter else 0
         # the per-neighbour checks first (failures on top), then every D/U, worst margin first

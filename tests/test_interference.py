@@ -177,8 +177,37 @@ def test_demo_night_outputs(demo_run):
     assert len(night["bearings"]) == 72
     rows = list(csv.DictReader((tmp_path / "interference.csv").open()))
     kinds = {r["kind"] for r in rows}
-    assert kinds == {"day received", "day caused", "night caused", "day overlap"}
-    r = rows[0]
+    assert kinds == {"day received", "day caused", "night caused", "day overlap",
+                     "night limit entry"}
+    # no absurd number where people read: margins above 60 dB are "> 60", fields below
+    # −20 dBµV/m "< -20", and nothing in scientific notation
+    for row in rows:
+        for key in ("margin_db", "wanted_dbu", "unwanted_dbu"):
+            v = row[key]
+            if v and not v.startswith(("<", ">")):
+                assert float(v) <= 60.0 if key == "margin_db" else float(v) >= -20.0, row
+        assert not any("e-" in v or "e+" in v for v in row.values()), row
+    assert any(r["margin_db"] == "> 60" for r in rows)  # the demo's far neighbours by day
+    # the night-limit rows: margin = how far the proposal's product may rise before it enters
+    # the neighbour's RSS limit under the 50 % exclusion rule (47 CFR 73.182, from memory): the
+    # product enters once it is at least half (−6.02 dB) the RSS of the larger ones; with one
+    # larger contribution at the deciding point that is wanted − unwanted − 6.02 dB
+    entries = {r["neighbour"]: r for r in rows if r["kind"] == "night limit entry"}
+    limits = json.loads((tmp_path / "night.json").read_text())["neighbour_night_limits"]
+    assert set(entries) == {lim["neighbour"] for lim in limits}
+    for lim in limits:  # JSON keeps the number, rounded to 1e-3 dB
+        assert float(entries[lim["neighbour"]]["margin_db"]) == pytest.approx(lim["margin_db"],
+                                                                             abs=0.006)
+    v = entries["Varnholt Radio"]
+    assert v["pass"] == "yes"
+    mp = json.loads((tmp_path / "summary.json").read_text())["max_power"]["night"]
+    # this check sets the demo's maximum night power: the spare margin is that power's ratio
+    assert float(v["margin_db"]) == pytest.approx(
+        10 * np.log10(mp["max_power_kw"] / mp["current_power_kw"]), abs=0.01)
+    assert (float(v["lat"]), float(v["lon"])) == pytest.approx(
+        (mp["limiting_lat"], mp["limiting_lon"]), abs=1e-5)
+    r = next(x for x in rows if x["kind"] == "day caused" and x["margin_db"][0] not in "<>"
+             and x["unwanted_dbu"][0] not in "<>")
     assert float(r["margin_db"]) == pytest.approx(
         float(r["wanted_dbu"]) - float(r["unwanted_dbu"]) - float(r["ratio_db"]), abs=0.02)
     summary = json.loads((tmp_path / "summary.json").read_text())

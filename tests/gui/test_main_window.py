@@ -140,6 +140,31 @@ def test_units_are_remembered(qtbot, window, tmp_path):
     assert "[mi]" in window.radial_table.header_text(0)
 
 
+def test_unit_switch_changes_every_header_and_check_mark(qtbot, window):
+    _open_and_wait(qtbot, window)
+    window.set_units("km")
+    window.act_mvm.trigger()  # fields in mV/m, as from the View menu
+    assert window.act_mvm.isChecked() and not window.act_dbu.isChecked()
+    window.results_tabs.setCurrentWidget(window.interference_view)
+    t = window.interference_table
+    heads = [t.header_text(i) for i in range(t.model().columnCount())]
+    assert "Wanted mV/m" in heads and "Unwanted mV/m" in heads
+    assert not any("dBµV/m" in h for h in heads)
+    window.results_tabs.setCurrentWidget(window.profile)
+    assert "mV/m" in window.profile.plot.getAxis("left").labelText
+    window.act_dbu.trigger()
+    window.results_tabs.setCurrentWidget(window.interference_view)
+    heads = [t.header_text(i) for i in range(t.model().columnCount())]
+    assert "Wanted dBµV/m" in heads and not any(h.endswith(" mV/m") for h in heads[6:8])
+    window.act_mi.trigger()
+    assert window.act_mi.isChecked() and not window.act_km.isChecked()
+    window.results_tabs.setCurrentWidget(window.radial_table)
+    r = window.radial_table
+    heads = [r.header_text(i) for i in range(r.model().columnCount())]
+    assert all("[mi]" in h for h in heads) and not any("[km]" in h for h in heads)
+    window.set_units("km")
+
+
 def test_screenshot_not_blank(qtbot, window):
     _open_and_wait(qtbot, window)
     qtbot.wait(50)
@@ -405,6 +430,9 @@ def test_every_input_control_reachable_and_headers_whole_at_1280x720(qtbot, wind
     window.resize(1280, 720)
     _open_and_wait(qtbot, window)
     qtbot.wait(50)
+    # the window fits a 1280×720 screen: its least height is below 720 px, and it takes it
+    assert window.minimumSizeHint().height() <= 720
+    assert window.height() <= 720
     tabs = next(t for t in window.findChildren(QTabWidget)
                 if t.count() == 6 and t.tabText(0) == "Station")
     bar = tabs.tabBar()
