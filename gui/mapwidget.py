@@ -116,7 +116,8 @@ class MapWidget(QWidget):
                        "the demo (File ▸ New from demo).")
             return
         self.view.rect = QRectF(self.rect())
-        draw_map(p, self.view, self.result, self.options)
+        labels = draw_map(p, self.view, self.result, self.options)
+        self._draw_key(p, labels)
         if self._drag and self._drag[0] == "site":
             x, y = self.view.to_dev(*self._site_offset)
             p.setPen(Qt.red)
@@ -126,10 +127,45 @@ class MapWidget(QWidget):
             draw_legend(p, legend, self.result, self.options,
                         background=QColor(255, 255, 255, 235))
         else:
-            p.setPen(QColor(80, 80, 80))
-            p.drawText(QRectF(self.width() - 200, 40, 190, 18), Qt.AlignRight | Qt.AlignVCenter,
-                       "Legend: View ▸ Legend (Ctrl+L)")
+            p.setPen(QColor(80, 80, 80))  # bottom right, clear of the north arrow
+            p.drawText(QRectF(self.width() - 220, self.height() - 24, 210, 18),
+                       Qt.AlignRight | Qt.AlignVCenter, "Legend: View ▸ Legend (Ctrl+L)")
         p.end()
+
+    def key_lines(self, labels) -> list[str]:
+        """Stations shown by a number (too crowded for their name beside the symbol) and
+        neighbours outside the frame, with distance and bearing from the site."""
+        lines = [f"{n}  {t}" for n, t in labels.key]
+        spec = self.result.spec
+        if spec.interference is not None and self.view is not None:
+            from mwreach.coverage.geodesy import inverse, local_projection
+
+            st = spec.station
+            proj = local_projection(st.lat, st.lon)
+            for nb in spec.interference.neighbours:
+                x, y = self.view.to_dev(*proj.to_xy(nb.lon, nb.lat))
+                if not self.view.rect.contains(QPointF(float(x), float(y))):
+                    d, az, _ = inverse(st.lat, st.lon, nb.lat, nb.lon)
+                    km = float(d) if self.options.distance_units == "km" else float(d) / 1.609344
+                    lines.append(f"beyond the frame: {nb.name} ({nb.freq_khz:g} kHz), "
+                                 f"{km:.0f} {self.options.distance_units} at {float(az):.0f}°")
+        return lines
+
+    def _draw_key(self, p: QPainter, labels) -> None:
+        lines = self.key_lines(labels)
+        self.shown_key = lines
+        if not lines:
+            return
+        fm = p.fontMetrics()
+        w = max(fm.horizontalAdvance(t) for t in lines) + 12
+        h = fm.height() * len(lines) + 8
+        box = QRectF(8, 8, w, h)
+        p.setPen(QColor(120, 120, 120))
+        p.setBrush(QColor(255, 255, 255, 230))
+        p.drawRect(box)
+        p.setPen(Qt.black)
+        for i, t in enumerate(lines):
+            p.drawText(QRectF(14, 12 + i * fm.height(), w, fm.height()), Qt.AlignVCenter, t)
 
     # --- interaction ------------------------------------------------------------------------
     def _site_hit(self, pos) -> bool:

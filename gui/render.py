@@ -408,15 +408,34 @@ class LabelPlacer:
         self.reserved = list(reserved)  # boxes labels must avoid (scale bar, north arrow)
         self.boxes: list[QRectF] = []
         self.texts: list[str] = []
+        self.owners: list = []  # the symbol each placed label names (None: not a symbol's)
         self.dropped: list[str] = []
-        self.pending: list[tuple] = []  # (priority, x, y, text, colour, size, background, left)
+        #: (priority, x, y, text, colour, size, background, left[, owner, fallback])
+        self.pending: list[tuple] = []
+        #: symbols on the map: owner → device point; a symbol's label must be nearer its own
+        #: symbol than any other, so that it cannot be read as another station's
+        self.symbols: dict = {}
+        #: (number, text) of the stations labelled by a number instead of their name
+        self.key: list[tuple[int, str]] = []
 
     def _free(self, r: QRectF) -> bool:
         return (self.frame.contains(r) and not any(r.intersects(b) for b in self.boxes)
                 and not any(r.intersects(b) for b in self.reserved))
 
+    @staticmethod
+    def distance(r: QRectF, pt: QPointF) -> float:
+        """Distance [device units] from a point to a rectangle (0 inside it)."""
+        dx = max(r.left() - pt.x(), 0.0, pt.x() - r.right())
+        dy = max(r.top() - pt.y(), 0.0, pt.y() - r.bottom())
+        return math.hypot(dx, dy)
+
+    def nearest_own(self, r: QRectF, owner) -> bool:
+        """True when the label box is strictly nearer its owner's symbol than any other."""
+        own = self.distance(r, self.symbols[owner])
+        return all(self.distance(r, q) > own for o, q in self.symbols.items() if o != owner)
+
     def place(self, x: float, y: float, text: str, colour: QColor, size: float = 0.9,
-              background: bool = True, align_left: bool = False):
+              background: bool = True, align_left: bool = False, owner=None):
         p, s = self.p, self.opts.line_scale
         font = QFont("DejaVu Sans", 1)
         font.setPointSizeF(self.opts.font_pt * size)
@@ -433,9 +452,16 @@ class LabelPlacer:
                 a = math.radians(ang)
                 tries.append((base[0] + d * math.cos(a) * max(1.0, w / (2 * h)),
                               base[1] - d * math.sin(a)))
+        if owner is not None:  # then hugging the symbol itself: right, left, below, above
+            sx, sy = self.symbols[owner].x() - x, self.symbols[owner].y() - y
+            gap = 10 * s
+            for k in range(1, 4):
+                g = gap * k
+                tries += [(sx + g + w / 2, sy), (sx - g - w / 2, sy),
+                          (sx, sy + g + h / 2), (sx, sy - g - h / 2)]
         for ox, oy in tries:
             r = QRectF(x + ox - w / 2, y + oy - h / 2, w, h)
-            if not self._free(r):
+            if not self._free(r) or (owner is not None and not self.nearest_own(r, owner)):
                 continue
             if math.hypot(ox - base[0], oy - base[1]) > 1.5 * step and not r.contains(QPointF(x, y)):
                 p.setPen(QPen(QColor(90, 90, 90), 0.5 * s))
@@ -449,14 +475,26 @@ class LabelPlacer:
             p.drawText(r, Qt.AlignCenter, text)
             self.boxes.append(r)
             self.texts.append(text)
+            self.owners.append(owner)
             return r
         self.dropped.append(text)
         return None
 
     def flush(self):
-        """Place the labels queued in :attr:`pending`, most important first."""
+        """Place the labels queued in :attr:`pending`, most important first. A station's name
+        that fits nowhere nearer its own symbol than any other is replaced by a number beside
+        the symbol, listed in :attr:`key` (the caller prints the key under the map)."""
         for item in sorted(self.pending, key=lambda t: t[0]):
-            self.place(*item[1:])
+            args = item[1:8]
+            owner = item[8] if len(item) > 8 else None
+            fallback = item[9] if len(item) > 9 else None
+            if self.place(*args, owner=owner) is None and fallback is not None:
+                self.dropped.pop()
+                number = len(self.key) + 1
+                x, y, _text, colour, size = args[:5]
+                if self.place(x, y, str(number), colour, size, True, args[6],
+                              owner=owner) is not None:
+                    self.key.append((number, args[2]))
         self.pending = []
 
 
@@ -548,8 +586,11 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
             p.setPen(QPen(Qt.black, 0.8 * s))
             p.setBrush(QColor(255, 255, 255))
             p.drawPolygon(tri)
+            labels.symbols[("neighbour", nb.name)] = QPointF(dx, dy)
+            labels.reserved.append(QRectF(dx - 5 * s, dy - 5.5 * s, 10 * s, 9.5 * s))
             labels.pending.append((1, dx + 6 * s, dy, f"{nb.name} ({nb.freq_khz:g} kHz)",
-                                   QColor(0, 0, 0), 0.85, True, True))
+                                   QColor(0, 0, 0), 0.85, True, True, ("neighbour", nb.name),
+                                   True))
 
     if failing_points is None and inter is not None:
         failing_points = [(r.lat, r.lon) for r in inter.rows if not r.passed]
@@ -574,7 +615,9 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     p.drawLine(QPointF(dx, dy - 8 * s), QPointF(dx, dy + 8 * s))
     p.drawLine(QPointF(dx - 8 * s, dy), QPointF(dx + 8 * s, dy))
     labels.reserved.append(QRectF(dx - 9 * s, dy - 9 * s, 18 * s, 18 * s))  # the site symbol
-    labels.pending.append((0, dx, dy - 14 * s, st.name, QColor(0, 0, 0), 0.9, True, False))
+    labels.symbols[("site", st.name)] = QPointF(dx, dy)
+    labels.pending.append((0, dx, dy - 14 * s, st.name, QColor(0, 0, 0), 0.9, True, False,
+                           ("site", st.name), True))
 
     if opts.scale_bar:
         labels.reserved.append(_draw_scale_bar(p, view, opts))

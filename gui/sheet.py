@@ -220,6 +220,13 @@ def _boxed(doc: _Doc, rect: QRectF, heading: str, body: str, pt=7.0) -> float:
     return total
 
 
+def key_text(labels) -> str:
+    """The numbered stations of a map (labels too crowded to stand beside their symbol)."""
+    if not labels.key:
+        return ""
+    return ". Numbered: " + "; ".join(f"{n} {t}" for n, t in labels.key)
+
+
 def _page_map(doc: _Doc, result):
     page = doc.page
     landscape = page.width() > page.height()
@@ -258,6 +265,7 @@ def _page_map(doc: _Doc, result):
             far.append(f"{nb.name} ({nb.freq_khz:g} kHz, {float(dist):.0f} km at "
                        f"{float(az):.0f}°)")
         caption += ". Beyond the frame: " + "; ".join(far)
+    caption += key_text(doc.map_labels[0])
     doc.text(QRectF(overview.left(), overview.bottom() + 1 * PT, overview.width(), 30 * PT),
              caption, 6.5)
     levels = [c.level_mv_m for c in result.contours]
@@ -268,7 +276,8 @@ def _page_map(doc: _Doc, result):
     doc.map_labels.append(draw_map(doc.painter, fit_view(result, detail, detail_level), result,
                                    opts))
     doc.text(QRectF(detail.left(), detail.bottom() + 1 * PT, detail.width(), 20 * PT),
-             f"Detail: framed on the {levels[detail_level]:g} mV/m contour", 6.5)
+             f"Detail: framed on the {levels[detail_level]:g} mV/m contour"
+             + key_text(doc.map_labels[-1]), 6.5)
     if not landscape:
         side_rect = QRectF(page.left(), overview.bottom() + 26 * PT, page.width(),
                            page.bottom() - bottom_reserved - overview.bottom() - 26 * PT)
