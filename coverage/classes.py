@@ -125,10 +125,10 @@ PROTECTION_PLANS: dict[str, dict] = {
 #: Day contour-overlap rules for second and third adjacent channels: offset → (contour of the
 #: proposal [mV/m], contour of the other station [mV/m], source). Overlap of the two is refused.
 #: The field values are those of the 1937 North American agreement, Appendix III Table I (read):
-#: 5 mV/m at 20 kc and 25 mV/m at 30 kc spacing; as contour pairs, 47 CFR 73.37 (from memory).
+#: 5 mV/m at 20 kc and 25 mV/m at 30 kc spacing; as contour pairs, 47 CFR 73.37(a) (read).
 OVERLAP_RULES: dict[int, tuple[float, float, str]] = {
-    2: (5.0, 5.0, "second adjacent: 5 mV/m against 5 mV/m, 47 CFR 73.37 (from memory); "
+    2: (5.0, 5.0, "second adjacent: 5 mV/m against 5 mV/m, 47 CFR 73.37(a) (read); "
                   "1937 North American agreement App. III Table I (read)"),
-    3: (25.0, 25.0, "third adjacent: 25 mV/m against 25 mV/m, 47 CFR 73.37 (from memory); "
+    3: (25.0, 25.0, "third adjacent: 25 mV/m against 25 mV/m, 47 CFR 73.37(a) (read); "
                     "1937 North American agreement App. III Table I (read)"),
 }

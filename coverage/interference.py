@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import re
 from dataclasses import dataclass, field, fields
 
 import numpy as np
@@ -62,6 +63,7 @@ __all__ = [
     "describe_max_power",
     "summary_cells",
     "margin_text",
+    "citation",
     "field_text",
     "mv_m_text",
     "night_contribution",
@@ -641,6 +643,17 @@ def mv_m_text(dbu: float) -> str:
         return f"< {10 ** (SHOWN_FIELD_MIN_DBU / 20) / 1e3:.4f}"
     return np.format_float_positional(10 ** (dbu / 20) / 1e3, precision=4, unique=False,
                                       fractional=False, trim="-")
+
+
+def citation(source: str) -> tuple[str, bool]:
+    """A source as printed on the sheet: the paragraph without the "(read)" and "(from
+    memory…)" markers, and whether every part of it was read in the published text."""
+    verified = "from memory" not in source
+    text = re.sub(r"\s*\((?:read|from memory[^)]*)\)", "", source)
+    text = re.sub(r"\s*\(([^()]*?),\s*from memory[^)]*\)", r"; \1", text)
+    text = re.sub(r"^(?:co-channel|first adjacent|second adjacent|third adjacent)"
+                  r"(?: \(9 kHz\))?(?: \d+ dB)?: ", "", text)
+    return text.strip(), verified
 
 
 def describe_max_power(period: str, mp: dict | None) -> str:

@@ -31,6 +31,7 @@ from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
 from mwreach.coverage.interference import (
+    citation,
     describe_max_power,
     field_text,
     margin_text,
@@ -505,8 +506,10 @@ class NightEditor(_Editor):
                 v = plan.protection.ratios.get((period, c))
                 self.ratios.setItem(r, c, QTableWidgetItem("" if v is None else f"{v[0]:g}"))
         self.sources.setText("\n".join(
-            f"{row['period']} offset {row['offset_channels']}: {row['source']}"
-            for row in plan.protection.rows() if row["ratio_db"] is not None))
+            f"{row['period']} offset {row['offset_channels']}: {citation(row['source'])[0]}"
+            + ("" if citation(row["source"])[1] else " †")
+            for row in plan.protection.rows() if row["ratio_db"] is not None)
+            + "\n† not yet checked against the published text (docs/methods.md lists them)")
         self._loading = False
 
     def _night(self, *_):

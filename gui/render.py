@@ -171,6 +171,38 @@ def fit_view(result, rect: QRectF, level_index: int | None = None, margin: float
     return View((x0 + x1) / 2, (y0 + y1) / 2, kpu, QRectF(rect))
 
 
+#: Share of the framed height added below on overview and night maps for the scale bar.
+SCALE_BAR_BAND = 0.15
+
+
+def night_view(result, rect: QRectF, margin: float = 1.25) -> View:
+    """A view framed on the night service contour and the failed checks within 3 times its
+    reach (the near field that an overview at neighbour scale shrinks to a dot)."""
+    inter = getattr(result, "interference", None)
+    xs, ys = [0.0], [0.0]
+    if inter is not None and inter.night is not None and not inter.night.polygon_xy.is_empty:
+        x0, y0, x1, y1 = inter.night.polygon_xy.bounds
+        xs += [x0, x1]
+        ys += [y0, y1]
+    reach = max(max(abs(v) for v in xs + ys), 5.0)
+    if inter is not None:
+        st = result.spec.station
+        proj = local_projection(st.lat, st.lon)
+        bad = [(r.lat, r.lon) for r in inter.rows if not r.passed]
+        bad += [pt for ov in getattr(inter, "overlaps", ()) if not ov.passed for pt in ov.points]
+        for lat, lon in bad:
+            x, y = proj.to_xy(lon, lat)
+            if math.hypot(float(x), float(y)) <= 3 * reach:
+                xs.append(float(x))
+                ys.append(float(y))
+    x0, x1, y0, y1 = min(xs), max(xs), min(ys), max(ys)
+    y0 -= SCALE_BAR_BAND * max(y1 - y0, 2.0)
+    w = max(x1 - x0, 2.0) * margin
+    h = max(y1 - y0, 2.0) * margin
+    kpu = max(w / max(rect.width(), 1.0), h / max(rect.height(), 1.0))
+    return View((x0 + x1) / 2, (y0 + y1) / 2, kpu, QRectF(rect))
+
+
 #: Neighbours farther than this from the site are not framed on an overview map (a distant
 #: clear-channel station would shrink everything else to a dot); sheets list them in words.
 OVERVIEW_NEIGHBOUR_KM = 1200.0
@@ -207,6 +239,7 @@ def overview_view(result, rect: QRectF, margin: float = 1.12):
                     xs.append(float(x))
                     ys.append(float(y))
     x0, x1, y0, y1 = min(xs), max(xs), min(ys), max(ys)
+    y0 -= SCALE_BAR_BAND * max(y1 - y0, 1.0)  # a band below for the scale bar, clear of symbols
     w = max(x1 - x0, 1.0) * margin
     h = max(y1 - y0, 1.0) * margin
     kpu = max(w / max(rect.width(), 1.0), h / max(rect.height(), 1.0))

@@ -7,7 +7,10 @@ settings): night limit and interference. All numbers come from the StudyResult.
 
 from __future__ import annotations
 
+import dataclasses
+
 import pathlib
+import re
 
 import numpy as np
 from PySide6.QtCore import QMarginsF, QPointF, QRectF, Qt
@@ -16,9 +19,9 @@ from PySide6.QtGui import QColor, QFont, QPageLayout, QPageSize, QPainter, QPdfW
 from mwreach.coverage import version
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.geodesy import dms, inverse
-from mwreach.coverage.interference import describe_max_power, summary_cells
+from mwreach.coverage.interference import citation, describe_max_power, summary_cells
 
-from .render import MapOptions, draw_legend, draw_map, fit_view, overview_view
+from .render import MapOptions, draw_legend, draw_map, fit_view, night_view, overview_view
 
 __all__ = ["write_sheet", "table_bearings", "sheet_rows", "CAUTIONS", "methods_lines"]
 
@@ -302,8 +305,13 @@ def _page_map(doc: _Doc, result):
         _boxed(doc, QRectF(x, side_rect.top() + h + 4 * PT, half, 400 * PT), "Cautions", CAUTIONS)
 
 
+#: Point size of the ground sections under each bearing of the radial table (readable when
+#: printed; the table takes more pages rather than a smaller type).
+SECTION_PT = 7.2
+
+
 def _section_height(doc: _Doc, text: str, width: float) -> float:
-    doc.font(6.2)
+    doc.font(SECTION_PT)
     fm = doc.painter.fontMetrics()
     r = fm.boundingRect(QRectF(0, 0, width, 1e6).toRect(), int(Qt.AlignLeft | Qt.TextWordWrap),
                         text)
@@ -378,8 +386,8 @@ def _page_table(doc: _Doc, result, rows, k: int, nk: int):
             a, b = (mi, km) if miles else (km, mi)
             p.drawText(QRectF(page.left() + bw + i * cw, y, cw, line_h), Qt.AlignCenter,
                        f"{a} | {b}")
-        doc.font(6.2)
-        p.setPen(QColor(70, 70, 70))
+        doc.font(SECTION_PT)
+        p.setPen(QColor(50, 50, 50))
         p.drawText(QRectF(page.left() + bw, y + line_h, page.width() - bw, row_h - line_h),
                    Qt.AlignLeft | Qt.AlignTop | Qt.TextWordWrap, r["sections"])
         y += row_h
@@ -411,16 +419,30 @@ def _page_night_more(doc: _Doc, result):
     _boxed(doc, QRectF(page.left(), y, page.width(), 300 * PT), "Cautions", CAUTIONS)
 
 
+OFFSET_NAMES = {0: "co-channel", 1: "first adjacent", 2: "second adjacent", 3: "third adjacent"}
+
+
 def _ratios_and_notes(doc: _Doc, result, y: float) -> float:
     page = doc.page
     inter = result.interference
     y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Protection ratios used", 9.5,
                   bold=True) + 2 * PT
-    prot = "\n".join(
-        f"{r['period']}, offset {r['offset_channels']} channel(s): "
-        + ("no ratio" if r["ratio_db"] is None else f"{r['ratio_db']:g} dB")
-        + f" — {r['source']}"
-        for r in inter.protection.rows())
+    lines, unread = [], []
+    for r in inter.protection.rows():
+        source, verified = citation(r["source"])
+        if not verified:
+            unread.append(f"{r['period']} {OFFSET_NAMES.get(r['offset_channels'], '')}")
+        head = f"{r['period'].capitalize()}, {OFFSET_NAMES.get(r['offset_channels'], '')}: "
+        if r["ratio_db"] is None:  # the source says what stands instead of a ratio
+            source = re.sub(r"^(?:no ratio: )?(.*?) — (?:second|third) adjacent: ", r"\1 — ",
+                            source)
+            lines.append(head + source[0].lower() + source[1:] + ("" if verified else " †"))
+        else:
+            lines.append(head + f"{r['ratio_db']:g} dB — {source}" + ("" if verified else " †"))
+    prot = "\n".join(lines)
+    if unread:
+        prot += ("\n† Not yet checked against the published text (recalled values; listed "
+                 "once here): " + ", ".join(unread) + ".")
     y += doc.text(QRectF(page.left(), y, page.width(), 400 * PT),
                   f"Channel raster {inter.protection.raster_khz:g} kHz.\n" + prot, 7.5) + 8 * PT
     if inter.notes:
@@ -464,12 +486,22 @@ def _page_night(doc: _Doc, result, with_ratios: bool = True):
         map_rect = QRectF(page.left(), y, page.width(), page.height() * 0.30)
     opts = MapOptions(font_pt=6.5, line_scale=PT, contours=False, legend=False,
                       distance_units=result.spec.output.get("distance_units", "km"))
-    view, _outside = overview_view(result, map_rect)
+    # two frames: the neighbours at their own scale, and the night service contour with the
+    # failed checks near it (at neighbour scale a 10 km contour is a dot)
+    gap = 6 * PT
+    half = (map_rect.width() - gap) / 2
+    wide = QRectF(map_rect.left(), map_rect.top(), half, map_rect.height())
+    near = QRectF(map_rect.left() + half + gap, map_rect.top(), half, map_rect.height())
+    view, _outside = overview_view(result, wide)
     doc.map_labels = getattr(doc, "map_labels", []) + [draw_map(p, view, result, opts)]
-    doc.text(QRectF(map_rect.left(), map_rect.bottom() + 1 * PT, map_rect.width(), 12 * PT),
-             "Night service contour (dash-dot), neighbours' protected contours (day solid, "
-             "night dashed), failed checks (red ×)", 6.5)
-    y = max(y, map_rect.bottom() + 14 * PT) if not landscape else max(y, map_rect.bottom() + 14 * PT)
+    near_opts = dataclasses.replace(opts, graticule=False)
+    doc.map_labels.append(draw_map(p, night_view(result, near), result, near_opts))
+    caption_h = doc.text(
+        QRectF(map_rect.left(), map_rect.bottom() + 1 * PT, map_rect.width(), 24 * PT),
+        "Left: the neighbours with their protected contours (day solid, night dashed). Right: "
+        "the night service contour (dash-dot) and the failed checks (red ×) near it"
+        + key_text(doc.map_labels[-2]) + key_text(doc.map_labels[-1]) + ".", 6.5)
+    y = max(y, map_rect.bottom() + caption_h + 4 * PT)
 
     y += doc.text(QRectF(page.left(), y, page.width(), 14 * PT), "Worst D/U margin per neighbour",
                   9.5, bold=True) + 2 * PT
