@@ -205,6 +205,9 @@ def _kml_description(p: dict) -> str:
     if p.get("kind") == "site":
         lines.append(f"transmitter site; {p['power_day_kw']:g} kW day, "
                      f"{p['power_night_kw']:g} kW night")
+    elif p.get("area_km2") is None:  # neighbours' contours and check points
+        lines = [f"{p['station']}, {p['freq_khz']:g} kHz" if p.get("freq_khz") else p["station"],
+                 f"{p['kind']}: {p['label']}"]
     else:
         lines.append(f"{p['kind']}: {p['label']}")
         lines.append(f"area {p['area_km2']:,.1f} km²")
@@ -222,6 +225,11 @@ def contours_kml(geojson: dict, name: str) -> str:
         kind = p.get("kind")
         if kind == "site":
             style = "<IconStyle><scale>1.1</scale></IconStyle>"
+        elif f["geometry"]["type"] == "Point":  # check points: red
+            style = "<IconStyle><color>ff1c19d7</color><scale>0.8</scale></IconStyle>"
+        elif kind == "neighbour protected contour":
+            style = ("<LineStyle><color>ff606060</color><width>1</width></LineStyle>"
+                     "<PolyStyle><fill>0</fill></PolyStyle>")
         else:
             colour = ("ff202020" if kind == "night service"
                       else kml_colour(p.get("level_mv_m")))
@@ -363,6 +371,51 @@ def night_feature(result: StudyResult) -> dict | None:
                      "night_limit_max_mv_m": round(float(n.limit_mv_m.max()), 4)})
 
 
+def _point(lat: float, lon: float, props: dict) -> dict:
+    lon = ((lon + 180.0) % 360.0) - 180.0
+    return {"type": "Feature", "properties": props,
+            "geometry": {"type": "Point", "coordinates": [round(lon, 6), round(lat, 6)]}}
+
+
+def interference_features(result: StudyResult) -> list[dict]:
+    """The neighbours' protected contours the checks used, a point in each failing contour
+    overlap and every failed D/U check point, each saying what it is."""
+    inter = result.interference
+    if inter is None:
+        return []
+    spec = result.spec
+    freqs = {n.name: n.freq_khz for n in spec.interference.neighbours}
+    feats = []
+    for (name, period), geom in inter.protected_contours.items():
+        if geom.is_empty:
+            continue
+        feats.append({"type": "Feature",
+                      "properties": {"kind": "neighbour protected contour",
+                                     "label": f"{name}: protected {period} contour",
+                                     "station": name, "freq_khz": freqs.get(name),
+                                     "period": period},
+                      "geometry": geojson_geometry(geom)})
+    for ov in inter.overlaps:
+        if ov.passed:
+            continue
+        for lat, lon in ov.points:
+            feats.append(_point(lat, lon, {
+                "kind": "contour overlap", "station": ov.neighbour,
+                "freq_khz": freqs.get(ov.neighbour),
+                "label": f"{ov.neighbour}: {ov.own_mv_m:g} and {ov.other_mv_m:g} mV/m contours "
+                         f"overlap ({ov.area_km2:.1f} km²)",
+                "overlap_km2": round(ov.area_km2, 3), "offset_channels": ov.offset_channels}))
+    for r in inter.rows:
+        if r.passed:
+            continue
+        feats.append(_point(r.lat, r.lon, {
+            "kind": "failed check", "station": r.neighbour, "freq_khz": freqs.get(r.neighbour),
+            "label": f"{r.neighbour}: {r.kind}, margin {r.margin_db:.2f} dB",
+            "check": r.kind, "margin_db": round(r.margin_db, 3), "ratio_db": r.ratio_db,
+            "mechanism": f"{r.mechanism} wave"}))
+    return feats
+
+
 def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_features=(),
                   extra_files=None) -> list[pathlib.Path]:
     """Write summary.json, radials.csv, contours.geojson and contours.kml into ``out_dir``,
@@ -375,6 +428,7 @@ def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_featur
         nf = night_feature(result)
         if nf is not None:
             extra_features.append(nf)
+        extra_features.extend(interference_features(result))
         extra_files["night.json"] = json_text(night_json(result), indent=1)
         extra_files["interference.csv"] = interference_csv(result)
     gj = contours_geojson(result, extra_features)

@@ -314,16 +314,39 @@ def evaluate_chunk(spec, settings: SearchSettings, token: str, items) -> list[Ca
 
 # --- the driver ------------------------------------------------------------------------------
 
-def _rank(cands: list[Candidate]) -> list[Candidate]:
-    """Best first: by score, then (ties) the share at the study's power, the maximum day
-    power, and the candidate's place in the grid."""
+#: Decimals of each score as written in candidates.csv; ranking compares scores rounded to
+#: them, so that float noise (0.9999999999999999 against 1.0) never decides an order the user
+#: cannot see. Shares to 1e-4, areas to 0.1 km², powers to 1e-4 kW.
+SCORE_DIGITS = {"community_share": 4, "area": 1, "max_power": 4}
+
+
+def _rank(cands: list[Candidate], score_name: str = "community_share") -> list[Candidate]:
+    """Best first: by score as written (rounded, :data:`SCORE_DIGITS`), then (ties) the share
+    at the study's power, the maximum day power, the maximum night power, and the candidate's
+    place in the grid. candidates.csv shows these figures beside the score
+    (:func:`tie_break_text`)."""
+    digits = SCORE_DIGITS.get(score_name, 6)
+
     def key(c):
-        score = c.score if np.isfinite(c.score) else 1e300
-        share = c.share_at_study_power if c.share_at_study_power is not None else -1.0
+        score = round(c.score, digits) if np.isfinite(c.score) else 1e300
+        share = (round(c.share_at_study_power, 4) if c.share_at_study_power is not None
+                 else -1.0)
         day = c.max_day_kw if c.max_day_kw is not None else 1e300
-        return (-score, -share, -day, c.index)
+        night = c.max_night_kw if c.max_night_kw is not None else 1e300
+        return (-score, -share, -day, -night, c.index)
 
     return sorted(cands, key=key)
+
+
+def tie_break_text(c: Candidate) -> str:
+    """The figures that order candidates of equal score, in the order they count."""
+    parts = []
+    if c.share_at_study_power is not None:
+        parts.append(f"share at study power {c.share_at_study_power:.4f}")
+    parts.append("max day " + ("unlimited" if c.max_day_kw is None else f"{c.max_day_kw:.4f} kW"))
+    parts.append("max night " + ("unlimited" if c.max_night_kw is None
+                                 else f"{c.max_night_kw:.5f} kW"))
+    return "; ".join(parts)
 
 
 def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
@@ -384,14 +407,15 @@ def run_search(spec, settings: SearchSettings, executor: Executor | None = None,
     except KeyboardInterrupt:
         result.stopped_early = True
         result.stop_reason = result.stop_reason or "interrupted"
-    result.candidates = _rank(out)
+    result.candidates = _rank(out, settings.score)
     result.elapsed_s = time.perf_counter() - t0
     return result
 
 
 # --- outputs ----------------------------------------------------------------------------------
 
-CSV_COLUMNS = ("rank", "lat", "lon", "score", "max_day_kw", "day_limited_by", "max_night_kw",
+CSV_COLUMNS = ("rank", "lat", "lon", "score", "ties_broken_by", "max_day_kw", "day_limited_by",
+               "max_night_kw",
                "night_limited_by", "share_at_study_power", "share_at_max_power",
                "protected_area_km2", "community_km")
 
@@ -414,7 +438,8 @@ def candidates_csv(search: SearchResult) -> str:
     w = csv_writer(buf)
     w.writerow(CSV_COLUMNS)
     for rank, c in enumerate(search.candidates, 1):
-        w.writerow([rank, f"{c.lat:.6f}", f"{c.lon:.6f}", _fmt(c.score, 6),
+        w.writerow([rank, f"{c.lat:.6f}", f"{c.lon:.6f}",
+                    _fmt(c.score, SCORE_DIGITS.get(search.settings.score, 6)), tie_break_text(c),
                     _fmt(c.max_day_kw, 4), c.day_limited_by, _fmt(c.max_night_kw, 5),
                     c.night_limited_by, _fmt(c.share_at_study_power, 4),
                     _fmt(c.share_at_max_power, 4), _fmt(c.protected_area_km2, 1),

@@ -48,7 +48,8 @@ def test_demo_geojson_polygons_valid_and_ccw(demo_run):
     out, _ = demo_run
     gj = json.loads((out / "contours.geojson").read_text())
     polys = [f for f in gj["features"] if f["geometry"]["type"] != "Point"]
-    assert len(polys) == 5  # four day levels and the night service contour
+    # four day levels, the night service contour and five neighbours' protected contours
+    assert len(polys) == 10
     for f in polys:
         assert shape(f["geometry"]).is_valid
         _rings_ccw(f["geometry"])

@@ -214,7 +214,7 @@ def test_demo_night_outputs(demo_run):
     assert summary["max_power"]["night"]["limiting_neighbour"]
     assert any(p["ratio_db"] is None for p in summary["protection_ratios"])
     gj = json.loads((tmp_path / "contours.geojson").read_text())
-    assert gj["features"][-1]["properties"]["kind"] == "night service"
+    assert [f["properties"]["kind"] for f in gj["features"]].count("night service") == 1
     # where one interferer alone sets the night limit, the limit is its 10 % sky wave
     # (47 CFR 73.190 Formula 2) at the night contour plus its protection ratio (26 dB co-channel,
     # 6 dB first adjacent); the contour moves < 0.1 km in the last iteration: 0.02 dB

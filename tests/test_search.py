@@ -300,3 +300,32 @@ def test_search_powers_stay_in_the_class_range(spec, local_search):
             assert min(lo, p_141) * (1 - 1e-9) <= got <= hi, (period, got)
             if got == hi:
                 assert "class range" in by
+
+
+def test_ranking_reads_as_written_and_ties_break_by_the_shown_figures(spec, local_search, tmp_path):
+    # the order must follow what candidates.csv shows: the score as written (4 decimals for
+    # shares), then the share at the study power, the maximum day power and the maximum night
+    # power, all of them in descending order
+    from mwreach.coverage.search import candidates_csv
+
+    rows = list(__import__("csv").DictReader(candidates_csv(local_search).splitlines()))
+    assert [int(r["rank"]) for r in rows] == list(range(1, len(rows) + 1))
+
+    def key(r):
+        c = local_search.candidates[int(r["rank"]) - 1]
+        return (float(r["score"]), round(c.share_at_study_power, 4),
+                c.max_day_kw if c.max_day_kw is not None else float("inf"),
+                c.max_night_kw if c.max_night_kw is not None else float("inf"))
+
+    keys = [key(r) for r in rows]
+    assert keys == sorted(keys, reverse=True)
+    assert any(keys[i][0] == keys[i + 1][0] for i in range(len(keys) - 1))  # ties do occur
+    for r in rows[:5]:
+        assert "share at study power" in r["ties_broken_by"] and "max day" in r["ties_broken_by"]
+
+
+def test_the_study_site_is_one_of_the_candidates(spec):
+    # the grid is anchored on the study site, so the site as filed is always assessed
+    lat, lon = candidate_sites(spec, SearchSettings(step_km=3.0, radius_km=30.0))
+    st = spec.station
+    assert np.min(np.hypot(lat - st.lat, lon - st.lon)) < 1e-9  # deg
