@@ -308,7 +308,10 @@ def _cmd_sky(args) -> int:
         print(json.dumps(out, indent=1))
         return 0
     name = _method_name(args.method)
-    print(f"Sky wave ({name}), {args.freq_khz:g} kHz, {e:g} mV/m at 1 km toward the receiver")
+    given = ("given" if args.e1km_mv_m is not None
+             else "the method's reference; --e1km-mv-m sets another")
+    print(f"Sky wave ({name}), {args.freq_khz:g} kHz, {e:g} mV/m at 1 km toward the receiver "
+          f"({given})")
     print(f"  distance {out['distance_km']:.1f} km, slant {out['slant_km']:.1f} km, "
           f"azimuth {out['azimuth_deg']:.1f}°, {out['hops']} hop(s), departure "
           f"{out['departure_deg']:.1f}°")

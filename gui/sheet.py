@@ -180,6 +180,18 @@ def _antenna_text(station) -> str:
     return f"directional array of {len(els)} towers, rotation {station.antenna.rotation_deg:g}°"
 
 
+def _saved(path) -> str:
+    """When the study file was last saved (UTC), for the title block: the study's date, not
+    the moment the sheet was printed."""
+    import datetime
+
+    try:
+        t = pathlib.Path(path).stat().st_mtime
+    except (OSError, TypeError):
+        return "unknown"
+    return datetime.datetime.fromtimestamp(t, datetime.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+
+
 def _title_block(doc: _Doc, rect: QRectF, result) -> None:
     p = doc.painter
     spec = result.spec
@@ -201,7 +213,7 @@ def _title_block(doc: _Doc, rect: QRectF, result) -> None:
     right = [
         f"Site (WGS84): {st.lat:.5f}, {st.lon:.5f}",
         f"{dms(st.lat, 'N', 'S')}, {dms(st.lon, 'E', 'W')}",
-        f"Study date: {result.created}",
+        f"Computed: {result.created}; study file saved {_saved(spec.path)}",
         f"mwreach {version()}; file {pathlib.Path(spec.path).name}",
     ]
     col = inner.adjusted(0, h + 2 * PT, 0, 0)

@@ -803,3 +803,20 @@ def test_each_class_is_protected_by_day_at_its_own_level(klass, level_mv_m):
     own = point_ground_dbu(1390.0, spec.ground, n.lat, n.lon, n.antenna, 5.0,
                            np.array([r.lat for r in caused]), np.array([r.lon for r in caused]))
     np.testing.assert_allclose(own, float(mv_m_to_dbu(level_mv_m)), atol=0.05)  # dB, 0.5 km grid
+
+
+def test_the_demo_passes_its_overlap_check_below_its_maximum_day_power():
+    # the README's walkthrough: the demo fails the third-adjacent overlap with Kestrel Point
+    # Radio at 1 kW by day; just below the reported maximum day power the contours no longer
+    # overlap, and just above they do
+    spec = load_study(DEMO)
+    res = run_interference(spec, spec.interference)
+    ov = next(o for o in res.overlaps if o.neighbour == "Kestrel Point Radio")
+    assert not ov.passed and 5.0 < ov.area_km2 < 20.0  # km², "about 10 km²"
+    mp = res.max_power["day"]
+    assert mp["limiting_neighbour"] == "Kestrel Point Radio" and 0.5 < mp["max_power_kw"] < 0.6
+    for factor, passes in ((0.97, True), (1.03, False)):
+        at = _at_power(spec, "day", mp["max_power_kw"] * factor)
+        ov = next(o for o in run_interference(at, at.interference).overlaps
+                  if o.neighbour == "Kestrel Point Radio")
+        assert ov.passed is passes, factor
