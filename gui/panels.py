@@ -72,8 +72,13 @@ class _Editor(QWidget):
             return True
         err = self.document.try_update(mutate)
         self.message.setText("" if err is None else f"Not applied: {err}")
-        if field_widget is not None:
-            field_widget.setStyleSheet("" if err is None else "border: 1px solid #b00020;")
+        if err is None:
+            # the whole study now validates: no field of this editor stays marked refused
+            for w in self.findChildren(QLineEdit):
+                if w.styleSheet():
+                    w.setStyleSheet("")
+        elif field_widget is not None:
+            field_widget.setStyleSheet("border: 1px solid #b00020;")
         return err is None
 
 
@@ -129,11 +134,19 @@ class StationEditor(_Editor):
             if not e.hasFocus() and e.styleSheet() == "":
                 e.setText(self._shown_value(key))
         self.title.setText(str(self.document.doc.get("study", {}).get("title", "")))
+        self.title.setCursorPosition(0)  # show the title from its start
         self._loading = False
 
 
 def _cell_text(v) -> str:
     return "" if v is None else f"{v:g}" if isinstance(v, float) else str(v)
+
+
+def _two_lines(label: str) -> str:
+    """"Top loading [deg]" → "Top loading\n[deg]"; "Field ratio" → "Field\nratio"."""
+    if " [" in label:
+        return label.replace(" [", "\n[", 1)
+    return label.replace(" ", "\n", 1)
 
 
 class _TableEditor(_Editor):
@@ -154,7 +167,8 @@ class _TableEditor(_Editor):
         super().__init__(document, parent)
         lay = QVBoxLayout(self)
         self.table = QTableWidget(0, len(self.COLUMNS))
-        self.table.setHorizontalHeaderLabels([c[1] for c in self.COLUMNS])
+        # headers on two lines (name, then unit), so that more columns fit the dock's width
+        self.table.setHorizontalHeaderLabels([_two_lines(c[1]) for c in self.COLUMNS])
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeToContents)  # whole header texts; the
         header.setStretchLastSection(False)  # table scrolls sideways when they need more room
@@ -480,7 +494,10 @@ class NightEditor(_Editor):
         self.ratios.setVerticalHeaderLabels(["day D/U [dB]", "night D/U [dB]"])
         self.ratios.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
         self.ratios.cellChanged.connect(self._ratios)
-        form.addRow(QLabel("Protection ratios (empty: none — that offset contributes nothing)"))
+        ratios_label = QLabel("Protection ratios (empty: none — that offset contributes "
+                              "nothing)")
+        ratios_label.setWordWrap(True)  # never wider than the dock
+        form.addRow(ratios_label)
         form.addRow(self.ratios)
         self.sources = QLabel()
         self.sources.setWordWrap(True)
@@ -790,8 +807,12 @@ class InterferenceTable(_RowsView):
     @property
     def HEAD(self):
         unit = "mV/m" if self.field_units == "mV/m" else "dBµV/m"
-        return ["Check", "Neighbour", "Offset", "Bearing°", "Lat", "Lon", f"Wanted {unit}",
-                f"Unwanted {unit}", "Ratio dB", "Margin dB", "Result", "By"]
+        return ["Check", "Neighbour", "Offset", "Margin dB", "Result", "By", f"Wanted {unit}",
+                f"Unwanted {unit}", "Ratio dB", "Bearing°", "Lat", "Lon"]
+
+    #: from the order rows are built in (check, neighbour, offset, bearing, lat, lon, wanted,
+    #: unwanted, ratio, margin, result, by) to the order shown (:attr:`HEAD`)
+    COLUMN_ORDER = (0, 1, 2, 9, 10, 11, 6, 7, 8, 3, 4, 5)
 
     def _field(self, dbu: float) -> str:
         return mv_m_text(dbu) if self.field_units == "mV/m" else field_text(dbu)
@@ -830,9 +851,14 @@ class InterferenceTable(_RowsView):
         order = (sorted(range(n_du, len(rows)), key=lambda i: (not bad[i], keys[i][9]))
                  + sorted(range(n_du), key=lambda i: keys[i][9]))
         self.proxy.sort(-1)  # no re-sort by the proxy on reset: rows arrive sorted
-        self.model_.set_rows(self.HEAD, [rows[i] for i in order],
-                             sort_keys=[keys[i] for i in order], bad=[bad[i] for i in order])
-        self.horizontalHeader().setSortIndicator(9, Qt.AscendingOrder)
+
+        def shown(t):  # the deciding columns first, so they stay in view on a narrow window
+            return tuple(t[j] for j in self.COLUMN_ORDER)
+
+        self.model_.set_rows(self.HEAD, [shown(rows[i]) for i in order],
+                             sort_keys=[shown(keys[i]) for i in order],
+                             bad=[bad[i] for i in order])
+        self.horizontalHeader().setSortIndicator(3, Qt.AscendingOrder)
         self.fit_columns()
 
 

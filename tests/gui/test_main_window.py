@@ -62,8 +62,9 @@ def test_radial_table_matches_study(qtbot, window):
     model = window.interference_table.model()
     # the overlap and night-limit checks come first, failures on top (the demo's third-adjacent
     # overlap fails), then the D/U rows with the worst margin first
-    assert model.index(0, 0).data() == "day overlap" and model.index(0, 10).data() == "FAILS"
-    first = model.index(extra, 9).data()
+    # the deciding columns first: check, neighbour, offset, margin, result, by
+    assert model.index(0, 0).data() == "day overlap" and model.index(0, 4).data() == "FAILS"
+    first = model.index(extra, 3).data()
     assert float(first) == pytest.approx(min(r.margin_db for r in inter.rows), abs=0.01)
     # above the table: the maximum day and night power with what limits each, as on the sheet
     from mwreach.coverage.interference import describe_max_power
@@ -455,7 +456,8 @@ def test_every_input_control_reachable_and_headers_whole_at_1280x720(qtbot, wind
             fm = head.fontMetrics()
             for c in range(table.columnCount()):
                 text = table.horizontalHeaderItem(c).text()
-                assert head.sectionSize(c) >= fm.horizontalAdvance(text), (tabs.tabText(k), text)
+                widest = max(fm.horizontalAdvance(line) for line in text.split("\n"))
+                assert head.sectionSize(c) >= widest, (tabs.tabText(k), text)
 
 
 def test_drag_preview_keeps_up_with_a_fast_mouse(qtbot, window):
