@@ -251,14 +251,14 @@ def _print_interference(result) -> None:
     if summary:
         print(f"  {'neighbour':<{width}} {'check':<18} {'offset':>6} {'D/U dB':>7} "
               f"{'worst margin':>16}  by")
-    from .interference import summary_cells
+    from .report import summary_cells
 
     for row in summary:
         c = summary_cells(row)
         flag = "" if row["passed"] else "  FAILS"
         print(f"  {row['neighbour']:<{width}} {row['kind']:<18} {c['offset']:>6} {c['ratio']:>7} "
               f"{c['value']:>16}  {c['by']}{flag}")
-    from .interference import describe_max_power
+    from .report import describe_max_power
 
     for period, mp in inter.max_power.items():
         print("  " + describe_max_power(period, mp))

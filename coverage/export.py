@@ -11,7 +11,7 @@ from xml.sax.saxutils import escape
 import numpy as np
 
 from .groundwave import mv_m_to_dbu
-from .interference import field_text, margin_text, mv_m_text
+from .report import field_text, margin_text, mv_m_text
 from .inputs import spec_to_doc
 from . import version
 from .safefiles import atomic_write, csv_writer, json_text, write_set

@@ -667,7 +667,7 @@ INTERFERENCE_KEYS = ("protected_day_mv_m", "contour_step_deg", "neighbours")
 
 
 def parse_study(doc: dict, path="<study>"):
-    """Validate a parsed TOML study and build a :class:`~.study.StudySpec`.
+    """Validate a parsed TOML study and build a :class:`~.spec.StudySpec`.
 
     Relative file names are resolved against the study file's folder. Every error names the
     key, the section and the file.
@@ -678,7 +678,7 @@ def parse_study(doc: dict, path="<study>"):
     from .groundwave import EARTH_K_RANGE, FREQ_RANGE_KHZ
     from .mixedpath import METHODS
     from .station import Station
-    from .study import Community, Level, StudySpec
+    from .spec import Community, Level, StudySpec
 
     path = pathlib.Path(path)
     fname = str(path)

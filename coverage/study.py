@@ -1,4 +1,4 @@
-"""The validated study (:class:`StudySpec`) and the :class:`Study` that runs a whole job.
+"""The :class:`Study` that runs a whole job from a validated :class:`~.spec.StudySpec`.
 
 The CLI, the desktop application and the PDF sheet all read studies with
 :func:`mwreach.coverage.inputs.load_study` and run them with :meth:`Study.run`; nothing else
@@ -7,10 +7,9 @@ computes coverage.
 
 from __future__ import annotations
 
-import dataclasses
 import datetime as _dt
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -22,77 +21,12 @@ from .contours import (
     radial_fields,
     radial_length_km,
 )
-from .geodesy import check_site, local_projection
-from .ground import GroundMap
-from .interference import InterferencePlan, InterferenceResult, run_interference
-from .station import Station
+from .geodesy import local_projection
+from .interference import InterferenceResult, run_interference
+from .spec import StudySpec
 
-__all__ = [
-    "Level",
-    "Station",
-    "Community",
-    "StudySpec",
-    "StudyResult",
-    "Study",
-]
+__all__ = ["StudyResult", "Study"]
 
-
-
-@dataclass(frozen=True)
-class Level:
-    """A contour level [mV/m] and its label."""
-
-    field_mv_m: float
-    label: str = ""
-
-    @property
-    def text(self) -> str:
-        return self.label or f"{self.field_mv_m:g} mV/m"
-
-
-@dataclass(frozen=True)
-class Community:
-    """A community boundary (shapely geometry in lon/lat) with its name and file."""
-
-    name: str
-    geometry: object
-    path: str = ""
-
-
-@dataclass(frozen=True)
-class StudySpec:
-    """A validated study: everything a run needs, nothing computed."""
-
-    title: str
-    station: Station
-    ground: GroundMap
-    levels: tuple[Level, ...]
-    mixed_path: str = "millington"
-    earth_k: float = 4.0 / 3.0
-    bearing_step_deg: float = 1.0
-    extra_bearings: tuple[float, ...] = ()
-    max_km: float = 0.0  # 0: automatic
-    step_km: float = 0.25
-    community: Community | None = None
-    output: dict = field(default_factory=dict)
-    path: str = ""  # study file, for messages and relative paths
-    zones_path: str = ""  # as written in the file (relative to it)
-    ground_class: str = ""  # default ground class name, if given by name
-    interference: InterferencePlan | None = None
-    neighbour_tables: tuple = ()  # [[neighbour]] tables as written, for saving
-    input_notes: tuple[str, ...] = ()  # repairs made while reading (self-intersections …)
-    input_files: tuple[str, ...] = ()  # every file the study reads (resolved paths)
-
-    @property
-    def bearings(self) -> np.ndarray:
-        """Regular bearings [deg true] plus the extra ones, sorted and unique."""
-        regular = np.arange(0.0, 360.0 - 1e-9, self.bearing_step_deg)
-        return np.unique(np.round(np.concatenate([regular, self.extra_bearings]), 6) % 360.0)
-
-    def with_site(self, lat: float, lon: float) -> StudySpec:
-        """The same study with the transmitter moved."""
-        lat, lon = check_site(lat, lon)
-        return dataclasses.replace(self, station=dataclasses.replace(self.station, lat=lat, lon=lon))
 
 
 # --- running -------------------------------------------------------------------------------

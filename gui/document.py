@@ -11,7 +11,7 @@ from PySide6.QtCore import QObject, Signal
 from mwreach.coverage.inputs import (check_round_trip, dump_toml_keeping, load_study_doc,
                                      parse_study)
 from mwreach.coverage.safefiles import atomic_write
-from mwreach.coverage.study import StudySpec
+from mwreach.coverage.spec import StudySpec
 
 __all__ = ["StudyDocument", "DEMO_PATH"]
 

@@ -30,7 +30,7 @@ from mwreach.coverage.antenna import height_m, quarter_wave_m
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.ground import GROUND_CLASSES
 from mwreach.coverage.groundwave import mv_m_to_dbu
-from mwreach.coverage.interference import (
+from mwreach.coverage.report import (
     citation,
     describe_max_power,
     field_text,

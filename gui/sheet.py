@@ -19,7 +19,7 @@ from PySide6.QtGui import QColor, QFont, QPageLayout, QPageSize, QPainter, QPdfW
 from mwreach.coverage import version
 from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.geodesy import dms, inverse
-from mwreach.coverage.interference import citation, describe_max_power, summary_cells
+from mwreach.coverage.report import citation, describe_max_power, summary_cells
 
 from .render import MapOptions, draw_legend, draw_map, fit_view, night_view, overview_view
 
@@ -65,7 +65,7 @@ def methods_lines(result) -> list[str]:
 def key_figures(result) -> list[str]:
     """The figures a reader looks for first: areas, community share, maximum powers and the
     worst margin (no scientific notation)."""
-    from mwreach.coverage.interference import format_kw
+    from mwreach.coverage.report import format_kw
 
     out = []
     plan = result.spec.interference

@@ -14,7 +14,8 @@ from dataclasses import dataclass
 
 from PySide6.QtCore import QObject, QThread, Signal, Slot
 
-from mwreach.coverage.study import Study, StudySpec
+from mwreach.coverage.spec import StudySpec
+from mwreach.coverage.study import Study
 
 __all__ = ["Request", "Worker", "Computer", "SearchThread"]
 

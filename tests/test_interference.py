@@ -12,15 +12,15 @@ from mwreach.coverage.antenna import Array, Tower
 from mwreach.coverage.classes import STATION_CLASSES, StationClass
 from mwreach.coverage.ground import GroundMap, ground_class
 from mwreach.coverage.interference import (
+    channel_offset,
     InterferencePlan,
     Neighbour,
     NightSettings,
     ProtectionTable,
-    channel_offset,
-    describe_max_power,
     rss,
     run_interference,
 )
+from mwreach.coverage.report import describe_max_power
 from mwreach.coverage.groundwave import mv_m_to_dbu
 from mwreach.coverage.skywave import sky_field_dbu, sky_path
 from mwreach.coverage.inputs import load_study, read_neighbours_csv

@@ -67,7 +67,7 @@ def test_radial_table_matches_study(qtbot, window):
     first = model.index(extra, 3).data()
     assert float(first) == pytest.approx(min(r.margin_db for r in inter.rows), abs=0.01)
     # above the table: the maximum day and night power with what limits each, as on the sheet
-    from mwreach.coverage.interference import describe_max_power
+    from mwreach.coverage.report import describe_max_power
 
     header = window.interference_view.header.text()
     for period, mp in inter.max_power.items():
