@@ -563,9 +563,7 @@ def _cmd_fit(args) -> int:
     unknown = unknown_grounds(spec)
     default_eps = next(iter(unknown))[1]  # the ground key is (σ, εr)
     eps = check_finite("--eps-r", args.eps_r, 1.0, 100.0) if args.eps_r is not None else default_eps
-    tower_m = max(float(e.tower.height_deg) / 360.0 * 299_792.458 / spec.station.freq_khz
-                  for e in spec.station.antenna.elements)
-    near = near_field_km(spec.station.freq_khz, tower_m)
+    near = near_field_km(spec.station.freq_khz, spec.station.antenna)
     try:
         fits = fit_all(spec, groups, eps, near)
         combined = fit_combined(spec, groups, eps, near) if len(groups) > 1 else None

@@ -14,8 +14,9 @@ in log σ.
 Uncertainty: E0 enters linearly (in dB), so for every σ its best value is known in closed
 form; the misfit profile over σ then gives a 95 % interval for σ where it rises by less than
 F(0.95; 1, n − 2)·s² (s² the residual variance at the optimum), and for E0 the range of its
-best values over that interval together with its own standard error. Readings within
-max(3 λ, 10 × the tower height) are near field and left out; readings that a soft-L1 fit
+best values over that interval together with its own standard error. Readings nearer than
+one wavelength, 5 × the height of a single tower, or 10 × the spacing of an array's elements
+are near field and left out (47 CFR 73.186(a)(1), read); readings that a soft-L1 fit
 down-weights below one half are listed and left out of the interval. A radial is flagged as not
 constraining σ when its interval spans more than a decade or reaches the grid's edge, when it
 has fewer than four readings, or when its farthest reading lies at a numerical distance below 1
@@ -103,9 +104,16 @@ class Reading:
 NEAR_LAW_P = 1.0
 
 
-def near_field_km(freq_khz: float, tower_height_m: float) -> float:
-    """Distance inside which readings are near field: max(3 wavelengths, 10 × tower height)."""
-    return max(3 * C0 / (freq_khz * 1e3) / 1e3, 10 * tower_height_m / 1e3)
+def near_field_km(freq_khz: float, antenna) -> float:
+    """Distance [km] inside which readings are near field (47 CFR 73.186(a)(1), read):
+    measurements begin no nearer than one wavelength, nor than 5 × the vertical height of a
+    single tower, nor than 10 × the spacing between the elements of a directional array."""
+    lam_m = C0 / (freq_khz * 1e3)
+    if len(antenna.elements) == 1:
+        return max(lam_m, 5 * antenna.elements[0].tower.height_deg / 360.0 * lam_m) / 1e3
+    pos = np.asarray(antenna._positions)  # element positions [rad of phase]: east + j·north
+    spacing_m = float(np.max(np.abs(pos[:, None] - pos[None, :]))) / (2 * np.pi) * lam_m
+    return max(lam_m, 10 * spacing_m) / 1e3
 
 
 @dataclass

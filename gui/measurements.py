@@ -44,9 +44,7 @@ class FitThread(QThread):
             spec = self.spec
             groups = read_measurements(self.path, spec)
             eps = next(iter(unknown_grounds(spec)))[1]
-            tower_m = max(e.tower.height_deg / 360.0 * 299_792.458 / spec.station.freq_khz
-                          for e in spec.station.antenna.elements)
-            near = near_field_km(spec.station.freq_khz, tower_m)
+            near = near_field_km(spec.station.freq_khz, spec.station.antenna)
             fits = fit_all(spec, groups, eps, near)
             combined = fit_combined(spec, groups, eps, near) if len(groups) > 1 else None
             self.done.emit((fits, combined, eps))

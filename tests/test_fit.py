@@ -248,3 +248,67 @@ def test_fit_json_holds_no_nan_or_infinity(demo_copy, tmp_path):
     data = _strict_json(text)
     assert None in data["radials"][0]["e0_95_mv_m"]
     assert any("null" in n for n in data["notes"])
+
+
+def test_near_field_distance_follows_47_cfr_73_186():
+    # 47 CFR 73.186(a)(1) (read): measurements begin no nearer than one wavelength, or 5 × the
+    # vertical height of a single tower, or 10 × the spacing of a directional array's elements
+    from mwreach.coverage.antenna import Array, Element, Tower
+    from mwreach.coverage.fit import near_field_km
+
+    lam_km = 299_792.458 / 1000.0 / 1000.0  # 1000 kHz: 0.2998 km
+    assert near_field_km(1000.0, Array.single(Tower(30.0))) == pytest.approx(lam_km, rel=1e-9)
+    # a 90° tower: 5 × λ/4 = 1.25 λ
+    assert near_field_km(1000.0, Array.single(Tower(90.0))) == pytest.approx(1.25 * lam_km,
+                                                                           rel=1e-9)
+    # two towers 90° apart: 10 × λ/4 = 2.5 λ; three in a 120° dog-leg: the widest pair counts
+    two = Array((Element(Tower(90.0)), Element(Tower(90.0), 1.0, 90.0, 90.0, 0.0)))
+    assert near_field_km(1000.0, two) == pytest.approx(2.5 * lam_km, rel=1e-9)
+    three = Array((Element(Tower(90.0)), Element(Tower(90.0), 1.0, 90.0, 120.0, 0.0),
+                   Element(Tower(90.0), 1.0, 0.0, 120.0, 90.0)))
+    widest = np.hypot(120.0, 120.0) / 360.0  # in wavelengths, from the two outer towers
+    assert near_field_km(1000.0, three) == pytest.approx(10 * widest * lam_km, rel=1e-9)
+
+
+def test_interval_ends_sit_where_the_misfit_rises_by_the_95_percent_f_quantile():
+    # by hand, with the ground-wave model itself (not the fit's curve family): S(σ) is the sum
+    # of squared residuals with E0 at its best (the mean residual); the 95 % interval's ends are
+    # where S − S_min = F(0.95; 1, n − 2)·S_min/(n − 2) (scipy.stats). The ratio is 4.4 here
+    # against 6.3 for 97.5 %, so 0.15 tells them apart while allowing the family's
+    # interpolation (≈ 1e-3 dB in the residuals)
+    from scipy import optimize, stats
+
+    fam = curve_family(1000.0, 15.0)
+    d = np.geomspace(2.0, 80.0, 16)
+    y = float(gw.mv_m_to_dbu(300.0)) - 20 * np.log10(d) + gw.model(1000.0, Ground(5.0, 15.0)).gain_db(d)
+    y = y + np.random.default_rng(7).normal(0.0, 1.0, d.size)
+    f = fit_radial("r", _readings(d, y), fam, None, near_km=0.5)
+    assert not f.outliers
+
+    def s_of(log_sigma):
+        res = y + 20 * np.log10(d) - gw.model(1000.0, Ground(10 ** log_sigma, 15.0)).gain_db(d)
+        return float(((res - res.mean()) ** 2).sum())
+
+    best = optimize.minimize_scalar(s_of, bounds=(-1.0, 2.0), method="bounded",
+                                    options={"xatol": 1e-8})
+    n = d.size
+    s2 = best.fun / (n - 2)
+    for end in (f.sigma_low_ms_m, f.sigma_high_ms_m):
+        ratio = (s_of(np.log10(end)) - best.fun) / s2
+        assert ratio == pytest.approx(stats.f.ppf(0.95, 1, n - 2), abs=0.15)
+    assert stats.f.ppf(0.975, 1, n - 2) - stats.f.ppf(0.95, 1, n - 2) > 1.0
+
+
+def test_an_interval_that_reaches_the_end_of_the_searched_range_is_flagged():
+    # readings over sea water (5000 mS/m, εr 70: ITU-R P.368, from memory) with a grid that
+    # ends at 10 S/m: the data cannot set an upper bound, the interval runs into the end of the
+    # range and σ is reported as not constrained; the same readings over land are constrained
+    fam = curve_family(1000.0, 70.0)
+    d = np.geomspace(2.0, 80.0, 16)
+    noise = np.random.default_rng(3).normal(0.0, 0.5, d.size)
+    for sigma, flagged in ((5000.0, True), (5.0, False)):
+        g = gw.model(1000.0, Ground(sigma, 70.0)).gain_db(d)
+        y = float(gw.mv_m_to_dbu(300.0)) - 20 * np.log10(d) + g + noise
+        f = fit_radial("r", _readings(d, y), fam, None, near_km=0.5)
+        assert (not f.constrained) is flagged, sigma
+        assert any("end of the searched range" in w for w in f.warnings) is flagged, sigma

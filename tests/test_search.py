@@ -329,3 +329,17 @@ def test_the_study_site_is_one_of_the_candidates(spec):
     lat, lon = candidate_sites(spec, SearchSettings(step_km=3.0, radius_km=30.0))
     st = spec.station
     assert np.min(np.hypot(lat - st.lat, lon - st.lon)) < 1e-9  # deg
+
+
+def test_community_distance_column_is_the_geodesic_distance(spec, local_search):
+    # community_km: from the candidate to the community's representative point, on WGS84
+    # (pyproj Geod, independent of the tool's geodesy module); swapped lat/lon would read
+    # thousands of km
+    from pyproj import Geod
+
+    g = Geod(ellps="WGS84")
+    p = spec.community.geometry.representative_point()
+    for c in local_search.candidates[:10]:
+        want = g.inv(c.lon, c.lat, p.x, p.y)[2] / 1e3
+        assert c.community_km == pytest.approx(want, abs=1e-6)  # km
+        assert c.community_km < 100.0

@@ -348,3 +348,40 @@ def test_sheet_cites_paragraphs_and_prints_no_absurd_margin(sheet):
         assert float(m.group(1)) <= 100.0, text[max(m.start() - 60, 0):m.end()]
     assert "> 60 dB" in text  # the demo's far neighbours by day
     assert not re.search(r"\d\.?\d*e[-+]\d", text)
+
+
+def test_neighbours_beyond_the_frame_are_placed_by_distance_and_bearing_from_the_site(sheet,
+                                                                                      demo_result):
+    # the overview caption names each neighbour left outside the frame with its geodesic
+    # distance and initial bearing from the site (pyproj Geod on WGS84, computed here)
+    from pyproj import Geod
+
+    path, _ = sheet
+    t = _pages_text(path)[0]
+    st = demo_result.spec.station
+    g = Geod(ellps="WGS84")
+    far = [n for n in demo_result.spec.interference.neighbours
+           if g.inv(st.lon, st.lat, n.lon, n.lat)[2] / 1e3 > 1200.0]
+    assert far  # the demo's clear-channel station, 2800 km away
+    for n in far:
+        az, _, m = g.inv(st.lon, st.lat, n.lon, n.lat)
+        assert f"{n.name} ({n.freq_khz:g} kHz, {m / 1e3:.0f} km at {az % 360:.0f}°)" in t
+
+
+def test_beyond_cells_are_converted_to_miles(demo_result):
+    # a study whose radials stop at 20 km: levels not reached by then print as ">20" km and
+    # ">12" mi (20 / 1.609344 = 12.4, international mile)
+    import dataclasses
+
+    from mwreach.coverage.study import Study
+    from mwreach.gui.sheet import sheet_rows
+
+    spec = dataclasses.replace(demo_result.spec, max_km=20.0, interference=None)
+    res = Study(spec).run()
+    beyond = 0
+    for row in sheet_rows(res):
+        for km, mi in row["cells"]:
+            if km.startswith(">"):
+                assert (km, mi) == (">20", ">12")
+                beyond += 1
+    assert beyond > 0
