@@ -379,7 +379,8 @@ def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
     lens = (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
             + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
             - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))
-    assert ov.area_km2 == pytest.approx(lens, rel=0.02)  # 2° polygons of small circles
+    # measured 5.4e-5 relative (2° polygons of the two circles); 5e-4 allowed
+    assert ov.area_km2 == pytest.approx(lens, rel=5e-4)
     assert not ov.passed and ov.offset_channels == 3 and ov.points
     assert any(row["kind"] == "day overlap" and not row["passed"]
                for row in res.neighbour_summary())

@@ -255,3 +255,23 @@ def test_a_failing_writer_says_what_the_folder_holds(tmp_path, monkeypatch):
     with pytest.raises(ValueError, match="outputs not written, the previous ones are kept"):
         write_set(out, {"summary.json": "B\n", "radials.csv": "B\n"}, known_names=KNOWN)
     assert digest(out) == set_digest(NEW)
+
+
+@pytest.mark.parametrize("k", [0, 1, 2])
+def test_a_swap_that_fails_after_some_files_are_placed_puts_the_old_ones_back(tmp_path, k,
+                                                                            monkeypatch):
+    # no kill this time: the writer itself fails just after placing file k of the new set; the
+    # rollback must take back every file already placed, so the folder holds the old set whole
+    out = tmp_path / "out"
+    write_set(out, OLD, known_names=KNOWN)
+    names = list(NEW)
+
+    def step(name):
+        if name == f"placed {names[k]}":
+            raise OSError(5, "Input/output error")
+
+    monkeypatch.setattr(safefiles, "_step", step)
+    with pytest.raises((OSError, ValueError)):
+        write_set(out, NEW, known_names=KNOWN)
+    assert digest(out) == set_digest(OLD)
+    assert [p.name for p in out.iterdir() if p.name.startswith(".")] == []

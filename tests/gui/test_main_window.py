@@ -615,3 +615,27 @@ def test_comments_and_layout_survive_a_save(qtbot, window, tmp_path):
     text = (other / "copy.toml").read_text(encoding="utf-8")
     assert 'zones = "../zones.geojson"' in text and "# default ground outside the zones" in text
     assert load_study(other / "copy.toml").ground.default.sigma_ms_m == 4.0
+
+
+def test_export_refuses_to_write_over_a_file_the_study_reads(qtbot, window, demo_copy,
+                                                             monkeypatch):
+    # the window's Export goes through the same writer as the command line: an output name
+    # equal to one of the study's inputs (here its neighbours list, saved as interference.csv)
+    # is refused with a dialog, and the input is left as it was
+    import shutil
+
+    warnings = []
+    monkeypatch.setattr("mwreach.gui.app.QMessageBox.warning",
+                        lambda *a: warnings.append((a[1], a[2])))
+    shutil.copy(DEMO, demo_copy / "quellmoor.toml")
+    (demo_copy / "neighbours.csv").rename(demo_copy / "interference.csv")
+    study = demo_copy / "quellmoor.toml"
+    study.write_text(study.read_text().replace('"neighbours.csv"', '"interference.csv"'))
+    before = (demo_copy / "interference.csv").read_bytes()
+    assert window.open_path(str(study))
+    qtbot.waitUntil(lambda: window.full_result is not None, timeout=60_000)
+    assert not window.export_files(str(demo_copy))
+    assert warnings and warnings[-1][0] == "Cannot export"
+    assert "interference.csv" in warnings[-1][1]
+    assert (demo_copy / "interference.csv").read_bytes() == before
+    assert not (demo_copy / "summary.json").exists()  # nothing of the set was placed
