@@ -541,6 +541,80 @@ def _scheduler_identity(address: str, timeout_s: float) -> str:
         return "what answers there does not speak Dask's protocol"
 
 
+def _cmd_exposure(args) -> int:
+    """RF exposure screening near the towers (coverage/exposure.py)."""
+    import pathlib
+
+    import numpy as np
+
+    from .exposure import (CAUTION, fields_along_bearings, near_field, reference_levels,
+                           screening_distances, tower_xy_m)
+    from .inputs import load_study
+    from .safefiles import json_text, refuse_overwriting_inputs, writable_folder, write_set
+
+    height = check_finite("--height-m", args.height_m, 0.0, 100.0, low_open=True)
+    spec = load_study(args.study)
+    st = spec.station
+    try:
+        levels = {name: reference_levels(name, st.freq_khz) for name in args.standard}
+    except ValueError as exc:
+        raise UsageError(f"--standard: {exc}") from None
+    power = st.power_day_kw if args.period == "day" else st.power_night_kw
+    if not power > 0:
+        raise UsageError(f"{args.study}: the station has no {args.period} power")
+    refuse_overwriting_inputs(args.out, ["exposure.json"], spec.input_files)
+    writable_folder(args.out)
+    arr = st.antenna
+    towers = tower_xy_m(arr, st.freq_khz)
+    result = {"caution": CAUTION, "station": st.name, "freq_khz": st.freq_khz,
+              "period": args.period, "power_kw": power, "height_m": height,
+              "towers_xy_m": [[round(x, 3), round(y, 3)] for x, y in towers],
+              "method": "sinusoidal tower currents over perfect ground, fields of every current "
+                        "element summed (docs/methods.md §9)",
+              "standards": {}}
+    b, d, e, h = fields_along_bearings(arr, st.freq_khz, power, height)
+    worst_b = float(b[int(np.argmax(e.max(axis=1)))])
+    for name, (e_lim, h_lim, source) in levels.items():
+        dist = screening_distances(d, e, h, e_lim, h_lim)
+        rows = []
+        for bb, dd in zip(b, dist):
+            x, y = dd * np.sin(np.radians(bb)), dd * np.cos(np.radians(bb))
+            near_m = min(float(np.hypot(x - tx, y - ty)) for tx, ty in towers)
+            rows.append({"bearing_deg": float(bb), "from_reference_m": float(dd),
+                         "from_nearest_tower_m": round(near_m, 2) if dd > 0 else 0.0})
+        result["standards"][name] = {"e_limit_v_m": e_lim, "h_limit_a_m": h_lim,
+                                     "source": source, "bearings": rows,
+                                     "largest_distance_m": float(dist.max())}
+    # the profile along the bearing of the largest field, 1 m to 500 m
+    dist = np.unique(np.round(np.geomspace(1.0, 500.0, 120), 2))
+    t = np.radians(worst_b)
+    e, h = near_field(arr, st.freq_khz, power, dist * np.sin(t), dist * np.cos(t),
+                      np.full(dist.size, height))
+    result["profile"] = {"bearing_deg": worst_b, "points": [
+        {"distance_m": float(a), "e_v_m": round(float(x), 4), "h_a_m": round(float(y), 6)}
+        for a, x, y in zip(dist, e, h)]}
+    # a grid of |E| and |H| at the height, 5 m apart over ±100 m around the reference point
+    g = np.arange(-100.0, 100.0 + 1e-9, 5.0)
+    gx, gy = np.meshgrid(g, g)
+    ge, gh = near_field(arr, st.freq_khz, power, gx, gy, np.full(gx.shape, height))
+    result["grid"] = {"x_m": g.tolist(), "y_m": g.tolist(),
+                      "e_v_m": np.round(ge, 3).tolist(), "h_a_m": np.round(gh, 5).tolist()}
+    write_set(args.out, {"exposure.json": json_text(result, indent=1)},
+              known_names=("exposure.json",), inputs=spec.input_files)
+    print(f"RF exposure screening, {st.name}, {st.freq_khz:g} kHz, {power:g} kW ({args.period}), "
+          f"{height:g} m above ground:")
+    for name, v in result["standards"].items():
+        print(f"  {name}: E {v['e_limit_v_m']:.4g} V/m, H {v['h_limit_a_m']:.4g} A/m "
+              f"({v['source']}): fields above them out to {v['largest_distance_m']:g} m from "
+              "the reference point")
+    print(f"  largest field at 1 m from the reference point toward {worst_b:g}°: "
+          f"{result['profile']['points'][0]['e_v_m']:g} V/m, "
+          f"{result['profile']['points'][0]['h_a_m']:g} A/m")
+    print(f"wrote {pathlib.Path(args.out) / 'exposure.json'}")
+    print(CAUTION)
+    return 0
+
+
 def _cmd_fit(args) -> int:
     import pathlib
 
@@ -849,6 +923,18 @@ def build_parser() -> argparse.ArgumentParser:
     fi.add_argument("--write-zones", type=_path, help="write the zones with fitted conductivities to this "
                     "GeoJSON file")
     fi.set_defaults(func=_cmd_fit)
+
+    ex = sub.add_parser("exposure", help="RF exposure screening near the towers (a screening "
+                        "estimate, not a compliance determination)", **fmt)
+    ex.add_argument("study", type=_path, help="study file (TOML)")
+    ex.add_argument("-o", "--out", type=_path, required=True, help="output folder")
+    ex.add_argument("--period", type=_choices("day", "night"), default="day",
+                    help="which power to screen")
+    ex.add_argument("--height-m", type=float, default=2.0,
+                    help="height above ground of the screened points [m], above 0")
+    ex.add_argument("--standard", nargs="+", default=["fcc-general", "fcc-occupational"],
+                    help="reference levels: fcc-general, fcc-occupational (47 CFR 1.1310)")
+    ex.set_defaults(func=_cmd_exposure)
 
     g = sub.add_parser("gui", help="the desktop application", **fmt)
     g.add_argument("study", nargs="?", type=_path, help="study file to open (default: the demo, unsaved)")

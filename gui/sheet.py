@@ -31,7 +31,8 @@ PT = DPI / 72.0  # device units per point
 CAUTIONS = (
     "Planning estimate only: not a compliance determination or measured proof. Filings must "
     "follow the local regulator's rules and be checked by a licensed engineer. "
-    "RF exposure near towers is not assessed here: fields near medium-wave towers are reactive "
+    "RF exposure near towers is not assessed on this sheet (mwreach exposure screens the tower "
+    "fields only): fields near medium-wave towers are reactive "
     "near fields, and contact and induced currents (RF burns from guys, fences, vehicles) dominate "
     "the hazard (reference levels: FCC 47 CFR 1.1310, ICNIRP 2010). Tower work follows local "
     "codes and qualified practice."

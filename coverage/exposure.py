@@ -1,0 +1,183 @@
+"""RF exposure screening near the towers: electric and magnetic field strengths in the near field.
+
+Each tower carries the current the antenna model assumes (docs/methods.md §3): sinusoidal,
+I(u) = I_loop·sin(A + B − u) for u = k·z from 0 to A (A the height, B the top loading, in
+radians), mirrored in perfectly conducting ground. Its loop current follows from the array's
+field at 1 km: E_1km = (η0/2π)·I_loop·(cos B − cos(A + B)), so the near field and the far field
+come from one current. The field at a point is the sum over the current of the fields of
+Hertzian elements, all terms kept (Jordan & Balmain, Electromagnetic Waves and Radiating Systems,
+§10 and §14 [from memory]), integrated by composite Gauss–Legendre; for a tower without top
+loading Schelkunoff's closed form gives the same (tests/test_exposure.py). The towers' fields
+add as phasors with their currents' phases. Values are RMS (the currents are RMS).
+
+Reference levels: 47 CFR 1.1310 Table 1 (read: the occupational/controlled rows; the general
+population rows as printed in docs/methods.md §9). A screening estimate only: contact and induced
+currents, guy wires, fences and other metal are not assessed; local codes and a qualified person
+decide.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .antenna import ETA0, FIELD_OHM, Array
+
+__all__ = ["REFERENCE_LEVELS", "reference_levels", "tower_currents", "tower_xy_m", "near_field",
+           "schelkunoff_field", "fields_along_bearings", "screening_distances", "CAUTION"]
+
+C0 = 299_792_458.0  # m/s
+
+CAUTION = ("Screening estimate only: fields are computed for the assumed tower currents over "
+           "perfect ground; contact and induced currents, guy wires, fences and nearby metal "
+           "are not assessed. Local codes and a qualified person decide where people may go; "
+           "measure before relying on it.")
+
+#: Reference levels [E V/m, H A/m] as functions of f [MHz], with their source, by standard and
+#: population. 47 CFR 1.1310 Table 1: (A) occupational/controlled 0.3–3.0 MHz 614 V/m,
+#: 1.63 A/m; 3.0–30 MHz 1842/f, 4.89/f (read); (B) general population/uncontrolled 0.3–1.34 MHz
+#: 614 V/m, 1.63 A/m; 1.34–30 MHz 824/f, 2.19/f (from memory: the stored copies cut the table
+#: before part B).
+REFERENCE_LEVELS = {
+    "fcc-occupational": (
+        lambda f: (614.0, 1.63) if f < 3.0 else (1842.0 / f, 4.89 / f),
+        "47 CFR 1.1310 Table 1 (A), occupational/controlled (read)", (0.3, 30.0)),
+    "fcc-general": (
+        lambda f: (614.0, 1.63) if f < 1.34 else (824.0 / f, 2.19 / f),
+        "47 CFR 1.1310 Table 1 (B), general population/uncontrolled (from memory)", (0.3, 30.0)),
+}
+
+
+def reference_levels(standard: str, freq_khz: float) -> tuple[float, float, str]:
+    """(E [V/m], H [A/m], source) of ``standard`` at ``freq_khz``; ValueError naming the
+    standards when it is not in the table or the frequency is outside its range."""
+    if standard not in REFERENCE_LEVELS:
+        raise ValueError(f"standard must be one of {', '.join(REFERENCE_LEVELS)} "
+                         f"(got {standard!r})")
+    fn, source, (lo, hi) = REFERENCE_LEVELS[standard]
+    f = freq_khz / 1e3
+    if not lo <= f <= hi:
+        raise ValueError(f"{standard} covers {lo:g}–{hi:g} MHz (got {f:g} MHz)")
+    e, h = fn(f)
+    return float(e), float(h), source
+
+
+def tower_xy_m(array: Array, freq_khz: float) -> list[tuple[float, float]]:
+    """Tower positions (east, north) [m] from the array's reference point."""
+    lam = C0 / (freq_khz * 1e3)
+    return [(p.real / (2 * np.pi) * lam, p.imag / (2 * np.pi) * lam) for p in array._positions]
+
+
+def tower_currents(array: Array, power_kw: float) -> np.ndarray:
+    """Complex RMS loop currents [A] of the towers for ``power_kw`` into the array."""
+    k = array.k_mv_m(power_kw)  # mV/m at 1 km per unit field ratio = V/m at 1 m
+    out = []
+    for e, feed in zip(array.elements, array._feeds):
+        out.append(k * feed / (FIELD_OHM * e.tower.horizon_factor))
+    return np.array(out)
+
+
+def _element_fields(k, zs, weights, cur, rho, z):
+    """Fields at (ρ, z) [m] of z-directed current elements at heights ``zs`` with currents
+    ``cur``·``weights`` (Hertzian elements, all terms). Returns E_ρ, E_z, H_φ (complex)."""
+    dz = z[..., None] - zs
+    rho_ = rho[..., None]
+    r = np.sqrt(rho_ ** 2 + dz ** 2)
+    cos_t, sin_t = dz / r, rho_ / r
+    kr = k * r
+    ph = np.exp(-1j * kr)
+    idz = cur * weights
+    er = ETA0 * idz / (2 * np.pi * r ** 2) * cos_t * (1 + 1 / (1j * kr)) * ph
+    et = 1j * ETA0 * k * idz / (4 * np.pi * r) * sin_t * (1 + 1 / (1j * kr) - 1 / kr ** 2) * ph
+    hp = 1j * k * idz / (4 * np.pi * r) * sin_t * (1 + 1 / (1j * kr)) * ph
+    e_rho = (er * sin_t + et * cos_t).sum(-1)
+    e_z = (er * cos_t - et * sin_t).sum(-1)
+    return e_rho, e_z, hp.sum(-1)
+
+
+#: composite Gauss–Legendre along each tower and its image: panels × nodes (each panel is
+#: a few metres long for medium-wave towers; 1 m from the tower the kernel is still resolved)
+PANELS, NODES = 96, 12
+
+
+def _tower_nodes(tower, freq_khz):
+    k = 2 * math.pi * freq_khz * 1e3 / C0
+    a, b = np.radians(tower.height_deg), np.radians(tower.top_loading_deg)
+    h = a / k
+    x, w = np.polynomial.legendre.leggauss(NODES)
+    edges = np.linspace(-h, h, PANELS + 1)
+    mid, half = (edges[1:] + edges[:-1]) / 2, (edges[1:] - edges[:-1]) / 2
+    zs = (mid[:, None] + half[:, None] * x).ravel()
+    ws = (half[:, None] * w).ravel()
+    shape = np.sin(a + b - k * np.abs(zs))  # current relative to the loop current
+    return k, zs, ws * shape
+
+
+def near_field(array: Array, freq_khz: float, power_kw: float, x, y, z):
+    """|E| [V/m] and |H| [A/m] (RMS) at points (x east, y north, z up) [m] from the array's
+    reference point, for ``power_kw`` into the array. Broadcasts over the points."""
+    x, y, z = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (x, y, z)))
+    ex = np.zeros(x.shape, complex)
+    ey, ez, hx, hy = (np.zeros(x.shape, complex) for _ in range(4))
+    for e, (tx, ty), cur in zip(array.elements, tower_xy_m(array, freq_khz),
+                                tower_currents(array, power_kw)):
+        k, zs, ws = _tower_nodes(e.tower, freq_khz)
+        dx, dy = x - tx, y - ty
+        rho = np.maximum(np.hypot(dx, dy), 1e-6)
+        e_rho, e_z, h_phi = _element_fields(k, zs, ws, cur, rho, z)
+        ux, uy = dx / rho, dy / rho
+        ex += e_rho * ux
+        ey += e_rho * uy
+        ez += e_z
+        hx += -h_phi * uy
+        hy += h_phi * ux
+    e_abs = np.sqrt(np.abs(ex) ** 2 + np.abs(ey) ** 2 + np.abs(ez) ** 2)
+    h_abs = np.sqrt(np.abs(hx) ** 2 + np.abs(hy) ** 2)
+    return e_abs, h_abs
+
+
+def schelkunoff_field(height_deg: float, freq_khz: float, i_loop: complex, rho, z):
+    """Closed form for a tower without top loading (current I_m·sin k(h − |z|) with its
+    image): |E_ρ|, |E_z|, |H_φ| at (ρ, z) [m] (Schelkunoff; Jordan & Balmain §14 [from
+    memory]). With η0/4π in place of the rounded 30 Ω."""
+    k = 2 * math.pi * freq_khz * 1e3 / C0
+    h = math.radians(height_deg) / k
+    rho, z = np.broadcast_arrays(np.asarray(rho, float), np.asarray(z, float))
+    r1 = np.sqrt(rho ** 2 + (z - h) ** 2)
+    r2 = np.sqrt(rho ** 2 + (z + h) ** 2)
+    r0 = np.sqrt(rho ** 2 + z ** 2)
+    e1, e2, e0 = (np.exp(-1j * k * r) for r in (r1, r2, r0))
+    c = math.cos(k * h)
+    g = ETA0 / (4 * math.pi)
+    e_z = -1j * g * i_loop * (e1 / r1 + e2 / r2 - 2 * c * e0 / r0)
+    e_rho = 1j * g * i_loop / rho * ((z - h) * e1 / r1 + (z + h) * e2 / r2 - 2 * z * c * e0 / r0)
+    h_phi = 1j * i_loop / (4 * math.pi * rho) * (e1 + e2 - 2 * c * e0)
+    return np.abs(e_rho), np.abs(e_z), np.abs(h_phi)
+
+
+def fields_along_bearings(array: Array, freq_khz: float, power_kw: float, height_m: float,
+                          bearings=None, max_m: float = 500.0, step_m: float = 1.0):
+    """|E| and |H| on radials from the array's reference point at ``height_m`` above ground:
+    (bearings [deg], distances [m], E (bearings × distances), H)."""
+    if not height_m > 0:
+        raise ValueError(f"height_m must be above 0 (got {height_m!r})")
+    bearings = np.arange(0.0, 360.0, 5.0) if bearings is None else np.asarray(bearings, float)
+    d = np.arange(step_m, max_m + 1e-9, step_m)
+    bb, dd = np.meshgrid(np.radians(bearings), d, indexing="ij")
+    e, h = near_field(array, freq_khz, power_kw, dd * np.sin(bb), dd * np.cos(bb),
+                      np.full(dd.shape, float(height_m)))
+    return bearings, d, e, h
+
+
+def screening_distances(d, e, h, e_limit: float, h_limit: float) -> np.ndarray:
+    """Per radial of :func:`fields_along_bearings`, the distance [m] beyond which both
+    |E| ≤ e_limit and |H| ≤ h_limit: 0 when never above, the radial's end when still above
+    there (look farther)."""
+    over = (e > e_limit) | (h > h_limit)
+    out = np.zeros(e.shape[0])
+    for i in range(e.shape[0]):
+        idx = np.flatnonzero(over[i])
+        if idx.size:
+            out[i] = d[-1] if idx[-1] == d.size - 1 else d[idx[-1] + 1]
+    return out
