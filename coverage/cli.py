@@ -562,7 +562,7 @@ def _cmd_exposure(args) -> int:
     power = st.power_day_kw if args.period == "day" else st.power_night_kw
     if not power > 0:
         raise UsageError(f"{args.study}: the station has no {args.period} power")
-    refuse_overwriting_inputs(args.out, ["exposure.json"], spec.input_files)
+    refuse_overwriting_inputs(args.out, ["exposure.json", "exposure.png"], spec.input_files)
     writable_folder(args.out)
     arr = st.antenna
     towers = tower_xy_m(arr, st.freq_khz)
@@ -597,10 +597,23 @@ def _cmd_exposure(args) -> int:
     g = np.arange(-100.0, 100.0 + 1e-9, 5.0)
     gx, gy = np.meshgrid(g, g)
     ge, gh = near_field(arr, st.freq_khz, power, gx, gy, np.full(gx.shape, height))
-    result["grid"] = {"x_m": g.tolist(), "y_m": g.tolist(),
-                      "e_v_m": np.round(ge, 3).tolist(), "h_a_m": np.round(gh, 5).tolist()}
-    write_set(args.out, {"exposure.json": json_text(result, indent=1)},
-              known_names=("exposure.json",), inputs=spec.input_files)
+    # points within 1 m of a tower are not screened (the tower and its base fence are there)
+    close = np.zeros(gx.shape, bool)
+    for tx, ty in towers:
+        close |= np.hypot(gx - tx, gy - ty) < 1.0
+    result["grid"] = {"x_m": g.tolist(), "y_m": g.tolist(), "note": "null within 1 m of a tower",
+                      "e_v_m": [[None if c else round(float(v), 3) for v, c in zip(rv, rc)]
+                                for rv, rc in zip(ge, close)],
+                      "h_a_m": [[None if c else round(float(v), 5) for v, c in zip(rv, rc)]
+                                for rv, rc in zip(gh, close)]}
+    from mwreach.gui.qt import ensure_app  # Qt only for the picture
+
+    ensure_app()
+    from mwreach.gui.exposureplan import exposure_png
+
+    write_set(args.out, {"exposure.json": json_text(result, indent=1),
+                         "exposure.png": exposure_png(result)},
+              known_names=("exposure.json", "exposure.png"), inputs=spec.input_files)
     print(f"RF exposure screening, {st.name}, {st.freq_khz:g} kHz, {power:g} kW ({args.period}), "
           f"{height:g} m above ground:")
     for name, v in result["standards"].items():
@@ -610,7 +623,7 @@ def _cmd_exposure(args) -> int:
     print(f"  largest field at 1 m from the reference point toward {worst_b:g}°: "
           f"{result['profile']['points'][0]['e_v_m']:g} V/m, "
           f"{result['profile']['points'][0]['h_a_m']:g} A/m")
-    print(f"wrote {pathlib.Path(args.out) / 'exposure.json'}")
+    print(f"wrote {pathlib.Path(args.out) / 'exposure.json'} and exposure.png")
     print(CAUTION)
     return 0
 

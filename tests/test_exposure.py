@@ -128,6 +128,9 @@ def test_exposure_command_writes_its_screening_with_the_caution(tmp_path, capsys
     pts = data["profile"]["points"]
     assert pts[0]["distance_m"] == 1.0 and pts[-1]["distance_m"] == 500.0
     assert len(data["grid"]["e_v_m"]) == len(data["grid"]["y_m"]) == 41
+    assert data["grid"]["e_v_m"][20][20] is None  # the tower's own point is not screened
+    png = (out / "exposure.png").read_bytes()
+    assert png.startswith(b"\x89PNG") and len(png) > 10_000
 
 
 @pytest.mark.parametrize("argv, needle", [

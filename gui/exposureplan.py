@@ -1,0 +1,109 @@
+"""The RF exposure site plan (PNG): towers, |E| shading at the screened height, each standard's
+screening boundary, a scale bar and the caution. Drawn from exposure.json's figures only (the
+physics is coverage/exposure.py)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from PySide6.QtCore import QPointF, QRectF, Qt
+from PySide6.QtGui import QColor, QFont, QImage, QPainter, QPen, QPolygonF
+
+from .qt import png_bytes
+
+__all__ = ["render_exposure_plan", "exposure_png"]
+
+#: boundary colour per standard (the first two; others take grey)
+BOUNDARY_COLOURS = {"fcc-general": "#d7191c", "fcc-occupational": "#2b83ba"}
+
+
+def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> QImage:
+    img = QImage(width, height, QImage.Format_ARGB32)
+    img.fill(Qt.white)
+    p = QPainter(img)
+    p.setRenderHint(QPainter.Antialiasing, True)
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(11)
+    p.setFont(font)
+    title = (f"RF exposure screening — {data['station']}, {data['freq_khz']:g} kHz, "
+             f"{data['power_kw']:g} kW ({data['period']}), {data['height_m']:g} m above ground")
+    p.drawText(QRectF(20, 10, width - 40, 30), Qt.AlignLeft | Qt.AlignVCenter, title)
+    plan = QRectF(20, 50, width - 40, height - 230)
+    # the frame holds the grid (±100 m) and every boundary, whichever is larger
+    reach = max([100.0] + [b["from_reference_m"] for s in data["standards"].values()
+                           for b in s["bearings"]]) * 1.1
+    scale = min(plan.width(), plan.height()) / (2 * reach)  # px per m
+    cx, cy = plan.center().x(), plan.center().y()
+
+    def dev(x, y):
+        return QPointF(cx + x * scale, cy - y * scale)
+
+    # |E| shading from the grid, grey levels in dB below the largest value
+    g = data["grid"]
+    e = np.array([[np.nan if v is None else v for v in row] for row in g["e_v_m"]], dtype=float)
+    emax = float(np.nanmax(e)) if np.isfinite(e).any() else 1.0
+    step = (g["x_m"][1] - g["x_m"][0]) if len(g["x_m"]) > 1 else 5.0
+    for j, y in enumerate(g["y_m"]):
+        for i, x in enumerate(g["x_m"]):
+            if not np.isfinite(e[j, i]):
+                continue
+            db = 20 * math.log10(max(e[j, i], 1e-9) / emax)
+            t = min(max(-db / 40.0, 0.0), 1.0)  # 0 dB dark, −40 dB white
+            c = QColor.fromHsvF(0.08, 0.6 * (1 - t), 1.0)
+            a, b = dev(x - step / 2, y + step / 2), dev(x + step / 2, y - step / 2)
+            p.fillRect(QRectF(a, b), c)
+    p.setPen(QPen(QColor(120, 120, 120), 1))
+    p.drawRect(plan)
+    # boundaries
+    legend = []
+    for k, (name, s) in enumerate(data["standards"].items()):
+        col = QColor(BOUNDARY_COLOURS.get(name, "#555555"))
+        pts = [dev(r["from_reference_m"] * math.sin(math.radians(r["bearing_deg"])),
+                   r["from_reference_m"] * math.cos(math.radians(r["bearing_deg"])))
+               for r in s["bearings"]]
+        # solid, then dashed: equal boundaries stay visible one over the other
+        p.setPen(QPen(col, 2.5, Qt.SolidLine if k == 0 else Qt.DashLine))
+        p.setBrush(Qt.NoBrush)
+        if s["largest_distance_m"] > 0:
+            p.drawPolygon(QPolygonF(pts))
+        legend.append((col, f"{name}: E {s['e_limit_v_m']:.4g} V/m, H {s['h_limit_a_m']:.4g} "
+                            f"A/m — {s['source']}; beyond the line the fields stay below "
+                            f"(largest {s['largest_distance_m']:g} m"
+                            + (")" if s["largest_distance_m"] > 0 else "; nowhere above)")))
+    # towers
+    p.setPen(QPen(Qt.black, 1.5))
+    p.setBrush(QColor(255, 230, 0))
+    for x, y in data["towers_xy_m"]:
+        p.drawEllipse(dev(x, y), 6, 6)
+    # scale bar (bottom left of the plan) and north arrow
+    bar_m = 10 ** math.floor(math.log10(reach / 2))
+    x0, y0 = plan.left() + 20, plan.bottom() - 25
+    p.setPen(QPen(Qt.black, 3))
+    p.drawLine(QPointF(x0, y0), QPointF(x0 + bar_m * scale, y0))
+    p.drawText(QPointF(x0, y0 - 8), f"{bar_m:g} m")
+    p.drawText(QRectF(plan.right() - 40, plan.top() + 5, 30, 20), Qt.AlignCenter, "N ↑")
+    # legend and caution
+    y = plan.bottom() + 12
+    font.setPointSizeF(9.5)
+    p.setFont(font)
+    for col, text in legend:
+        p.setPen(QPen(col, 3, Qt.SolidLine if col is legend[0][0] else Qt.DashLine))
+        p.drawLine(QPointF(22, y + 9), QPointF(52, y + 9))
+        p.setPen(Qt.black)
+        r = p.boundingRect(QRectF(60, y, width - 80, 60), Qt.TextWordWrap, text)
+        p.drawText(r, Qt.TextWordWrap, text)
+        y += r.height() + 6
+    p.drawText(QRectF(60, y, width - 80, 20), Qt.AlignLeft,
+               f"Shading: |E| at {data['height_m']:g} m, darkest = {emax:,.0f} V/m, white 40 dB "
+               "below (not shown within 1 m of a tower). Yellow: towers.")
+    y += 24
+    font.setBold(True)
+    p.setFont(font)
+    p.drawText(QRectF(20, y, width - 40, height - y - 5), Qt.TextWordWrap, data["caution"])
+    p.end()
+    return img
+
+
+def exposure_png(data: dict) -> bytes:
+    return png_bytes(render_exposure_plan(data))
