@@ -946,7 +946,8 @@ def build_parser() -> argparse.ArgumentParser:
     ex.add_argument("--height-m", type=float, default=2.0,
                     help="height above ground of the screened points [m], above 0")
     ex.add_argument("--standard", nargs="+", default=["fcc-general", "fcc-occupational"],
-                    help="reference levels: fcc-general, fcc-occupational (47 CFR 1.1310)")
+                    help="reference levels: fcc-general, fcc-occupational (47 CFR 1.1310), "
+                         "icnirp2010-public, icnirp2010-occupational")
     ex.set_defaults(func=_cmd_exposure)
 
     g = sub.add_parser("gui", help="the desktop application", **fmt)

@@ -28,6 +28,7 @@ __all__ = ["REFERENCE_LEVELS", "reference_levels", "tower_currents", "tower_xy_m
            "schelkunoff_field", "fields_along_bearings", "screening_distances", "CAUTION"]
 
 C0 = 299_792_458.0  # m/s
+MU0 = 1.25663706212e-6  # vacuum permeability [H/m], CODATA 2018
 
 CAUTION = ("Screening estimate only: fields are computed for the assumed tower currents over "
            "perfect ground; contact and induced currents, guy wires, fences and nearby metal "
@@ -46,6 +47,16 @@ REFERENCE_LEVELS = {
     "fcc-general": (
         lambda f: (614.0, 1.63) if f < 1.34 else (824.0 / f, 2.19 / f),
         "47 CFR 1.1310 Table 1 (B), general population/uncontrolled (from memory)", (0.3, 30.0)),
+    # ICNIRP 2010 (Health Physics 99:818–836), reference levels for 3 kHz–10 MHz against nerve
+    # stimulation: E 0.83e-1 kV/m public, 1.7e-1 kV/m occupational; B 0.27e-4 T and 1e-4 T
+    # (read, as reproduced in a bioelectromagnetism handbook, Table 7.3); H = B/μ0. Above
+    # 100 kHz the RF (heating) levels of ICNIRP 1998/2020 apply as well; not in this table.
+    "icnirp2010-public": (lambda f: (83.0, 0.27e-4 / MU0), "ICNIRP 2010, general public, "
+                          "3 kHz–10 MHz (nerve stimulation; RF heating levels not included)",
+                          (0.003, 10.0)),
+    "icnirp2010-occupational": (lambda f: (170.0, 1e-4 / MU0), "ICNIRP 2010, occupational, "
+                                "3 kHz–10 MHz (nerve stimulation; RF heating levels not "
+                                "included)", (0.003, 10.0)),
 }
 
 
