@@ -104,6 +104,9 @@ def ground_class(name: str, *, where: str = "") -> Ground:
 # radial boundaries move by under 10 m against a 0.01° step (demo zones, three sites, 720
 # radials to 900 km): far below anything a field figure shows, at a fifth of the vertices.
 ZONE_EDGE_STEP_DEG = 0.05
+#: Sites whose projected zones are kept: the study's own and every neighbour's (a crowded
+#: channel lists a thousand; each entry is the demo's few zones, some kilobytes)
+ZONES_XY_CACHE = 4096
 
 def ray_intervals(geom_xy, bearings_deg, max_km: float):
     """Where radials from the origin run inside a (multi)polygon: (radial index, start, end).
@@ -390,7 +393,7 @@ class GroundMap:
         with self._lock:  # the GUI thread draws while a worker computes
             cache = self.__dict__.setdefault("_xy_cache", {})
             if key not in cache:
-                if len(cache) >= 64:  # a study's own site and its neighbours' sites
+                if len(cache) >= ZONES_XY_CACHE:
                     cache.pop(next(iter(cache)))
                 dense = self.__dict__.get("_dense")
                 if dense is None:
