@@ -358,14 +358,20 @@ def test_class_a_neighbour_is_protected_to_its_50_percent_sky_wave_contour():
     assert all(r.mechanism == "sky" for r in rows)
 
 
+def _lens_km2(r1, r2, d):
+    """Area of the overlap of two circles of radii r1, r2 whose centres are d apart."""
+    return (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
+            + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
+            - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))
+
+
 def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
     # two single towers 3 km apart on homogeneous land, third adjacent: their 25 mV/m contours
     # (47 CFR 73.37, from memory) are circles; the overlap is the lens of two circles
     spec = _spec([])
     lat, lon = _north_of_site(spec, 3.0)
     n = Neighbour("Third", lat, lon, 1420.0, 1.0, 1.0, Array.single(Tower(90.0)))
-    spec = dataclasses.replace(spec, interference=dataclasses.replace(
-        spec.interference, neighbours=(n,)))
+    spec = _neighbour_at(spec, n)
     res = run_interference(spec, spec.interference)
     (ov,) = res.overlaps
     from mwreach.coverage import groundwave as gw
@@ -376,9 +382,7 @@ def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
     r2 = gw.model(1420.0, g, spec.earth_k).distance_to_field_km(
         25.0, float(n.antenna.field_mv_m(0.0, 0.0, 1.0)))
     d = 3.0
-    lens = (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
-            + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
-            - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))
+    lens = _lens_km2(r1, r2, d)
     # measured 5.4e-5 relative (2° polygons of the two circles); 5e-4 allowed
     assert ov.area_km2 == pytest.approx(lens, rel=5e-4)
     assert not ov.passed and ov.offset_channels == 3 and ov.points
@@ -420,8 +424,7 @@ def test_third_adjacent_maximum_day_power_makes_the_contours_touch():
     spec = _spec([])
     lat, lon = _north_of_site(spec, 25.0)
     n = Neighbour("Third", lat, lon, 1420.0, 1.0, 1.0, Array.single(Tower(90.0)))
-    spec = dataclasses.replace(spec, interference=dataclasses.replace(
-        spec.interference, neighbours=(n,)))
+    spec = _neighbour_at(spec, n)
     res = run_interference(spec, spec.interference)
     assert res.overlaps[0].passed
     g = ground_class("land")
@@ -509,8 +512,7 @@ def _class_a(spec, km, freq, p=50.0):
 def test_class_a_day_contour_by_channel_offset(freq, level_mv_m):
     spec = _spec([])
     n = _class_a(spec, 400.0, freq)
-    spec = dataclasses.replace(spec, interference=dataclasses.replace(spec.interference,
-                                                                      neighbours=(n,)))
+    spec = _neighbour_at(spec, n)
     res = run_interference(spec, spec.interference)
     caused = [r for r in res.rows if r.kind == "day caused"]
     assert caused and {round(r.wanted_dbu, 6) for r in caused} == {
@@ -524,8 +526,7 @@ def test_first_adjacent_class_a_limits_a_class_b_proposal_by_its_half_millivolt_
     # (47 CFR 73.21(a)(2), read), so the class range is what limits
     spec = _spec([], station_class="B")
     n = _class_a(spec, 400.0, 1400.0)
-    spec = dataclasses.replace(spec, interference=dataclasses.replace(spec.interference,
-                                                                      neighbours=(n,)))
+    spec = _neighbour_at(spec, n)
     res = run_interference(spec, spec.interference)
     mp = res.max_power["day"]
     assert mp["check"] == "class range" and mp["max_power_kw"] == 50.0
@@ -598,8 +599,7 @@ def test_below_the_class_minimum_no_power_passes_and_the_rms_field_counts():
     spec = _spec([], station_class="B")
     lat, lon = _north_of_site(spec, 60.0)
     n = Neighbour("Close", lat, lon, 1390.0, 1.0, 1.0, Array.single(Tower(90.0)))
-    spec = dataclasses.replace(spec, interference=dataclasses.replace(
-        spec.interference, neighbours=(n,)))
+    spec = _neighbour_at(spec, n)
     res = run_interference(spec, spec.interference)
     mp = res.max_power["day"]
     assert mp["passes"] is False and mp["max_power_kw"] == 0.0
@@ -617,8 +617,7 @@ def test_a_site_inside_the_overlap_contour_passes_at_no_power():
     spec = _spec([])
     lat, lon = _north_of_site(spec, 3.0)
     n = Neighbour("Next door", lat, lon, 1420.0, 1.0, 1.0, Array.single(Tower(90.0)))
-    spec = dataclasses.replace(spec, interference=dataclasses.replace(
-        spec.interference, neighbours=(n,)))
+    spec = _neighbour_at(spec, n)
     mp = run_interference(spec, spec.interference).max_power["day"]
     assert mp["max_power_kw"] == 0.0 and mp["passes"] is False
     assert "no power passes: the site is inside" in describe_max_power("day", mp)
@@ -697,9 +696,7 @@ def test_overlap_uses_each_stations_own_contour_at_its_own_power(freq, level_mv_
     lat, lon = _north_of_site(spec, d)
     spec = _neighbour_at(spec, Neighbour("N", lat, lon, freq, 10.0, 10.0, ant))
     (ov,) = run_interference(spec, spec.interference).overlaps
-    lens = (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
-            + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
-            - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))
+    lens = _lens_km2(r1, r2, d)
     assert ov.area_km2 == pytest.approx(lens, rel=3e-3)
     assert ov.offset_channels == round((freq - 1390.0) / 10.0) and not ov.passed
 
