@@ -195,6 +195,9 @@ class Array:
     rotation_deg: float = 0.0
     _cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
+    #: the pattern an array gives as a radiator (:mod:`.pattern` builds the standard one)
+    kind = "theoretical"
+
     def __post_init__(self):
         object.__setattr__(self, "elements", tuple(self.elements))
         n = len(self.elements)
@@ -218,7 +221,17 @@ class Array:
         """The array made of one tower at the reference point."""
         return cls((Element(tower),))
 
+    @property
+    def array(self) -> Array:
+        """The towers of this radiator: the array itself (a standard pattern holds one too)."""
+        return self
+
     # --- geometry and relative pattern ----------------------------------------------------
+    @property
+    def positions_rad(self) -> np.ndarray:
+        """Element positions as complex numbers [rad of phase]: east + j·north."""
+        return self._positions
+
     @cached_property
     def _positions(self) -> np.ndarray:
         """Element positions as complex numbers [rad]: east + j·north."""
@@ -299,17 +312,25 @@ class Array:
         k = self.k_mv_m(power_kw)
         return k**2 * self.hemisphere_integral() / ETA0 / 1e3
 
+    def rms_mv_m(self, power_kw: float, elev_deg: float = 0.0) -> float:
+        """RMS over azimuth of the field at elevation ``elev_deg`` [mV/m at 1 km], exact:
+        mean of |Σ a_i f_i e^(j p_i·u cos θ)|² = Σ Re(a_i a_j*) f_i f_j J0(|p_i − p_j| cos θ)."""
+        k = self.k_mv_m(power_kw)
+        f = np.array([float(e.tower.vertical(elev_deg)) for e in self.elements])
+        sep = np.abs(self._positions[:, None] - self._positions[None, :])
+        coup = np.real(self._feeds[:, None] * np.conj(self._feeds[None, :]))
+        cos_el = np.cos(np.radians(elev_deg))
+        ms = float(np.sum(coup * np.outer(f, f) * special.j0(sep * cos_el)))
+        return k * np.sqrt(max(ms, 0.0))
+
     def horizontal_summary(self, power_kw: float, step_deg: float = 0.1) -> dict:
         """RMS, maximum and minimum of the horizontal-plane field [mV/m at 1 km]."""
         k = self.k_mv_m(power_kw)
         az = np.arange(0.0, 360.0, step_deg)
         e = k * self.relative(az, 0.0)
-        sep = np.abs(self._positions[:, None] - self._positions[None, :])
-        coup = np.real(self._feeds[:, None] * np.conj(self._feeds[None, :]))
-        rms = k * np.sqrt(max(float(np.sum(coup * special.j0(sep))), 0.0))  # exact RMS
         i_max, i_min = int(np.argmax(e)), int(np.argmin(e))
         return {
-            "rms_mv_m": rms,
+            "rms_mv_m": self.rms_mv_m(power_kw),
             "max_mv_m": float(e[i_max]),
             "max_azimuth_deg": float(az[i_max]),
             "min_mv_m": float(e[i_min]),

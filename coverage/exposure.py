@@ -77,7 +77,7 @@ def reference_levels(standard: str, freq_khz: float) -> tuple[float, float, str]
 def tower_xy_m(array: Array, freq_khz: float) -> list[tuple[float, float]]:
     """Tower positions (east, north) [m] from the array's reference point."""
     lam = C0 / (freq_khz * 1e3)
-    return [(p.real / (2 * np.pi) * lam, p.imag / (2 * np.pi) * lam) for p in array._positions]
+    return [(p.real / (2 * np.pi) * lam, p.imag / (2 * np.pi) * lam) for p in array.positions_rad]
 
 
 def tower_currents(array: Array, power_kw: float) -> np.ndarray:

@@ -111,7 +111,7 @@ def near_field_km(freq_khz: float, antenna) -> float:
     lam_m = C0 / (freq_khz * 1e3)
     if len(antenna.elements) == 1:
         return max(lam_m, 5 * antenna.elements[0].tower.height_deg / 360.0 * lam_m) / 1e3
-    pos = np.asarray(antenna._positions)  # element positions [rad of phase]: east + j·north
+    pos = np.asarray(antenna.array.positions_rad)  # element positions [rad of phase]: east + j·north
     spacing_m = float(np.max(np.abs(pos[:, None] - pos[None, :]))) / (2 * np.pi) * lam_m
     return max(lam_m, 10 * spacing_m) / 1e3
 

@@ -230,7 +230,7 @@ def _community_shares(spec, moved, community_xy, levels):
     brg = spec.bearings  # sorted
     window = share_window(brg, community_xy, float(dist[0]))
     if window is None:  # the whole turn, as polar_shares contours it
-        e1 = st.antenna.field_mv_m(brg, 0.0, st.power_day_kw)
+        e1 = st.day_antenna.field_mv_m(brg, 0.0, st.power_day_kw)
         rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km,
                             spec.step_km, spec.mixed_path, spec.earth_k, dist_km=dist)
         return polar_shares(brg, dist, rad.field_dbu, levels, community_xy)
@@ -238,7 +238,7 @@ def _community_shares(spec, moved, community_xy, levels):
     near = community_xy.distance(shapely.Point(0.0, 0.0))
     first = max(int(np.searchsorted(dist, near)) - 2, 0)
     dist = dist[first:]
-    e1 = st.antenna.field_mv_m(brg[rows], 0.0, st.power_day_kw)
+    e1 = st.day_antenna.field_mv_m(brg[rows], 0.0, st.power_day_kw)
     rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg[rows], e1, max_km,
                         spec.step_km, spec.mixed_path, spec.earth_k, dist_km=dist)
     return window_shares(unwrapped, dist, rad.field_dbu, levels, community_xy,
@@ -267,7 +267,7 @@ def evaluate_site(spec, settings: SearchSettings, checks, index: int, lat: float
     plan = spec.interference
     protected_mv = plan.protected_day_mv_m if plan is not None else 0.5
     brg = np.arange(0.0, 360.0, SEARCH_BEARING_STEP_DEG)
-    e1 = st.antenna.field_mv_m(brg, 0.0, p0)
+    e1 = st.day_antenna.field_mv_m(brg, 0.0, p0)
     max_km = radial_length_km(st.freq_khz, moved.ground, protected_mv, float(e1.max()),
                               spec.earth_k, min_km=5.0)
     rad = radial_fields(st.freq_khz, moved.ground, st.lat, st.lon, brg, e1, max_km,

@@ -125,8 +125,8 @@ class Study:
         st = spec.station
         power = st.power_day_kw if power_kw is None else power_kw
         b = spec.bearings if bearings is None else np.asarray(bearings, dtype=float)
-        e1 = st.antenna.field_mv_m(b, 0.0, power)
-        summary = st.antenna.horizontal_summary(power)
+        e1 = st.day_antenna.field_mv_m(b, 0.0, power)
+        summary = st.day_antenna.horizontal_summary(power)
         max_km = self.auto_max_km(summary["max_mv_m"])
         check_grid_size(b.size, distance_grid(st.freq_khz, max_km, spec.step_km).size, spec)
         radials = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, b, e1, max_km,

@@ -207,12 +207,22 @@ def test_directional_antenna_shapes_contours():
     import dataclasses
 
     arr = Array((Element(Tower(90.0)), Element(Tower(90.0), 1.0, -90.0, 90.0, 0.0)))
-    spec2 = dataclasses.replace(spec, station=dataclasses.replace(spec.station, antenna=arr),
-                                ground=GroundMap(ground_class("land")), community=None)
+    spec2 = dataclasses.replace(
+        spec, station=dataclasses.replace(spec.station, antenna=arr, pattern="theoretical"),
+        ground=GroundMap(ground_class("land")), community=None)
     res = Study(spec2).run(bearings=np.arange(0.0, 360.0, 10.0))
     c = res.contours[1].first_km
     assert c[0] > 1.1 * c[9]  # main lobe north (3 dB above east) reaches further than east
     assert np.isnan(c[18])  # the null due south: 2 mV/m is not reached even at one wavelength
+    # the standard pattern (47 CFR 73.150, the default for an array) fills the null with
+    # 1.05·Q: at 1 kW Q = 10·√1 mV/m (power branch), so 10.5 mV/m at 1 km reaches 2 mV/m
+    std = Study(dataclasses.replace(spec2, station=dataclasses.replace(
+        spec2.station, pattern=""))).run(bearings=np.arange(0.0, 360.0, 10.0))
+    assert std.spec.station.day_antenna.kind == "standard"
+    assert np.isfinite(std.contours[1].first_km[18])
+    ok = np.isfinite(c)
+    assert np.all(std.contours[1].first_km[ok] >= c[ok] - 0.25)  # never inside the theoretical
+    # contour; 0.25 km is the radial step
 
 
 MINIMAL = """

@@ -81,7 +81,7 @@ class NeighbourChecks:
         for n, off, ratio in self.day_ok:
             level = self.day_level[n.name] = n.day_level_mv_m(classes, off, prot)
             self.day_points[n.name] = protected_contour_points(
-                n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_day_kw, level,
+                n.freq_khz, spec.ground, n.lat, n.lon, n.day_antenna, n.power_day_kw, level,
                 self.brg, step_km=0.5, polygons=self.protected, key=(n.name, "day"), **common)
         # neighbours' night protection
         lo, hi = METHOD_DISTANCE_KM[plan.night.method]
@@ -104,7 +104,7 @@ class NeighbourChecks:
                 # its night ground-wave contour at the day level of that offset
                 level = n.day_level_mv_m(classes, off, prot)
                 nb, _, nlat, nlon = protected_contour_points(
-                    n.freq_khz, spec.ground, n.lat, n.lon, n.antenna, n.power_night_kw, level,
+                    n.freq_khz, spec.ground, n.lat, n.lon, n.night_antenna, n.power_night_kw, level,
                     self.brg, step_km=0.5, **common)
                 self.night_targets[n.name] = ("fixed", (nb, nlat, nlon),
                                               np.full(nb.shape, float(mv_m_to_dbu(level))))
@@ -168,11 +168,11 @@ class NeighbourChecks:
         rows: list[MarginRow] = []
         # received by day on the proposal's protected contour
         ob, _, olat, olon = protected_contour_points(
-            st.freq_khz, spec.ground, st.lat, st.lon, st.antenna, st.power_day_kw,
+            st.freq_khz, spec.ground, st.lat, st.lon, st.day_antenna, st.power_day_kw,
             plan.protected_day_mv_m, self.brg, step_km=max(spec.step_km, 0.25), **common)
         wanted = float(mv_m_to_dbu(plan.protected_day_mv_m))
         for n, off, ratio in self.day_ok:
-            u = point_ground_dbu(n.freq_khz, spec.ground, n.lat, n.lon, n.antenna,
+            u = point_ground_dbu(n.freq_khz, spec.ground, n.lat, n.lon, n.day_antenna,
                                  n.power_day_kw, olat, olon, **common)
             rows += [MarginRow("day received", n.name, off, ratio, float(b), float(a),
                                float(o), wanted, float(x))
@@ -207,7 +207,7 @@ class NeighbourChecks:
             if hit is not None:
                 brgs.append(hit[0])
                 dists.append(hit[1])
-        u_all = ground_dbu_along(st.freq_khz, spec.ground, st.lat, st.lon, st.antenna,
+        u_all = ground_dbu_along(st.freq_khz, spec.ground, st.lat, st.lon, st.day_antenna,
                                  st.power_day_kw, np.concatenate(brgs), np.concatenate(dists),
                                  **common)
         k = 0

@@ -167,7 +167,7 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
     groups: dict = {}
     for i, t in enumerate(txs):
         if t.power_night_kw > 0:
-            groups.setdefault((t.antenna, float(t.power_night_kw), float(t.freq_khz)), []).append(i)
+            groups.setdefault((t.night_antenna, float(t.power_night_kw), float(t.freq_khz)), []).append(i)
     sky = np.full((n_tx, n_pts), -np.inf)
     for (antenna, power, freq), rows in groups.items():
         rows = np.array(rows)
@@ -193,7 +193,7 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
     best = max(spec.ground.grounds, key=lambda g: g.sigma_ms_m)
     ground = np.full((n_tx, n_pts), -np.inf)
     bound = np.full((n_tx, n_pts), -np.inf)
-    e_max = np.array([_max_horizontal_mv_m(t.antenna, float(t.power_night_kw))
+    e_max = np.array([_max_horizontal_mv_m(t.night_antenna, float(t.power_night_kw))
                       if t.power_night_kw > 0 else 0.0 for t in txs])
     for freq in {float(t.freq_khz) for t in txs}:
         rows = np.array([i for i, t in enumerate(txs)
@@ -224,7 +224,7 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
             tight[sel] = model(t.freq_khz, secs.grounds[gi], spec.earth_k).curve_db(d[i][need[sel]])
         need = need[tight + mv_m_to_dbu(e_max[i]) > sky[i][need]]
         if need.size:
-            ground[i, need] = point_ground_dbu(t.freq_khz, spec.ground, t.lat, t.lon, t.antenna,
+            ground[i, need] = point_ground_dbu(t.freq_khz, spec.ground, t.lat, t.lon, t.night_antenna,
                                                t.power_night_kw, pts_lat[need], pts_lon[need],
                                                spec.mixed_path, spec.earth_k)
     ground = np.where(np.isnan(ground), -np.inf, ground)

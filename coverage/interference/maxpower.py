@@ -64,15 +64,15 @@ def _class_range(max_power: dict, st, klass) -> None:
     neighbours allow is kept as ``neighbours_allow_kw``). A class B station may also go below
     0.25 kW if its RMS field is at least 141 mV/m at 1 km; a class D station at night must
     stay below both."""
-    rms_1kw = None
     for period, p0 in (("day", st.power_day_kw), ("night", st.power_night_kw)):
         rng = klass.power_range_kw(period, st.freq_khz)
         if rng is None or p0 <= 0:
             continue
         lo, hi = rng
         if klass.min_rms_mv_m is not None:
-            if rms_1kw is None:
-                rms_1kw = float(st.antenna.horizontal_summary(1.0)["rms_mv_m"])
+            # the theoretical RMS of the period's towers: 73.150(b)(1)(i) ties the minimum
+            # field of 73.189(b)(2) to the theoretical pattern's size (read)
+            rms_1kw = float(st.facility(period).array.rms_mv_m(1.0))
             p_rms = (klass.min_rms_mv_m / rms_1kw) ** 2  # power giving that RMS field
             if period == "night" and lo == 0.0:
                 hi = min(hi, p_rms)  # class D at night: below 0.25 kW and below 141 mV/m

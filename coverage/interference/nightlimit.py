@@ -210,7 +210,7 @@ def skywave_service_points(n: Station, level_mv_m: float, bearings, night: Night
     bb, dd = np.meshgrid(bearings, dist, indexing="ij")
     plat, plon = fwd_points(n.lat, n.lon, bb.ravel(), dd.ravel())
     half = dataclasses.replace(night, percent=50)
-    f = sky_dbu_from(n.lat, n.lon, n.freq_khz, n.antenna, n.power_night_kw, plat, plon,
+    f = sky_dbu_from(n.lat, n.lon, n.freq_khz, n.night_antenna, n.power_night_kw, plat, plon,
                      half).reshape(bb.shape)
     level = float(mv_m_to_dbu(level_mv_m))
     above = np.where(np.isnan(f), False, f >= level)
@@ -271,7 +271,7 @@ def neighbour_night_base(n: Neighbour, others, spec, plan: InterferencePlan, bea
     """A class B/C neighbour's night contour at the higher of ``level_mv_m`` and its own night
     limit from ``others`` ((station, ratio dB) of the listed stations that interfere with it),
     iterated (contour → limit on it → contour) until the limit moves less than CONVERGED_DB."""
-    e1 = n.antenna.field_mv_m(bearings, 0.0, n.power_night_kw)
+    e1 = n.night_antenna.field_mv_m(bearings, 0.0, n.power_night_kw)
     max_km = radial_length_km(n.freq_khz, spec.ground, level_mv_m, float(e1.max()), spec.earth_k)
     rad = radial_fields(n.freq_khz, spec.ground, n.lat, n.lon, bearings, e1, max_km, 0.5,
                         spec.mixed_path, spec.earth_k)

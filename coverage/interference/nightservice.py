@@ -63,7 +63,7 @@ def night_service(spec, plan: InterferencePlan, interferers, skipped=None) -> Ni
     st = spec.station
     p = st.power_night_kw
     bearings = np.arange(0.0, 360.0 - 1e-9, plan.night.bearing_step_deg)
-    e1 = st.antenna.field_mv_m(bearings, 0.0, p)
+    e1 = st.night_antenna.field_mv_m(bearings, 0.0, p)
     max_km = radial_length_km(st.freq_khz, spec.ground, night_floor_mv_m(spec, plan),
                               float(e1.max()), spec.earth_k)
     rad = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, bearings, e1, max_km,

@@ -30,11 +30,11 @@ def _day_radials(s: Station, level_mv_m: float, spec, bearings=OVERLAP_BEARINGS,
     contour at ``level_mv_m`` unless ``max_km`` is given."""
     brg = np.asarray(bearings, dtype=float)
     if max_km is None:
-        e1 = s.antenna.field_mv_m(OVERLAP_BEARINGS, 0.0, s.power_day_kw)
+        e1 = s.day_antenna.field_mv_m(OVERLAP_BEARINGS, 0.0, s.power_day_kw)
         max_km = radial_length_km(s.freq_khz, spec.ground, level_mv_m, float(e1.max()),
                                   spec.earth_k, min_km=2.0)
     return radial_fields(s.freq_khz, spec.ground, s.lat, s.lon, brg,
-                         s.antenna.field_mv_m(brg, 0.0, s.power_day_kw), max_km, 0.25,
+                         s.day_antenna.field_mv_m(brg, 0.0, s.power_day_kw), max_km, 0.25,
                          spec.mixed_path, spec.earth_k)
 
 
