@@ -102,14 +102,18 @@ def _cmd_antenna(args) -> int:
     import numpy as np
 
     from .antenna import HEIGHT_RANGE_DEG, Array, Tower, height_m
-    from .inputs import array_from_table, read_toml
+    from .inputs import facility_from_table, read_toml
+    from .pattern import StandardPattern
 
     freq = _freq(args)
     power = check_finite("--power-kw", args.power_kw, 0.0, 1e4, low_open=True)
+    elev = check_finite("--elevation-deg", args.elevation_deg, 0.0, 90.0)
+    augmentations = ()
     if args.array:
         if args.height_deg is not None or args.height_m is not None:
             raise UsageError("give --array FILE or a single tower's height, not both")
-        array = array_from_table(read_toml(args.array, "array file"), freq, args.array)
+        fac = facility_from_table(read_toml(args.array, "array file"), freq, args.array)
+        array, augmentations = fac.array, fac.augmentations
     else:
         if (args.height_deg is None) == (args.height_m is None):
             raise UsageError("give exactly one of --height-deg, --height-m or --array")
@@ -128,11 +132,19 @@ def _cmd_antenna(args) -> int:
         array = Array.single(tower)
     args.freq_khz, args.power_kw = freq, power
     summ = array.horizontal_summary(args.power_kw)
-    pattern = array.field_mv_m(np.arange(360.0), 0.0, args.power_kw)
+    azimuths = np.arange(360.0)
+    pattern = array.field_mv_m(azimuths, elev, args.power_kw)
     single = len(array.elements) == 1
+    std = None
+    if not single:  # 47 CFR 73.150: the standard pattern at this power, with the augmentations
+        try:
+            std = StandardPattern(array, args.power_kw, augmentations)
+        except ValueError as exc:
+            raise ValueError(f"{exc} in {args.array}") from None
     out = {
         "freq_khz": args.freq_khz,
         "power_kw": args.power_kw,
+        "elevation_deg": elev,
         "towers": len(array.elements),
         "e1km_mv_m": summ["rms_mv_m"],
         "max_mv_m": summ["max_mv_m"],
@@ -144,6 +156,12 @@ def _cmd_antenna(args) -> int:
             array.elements[0].tower.radiation_resistance_ohm if single else None
         ),
         "pattern_mv_m": [float(v) for v in pattern],
+        "rms_mv_m": float(array.rms_mv_m(args.power_kw, elev)),
+        "standard_pattern_mv_m": (None if std is None else
+                                  [float(v) for v in std.field_mv_m(azimuths, elev,
+                                                                    args.power_kw)]),
+        "standard_rms_mv_m": None if std is None else std.rms_mv_m(args.power_kw, elev),
+        "augmentations": len(augmentations),
     }
     if args.json:
         print(json.dumps(out, indent=1))
@@ -159,6 +177,17 @@ def _cmd_antenna(args) -> int:
     print(f"  RMS field at 1 km    {out['e1km_mv_m']:.1f} mV/m (horizontal plane)")
     print(f"  maximum              {out['max_mv_m']:.1f} mV/m at {out['max_azimuth_deg']:.1f}°")
     print(f"  minimum              {out['min_mv_m']:.2f} mV/m at {out['min_azimuth_deg']:.1f}°")
+    if std is not None:
+        at = f"at {elev:g}° elevation" if elev else "horizontal plane"
+        print(f"  standard pattern     RMS {out['standard_rms_mv_m']:.1f} mV/m ({at}; "
+              f"47 CFR 73.150, Q = {float(std.q_mv_m(elev)):.2f} mV/m from the "
+              f"{'E_rss' if std.q_branch() == 'rss' else 'power'} term"
+              + (f", {len(augmentations)} augmentation(s)" if augmentations else "") + ")")
+        e_th = pattern
+        e_std = np.asarray(out["standard_pattern_mv_m"])
+        print(f"  {'azimuth':>8} {'theoretical':>12} {'standard':>10}   [mV/m at 1 km, {at}]")
+        for az in range(0, 360, 30):
+            print(f"  {az:>7}° {e_th[az]:>12.1f} {e_std[az]:>10.1f}")
     return 0
 
 
@@ -187,6 +216,8 @@ class _Progress:
 
 def _cmd_run(args) -> int:
     from .export import write_outputs
+    from .report import describe_period
+    from .station import period_rows
     from .study import Study
 
     from .export import OUTPUT_NAMES
@@ -202,6 +233,8 @@ def _cmd_run(args) -> int:
     print(f"{st.name}: {st.freq_khz:g} kHz, {st.power_day_kw:g} kW day, "
           f"{result.antenna_summary['rms_mv_m']:.1f} mV/m RMS at 1 km, "
           f"site {st.lat:.5f}, {st.lon:.5f}")
+    for row in period_rows(st):
+        print(f"  {describe_period(row)}")
     for a, b in result.spec.ground.overlaps:
         print(f"note: ground zones '{a}' and '{b}' overlap; '{b}' (later) is used there")
     for note in result.spec.input_notes:
@@ -862,7 +895,11 @@ def build_parser() -> argparse.ArgumentParser:
                    help="loss resistance at the current loop (base if shorter than 90°) [Ω]; "
                         "default 0")
     a.add_argument("--efficiency", type=float, help="radiation efficiency (0–1]")
-    a.add_argument("--array", type=_path, help="TOML file with rotation_deg and [[tower]] tables")
+    a.add_argument("--array", type=_path,
+                   help="TOML file with rotation_deg, [[tower]] tables and optionally pattern "
+                        "and [[augmentation]] tables")
+    a.add_argument("--elevation-deg", type=float, default=0.0,
+                   help="elevation angle of the patterns [deg], 0–90")
     a.add_argument("--json", action="store_true", help="print JSON instead of text")
     a.set_defaults(func=_cmd_antenna)
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import datetime as _dt
 import io
 import json
 import math
@@ -11,6 +12,9 @@ from xml.sax.saxutils import escape
 import numpy as np
 
 from .groundwave import mv_m_to_dbu
+from .pattern import elevation_table
+from .station import period_rows
+from .sun import MID_MONTH_DAY, monthly_sun_times
 from .report import field_text, margin_text, mv_m_text
 from .inputs import spec_to_doc
 from . import version
@@ -24,7 +28,7 @@ KM_PER_MI = 1.609344
 #: Every file a run may write; a new run replaces the whole set (a file the new run does not
 #: produce, such as night.json after the night part was removed, goes too).
 OUTPUT_NAMES = ("summary.json", "radials.csv", "contours.geojson", "contours.kml", "night.json",
-                "interference.csv")
+                "interference.csv", "patterns.csv")
 
 
 def _num(v, digits: int | None = None):
@@ -80,6 +84,9 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
             "radial_length_km": result.max_km,
         },
         "community": spec.community.name if spec.community else None,
+        "operating_periods": [{k: (v if isinstance(v, (str, list)) else _num(v))
+                               for k, v in row.items()} for row in period_rows(st)],
+        "sun": sun_summary(spec),
         "inputs": spec_to_doc(spec),
         "levels": [{k: (v if isinstance(v, str) else
                         _num(v, SHARE_DIGITS if k == "community_share" else None))
@@ -92,6 +99,41 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
     if extra:
         out.update(extra)
     return out
+
+
+def sun_summary(spec) -> dict:
+    """Month-by-month sunrise, sunset and critical hours at the site (coverage/sun.py)."""
+    year = spec.output.get("sun_year") or _dt.date.today().year
+    offset = spec.output.get("utc_offset_h")
+    st = spec.station
+    return {"year": year, "day_of_month": MID_MONTH_DAY, "utc_offset_h": offset,
+            "clock": "UTC" if offset is None else f"local standard time (UTC{offset:+g} h)",
+            "source": "Meeus, Astronomical Algorithms, ch. 25 and 28; sun's centre 0.833 deg "
+                      "below the horizon; critical hours per 47 CFR 73.187(a)",
+            "months": monthly_sun_times(st.lat, st.lon, year, offset)}
+
+
+def patterns_csv(spec) -> str:
+    """The pattern of each operating period every 5° of elevation (0–60°) and every
+    ``table_step_deg`` of azimuth [mV/m at 1 km at the period's power]: theoretical and the
+    pattern the rules use (standard, with augmentations), as 47 CFR 73.150(b)(1) tabulates."""
+    st = spec.station
+    step = float(spec.output.get("table_step_deg", 10.0))
+    buf = io.StringIO()
+    w = csv_writer(buf)
+    w.writerow(["period", "pattern", "power_kw", "elevation_deg", "azimuth_deg",
+                "theoretical_mv_m", "pattern_mv_m"])
+    for row in period_rows(st):
+        if row["power_kw"] <= 0:
+            continue
+        t = elevation_table(st.radiator(row["period"]), row["power_kw"],
+                            np.arange(0.0, 360.0 - 1e-9, step))
+        for i, el in enumerate(t["elevation_deg"]):
+            for j, az in enumerate(t["azimuth_deg"]):
+                w.writerow([row["period"], row["pattern"], f"{row['power_kw']:g}", f"{el:g}",
+                            f"{az:g}", f"{t['theoretical_mv_m'][i, j]:.2f}",
+                            f"{t['pattern_mv_m'][i, j]:.2f}"])
+    return buf.getvalue()
 
 
 def radials_csv(result: StudyResult) -> str:
@@ -437,6 +479,7 @@ def write_outputs(result: StudyResult, out_dir, extra_summary=None, extra_featur
         "radials.csv": radials_csv(result),
         "contours.geojson": json_text(gj),
         "contours.kml": contours_kml(gj, result.spec.title),
+        "patterns.csv": patterns_csv(result.spec),
     }
     files.update(extra_files or {})
     return write_set(out, files, known_names=OUTPUT_NAMES, inputs=result.spec.input_files)

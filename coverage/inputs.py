@@ -44,6 +44,8 @@ __all__ = [
     "read_boundary",
     "array_from_table",
     "array_to_table",
+    "facility_from_table",
+    "facility_to_table",
     "neighbour_from_table",
     "read_neighbours_csv",
     "protection_from_table",
@@ -252,7 +254,7 @@ def _table(doc: dict, key: str, where: str) -> dict:
 #: channel has hundreds of neighbours, a band-wide list a few thousand), low enough that a
 #: pasted column of 100 000 values is refused at once rather than run for hours
 LIST_LIMITS = {"bearings": 3600, "contour": 20, "neighbour": 10_000, "station_class": 100,
-               "zones": 10_000, "readings": 100_000}
+               "zones": 10_000, "readings": 100_000, "augmentation": 72}
 
 
 def check_count(key: str, n: int, where: str) -> None:
@@ -458,6 +460,62 @@ def array_from_table(table: dict, freq_khz: float, where: str):
         raise ValueError(f"{exc} in {where}") from None
 
 
+FACILITY_KEYS = ("rotation_deg", "tower", "pattern", "augmentation")
+AUGMENTATION_KEYS = ("azimuth_deg", "span_deg", "field_mv_m")
+
+
+def facility_from_table(table: dict, freq_khz: float, where: str):
+    """A :class:`~.pattern.Facility` (towers, pattern kind, augmentations) from an antenna
+    table of a study (``[antenna]``, ``[antenna_night]`` …) or an array file."""
+    from .pattern import PATTERN_KINDS, Augmentation, Facility
+
+    check_keys(table, FACILITY_KEYS, where, required=("tower",))
+    array = array_from_table({k: table[k] for k in ("rotation_deg", "tower") if k in table},
+                             freq_khz, where)
+    kind = ""
+    if "pattern" in table:
+        kind = choice("pattern", table["pattern"], PATTERN_KINDS, where)
+    augs = table.get("augmentation", [])
+    if not isinstance(augs, list):
+        raise ValueError(f"'augmentation' must be a list of [[augmentation]] tables in {where}")
+    check_count("augmentation", len(augs), where)
+    parsed = []
+    for i, t in enumerate(augs, 1):
+        wa = where_join(f"augmentation {i}", where)
+        if not isinstance(t, dict):
+            raise ValueError(f"augmentation {i} must be a table in {where}")
+        check_keys(t, AUGMENTATION_KEYS, wa, required=AUGMENTATION_KEYS)
+        num = {k: check_finite(k, t[k], where=wa) for k in AUGMENTATION_KEYS}
+        try:
+            parsed.append(Augmentation(**num))
+        except ValueError as exc:
+            raise ValueError(f"{exc} in {wa}") from None
+    try:
+        return Facility(array, kind, tuple(parsed))
+    except ValueError as exc:
+        raise ValueError(f"{exc} in {where}") from None
+
+
+def _check_facility(fac, power_kw: float, where: str) -> None:
+    """Build the facility's pattern at its power now, so that a refused augmentation names
+    the table it came from."""
+    try:
+        fac.radiator(power_kw if power_kw > 0 else 1.0)
+    except ValueError as exc:
+        raise ValueError(f"{exc} in {where}") from None
+
+
+def facility_to_table(array, kind: str = "", augmentations=()) -> dict:
+    """Inverse of :func:`facility_from_table`, for writing studies."""
+    out = array_to_table(array)
+    if kind:
+        out["pattern"] = kind
+    if augmentations:
+        out["augmentation"] = [{"azimuth_deg": a.azimuth_deg, "span_deg": a.span_deg,
+                                "field_mv_m": a.field_mv_m} for a in augmentations]
+    return out
+
+
 def array_to_table(array) -> dict:
     """Inverse of :func:`array_from_table` (electrical heights), for writing studies."""
     towers = []
@@ -478,8 +536,8 @@ def array_to_table(array) -> dict:
 # --- neighbours ------------------------------------------------------------------------------
 
 NEIGHBOUR_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw",
-                  "height_deg", "height_m", "loss_ohm", "array", "protected_day_mv_m",
-                  "protected_night_mv_m", "class")
+                  "height_deg", "height_m", "loss_ohm", "array", "array_night",
+                  "protected_day_mv_m", "protected_night_mv_m", "class")
 NEIGHBOUR_REQUIRED = ("name", "lat", "lon", "freq_khz", "power_day_kw")
 _NEIGHBOUR_NUMBERS = ("lat", "lon", "freq_khz", "power_day_kw", "power_night_kw", "height_deg",
                       "height_m", "loss_ohm", "protected_day_mv_m", "protected_night_mv_m")
@@ -507,14 +565,24 @@ def neighbour_from_table(t: dict, where: str, base: pathlib.Path, inputs: list |
     given = [k for k in ("height_deg", "height_m", "array") if k in t]
     if len(given) != 1:
         raise ValueError(f"give exactly one of height_deg, height_m or array in {where}")
-    desc = {k: t[k] for k in ("height_deg", "height_m", "loss_ohm", "array") if k in t}
+    desc = {k: t[k] for k in ("height_deg", "height_m", "loss_ohm", "array", "array_night")
+            if k in t}
+    kind, augs, night = "", (), None
+    if "array_night" in t:  # the night facility: its own array file
+        npath = file_key(t, "array_night", where, base, "array file")
+        if inputs is not None:
+            inputs.append(npath)
+        night = facility_from_table(read_toml(npath, "array file"), freq, str(npath))
+        _check_facility(night, p_night, str(npath))
     if given[0] == "array":
         apath = file_key(t, "array", where, base, "array file")
         if inputs is not None:
             inputs.append(apath)
         if "loss_ohm" in t:
             raise ValueError(f"give loss_ohm inside the array file, not beside array, in {where}")
-        antenna = array_from_table(read_toml(apath, "array file"), freq, str(apath))
+        fac = facility_from_table(read_toml(apath, "array file"), freq, str(apath))
+        _check_facility(fac, p_day, str(apath))
+        antenna, kind, augs = fac.array, fac.kind, fac.augmentations
     else:
         loss = check_finite("loss_ohm", t.get("loss_ohm", 0.0), 0.0, 1e4, where=where)
         h = check_finite(given[0], t[given[0]], where=where)
@@ -532,7 +600,7 @@ def neighbour_from_table(t: dict, where: str, base: pathlib.Path, inputs: list |
               for k in ("protected_day_mv_m", "protected_night_mv_m") if k in t}
     return Neighbour(
         name=name, lat=lat, lon=lon, freq_khz=freq, power_day_kw=p_day,
-        power_night_kw=p_night, antenna=antenna,
+        power_night_kw=p_night, antenna=antenna, pattern=kind, augmentations=augs, night=night,
         protected_day_mv_m=levels.get("protected_day_mv_m"),
         protected_night_mv_m=levels.get("protected_night_mv_m"),
         antenna_desc=desc, station_class=str(klass).upper(),
@@ -653,16 +721,19 @@ def night_from_table(t: dict, where: str):
 
 # --- the study file --------------------------------------------------------------------------
 
-SECTIONS = ("study", "station", "antenna", "ground", "contour", "community", "output", "night",
-            "interference", "protection", "neighbour", "station_class")
+SECTIONS = ("study", "station", "antenna", "antenna_night", "antenna_critical", "ground",
+            "contour", "community", "output", "night", "interference", "protection", "neighbour",
+            "station_class")
 CLASS_KEYS = ("name", "day_mv_m", "night", "night_mv_m", "source")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
               "step_km")
-STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw", "class")
+STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw",
+                "power_critical_kw", "class")
 GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones")
 CONTOUR_KEYS = ("field_mv_m", "label")
 COMMUNITY_KEYS = ("name", "boundary")
-OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg")
+OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg", "utc_offset_h",
+               "sun_year")
 INTERFERENCE_KEYS = ("protected_day_mv_m", "contour_step_deg", "neighbours")
 
 
@@ -716,14 +787,34 @@ def parse_study(doc: dict, path="<study>"):
     p_day = check_finite("power_day_kw", sta["power_day_kw"], 0.0, 1e4, where=w, low_open=True)
     p_night = check_finite("power_night_kw", sta.get("power_night_kw", p_day), 0.0, 1e4, where=w)
     name = text_value("name", sta.get("name", "unnamed station"), w)
-    array = array_from_table(_table(doc, "antenna", fname), freq, where_join("[antenna]", fname))
+    p_crit = None
+    if "power_critical_kw" in sta:
+        p_crit = check_finite("power_critical_kw", sta["power_critical_kw"], 0.0, 1e4, where=w,
+                              low_open=True)
+    day = facility_from_table(_table(doc, "antenna", fname), freq, where_join("[antenna]", fname))
+    own = {p: facility_from_table(_table(doc, f"antenna_{p}", fname), freq,
+                                  where_join(f"[antenna_{p}]", fname))
+           for p in ("night", "critical") if f"antenna_{p}" in doc}
+    if "night" not in own and p_night > 0:
+        notes.append("no [antenna_night]: night checks use the day antenna at the night power")
+    if "critical" in own and p_crit is None:
+        notes.append("[antenna_critical] without power_critical_kw: the critical hours use the "
+                     "day power")
     klass = sta.get("class", "B")
     if not isinstance(klass, str):
         raise ValueError(f"class must be text in quotes (got {_show(klass)}) in {w}")
     from .classes import station_class
 
     klass = station_class(klass.upper(), _classes(doc, fname), w).name
-    station = Station(name, lat, lon, freq, p_day, p_night, array, klass)
+    for period, fac, power in (("", day, p_day), ("_night", own.get("night"), p_night),
+                               ("_critical", own.get("critical"), p_crit or p_day)):
+        if fac is not None:
+            _check_facility(fac, power, where_join(f"[antenna{period}]", fname))
+    try:
+        station = Station(name, lat, lon, freq, p_day, p_night, day.array, klass, day.kind,
+                          day.augmentations, own.get("night"), own.get("critical"), p_crit)
+    except ValueError as exc:
+        raise ValueError(f"{exc} in {fname}") from None
 
     gr = _table(doc, "ground", fname)
     w = where_join("[ground]", fname)
@@ -783,6 +874,14 @@ def parse_study(doc: dict, path="<study>"):
         choice("paper", out["paper"], ("A4", "Letter"), w)
     if "orientation" in out:
         choice("orientation", out["orientation"], ("portrait", "landscape"), w)
+    if "utc_offset_h" in out:  # the site's standard time, for sunrise and sunset
+        output["utc_offset_h"] = check_finite("utc_offset_h", out["utc_offset_h"], -12.0, 14.0,
+                                              where=w)
+    if "sun_year" in out:
+        year = check_finite("sun_year", out["sun_year"], 1900, 2100, where=w)
+        if year != int(year):
+            raise ValueError(f"sun_year must be a whole year (got {out['sun_year']!r}) in {w}")
+        output["sun_year"] = int(year)
     if "table_step_deg" in out:
         output["table_step_deg"] = check_finite("table_step_deg", out["table_step_deg"], 1.0,
                                                 90.0, where=w)
@@ -1076,7 +1175,13 @@ def spec_to_doc(spec) -> dict:
     doc["station"] = {"name": s.name, "lat": s.lat, "lon": s.lon, "freq_khz": s.freq_khz,
                       "power_day_kw": s.power_day_kw, "power_night_kw": s.power_night_kw,
                       "class": s.station_class}
-    doc["antenna"] = array_to_table(s.antenna)
+    if s.power_critical_kw is not None:
+        doc["station"]["power_critical_kw"] = s.power_critical_kw
+    doc["antenna"] = facility_to_table(s.antenna, s.pattern, s.augmentations)
+    for period in ("night", "critical"):
+        fac = getattr(s, period)
+        if fac is not None:
+            doc[f"antenna_{period}"] = facility_to_table(fac.array, fac.kind, fac.augmentations)
     g = spec.ground.default
     ground = {"class": spec.ground_class} if spec.ground_class else {
         "sigma_ms_m": g.sigma_ms_m, "eps_r": g.eps_r}

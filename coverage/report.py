@@ -111,3 +111,21 @@ def format_kw(kw: float) -> str:
     if kw >= 100:
         return f"{kw:.0f}"
     return f"{kw:.3g}" if kw >= 1e-3 else f"{kw:.6f}"
+
+
+def describe_period(row: dict) -> str:
+    """One line for an operating period (a row of :func:`~.station.period_rows`)."""
+    towers = f"{row['towers']} tower{'s' if row['towers'] > 1 else ''}"
+    own = "" if row["own_facility"] else " (the day antenna)"
+    kind = "non-directional" if row["towers"] == 1 else f"{row['pattern']} pattern"
+    text = f"{row['period']}: {kind}, {towers}{own}, {format_kw(row['power_kw'])} kW"
+    if row["rms_mv_m"] is not None:
+        text += f", RMS {row['rms_mv_m']:.1f} mV/m at 1 km"
+        if row["pattern"] == "standard":
+            text += f" (theoretical {row['theoretical_rms_mv_m']:.1f})"
+    if row.get("q_mv_m") is not None:
+        text += f", Q {row['q_mv_m']:.2f} mV/m ({row['q_term']} term)"
+    n = len(row.get("augmentations") or ())
+    if n:
+        text += f", {n} augmentation{'s' if n > 1 else ''}"
+    return text

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from .antenna import Array
 from .pattern import Augmentation, Facility
 
-__all__ = ["Station", "PERIODS"]
+__all__ = ["Station", "PERIODS", "period_rows"]
 
 PERIODS = ("day", "night", "critical")
 
@@ -42,7 +42,9 @@ class Station:
     power_critical_kw: float | None = None
 
     def __post_init__(self):
-        _ = self.facility("day")  # refuse a bad day pattern (kind, augmentations) now
+        for period in PERIODS:  # refuse a bad pattern (kind, augmentations) now, not mid-run
+            if self.has_own(period):
+                _ = self.radiator(period)
 
     def klass(self, table: dict | None = None):
         """The station's :class:`~.classes.StationClass` from ``table`` (default: built-in)."""
@@ -70,7 +72,11 @@ class Station:
         return self.power_day_kw
 
     def radiator(self, period: str = "day"):
-        """The pattern the rules use in ``period``, built at that period's power."""
+        """The pattern the rules use in ``period``. A period with its own facility has it built
+        at its own power; a period without one uses the day pattern as filed (built at the day
+        power), which callers scale to their power (fields ∝ √P)."""
+        if not self.has_own(period):
+            period = "day"
         power = self.power_kw(period)
         # a period without power (a daytime-only station at night) still has a pattern shape
         return self.facility(period).radiator(power if power > 0 else 1.0)
@@ -84,3 +90,32 @@ class Station:
     def night_antenna(self):
         """The night radiator (the night facility, else the day antenna, at night power)."""
         return self.radiator("night")
+
+
+def period_rows(station: Station) -> list[dict]:
+    """One row per operating period the station has: its pattern kind, towers, power, RMS
+    fields [mV/m at 1 km] and, for a standard pattern, Q at the horizon and the augmentations
+    with their A. The critical hours appear only when the study gives them a facility or a
+    power of their own."""
+    rows = []
+    for period in PERIODS:
+        if (period == "critical" and station.critical is None
+                and station.power_critical_kw is None):
+            continue
+        power = station.power_kw(period)
+        fac = station.facility(period)
+        rad = station.radiator(period)
+        row = {"period": period, "own_facility": station.has_own(period), "pattern": fac.kind,
+               "towers": len(fac.array.elements), "power_kw": power,
+               "theoretical_rms_mv_m": None, "rms_mv_m": None}
+        if power > 0:
+            row["theoretical_rms_mv_m"] = float(fac.array.rms_mv_m(power))
+            row["rms_mv_m"] = float(rad.rms_mv_m(power))
+        if rad.kind == "standard":
+            row |= {"q_mv_m": float(rad.q_mv_m(0.0)), "q_term": rad.q_branch(),
+                    "built_at_kw": rad.power_kw,
+                    "augmentations": [{"azimuth_deg": a.azimuth_deg, "span_deg": a.span_deg,
+                                       "field_mv_m": a.field_mv_m, "a_mv_m_sq": v}
+                                      for a, v in zip(rad.augmentations, rad.a_values)]}
+        rows.append(row)
+    return rows
