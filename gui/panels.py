@@ -34,6 +34,7 @@ from mwreach.coverage.report import (
     citation,
     describe_max_power,
     field_text,
+    format_kw,
     margin_text,
     mv_m_text,
     summary_cells,
@@ -257,7 +258,25 @@ class _TableEditor(_Editor):
             self._changed()
 
 
+#: the operating periods the antenna tab edits, and the study table of each
+PERIOD_SECTIONS = (("day", "Day", "antenna"), ("night", "Night", "antenna_night"),
+                   ("critical", "Critical hours", "antenna_critical"))
+PATTERN_CHOICES = (("", "Standard for 2+ towers (47 CFR 73.150)"),
+                   ("standard", "Standard (47 CFR 73.150)"),
+                   ("theoretical", "Theoretical (design view)"))
+
+
+class AugmentationEditor(_TableEditor):
+    """Augmentations of the selected period's standard pattern (47 CFR 73.152)."""
+
+    COLUMNS = [("azimuth_deg", "Central azimuth [deg true]"), ("span_deg", "Span [deg]"),
+               ("field_mv_m", "Augmented field [mV/m at 1 km]")]
+    DOC_PATH = ("antenna", "augmentation")
+
+
 class AntennaEditor(_TableEditor):
+    """Towers, pattern kind and augmentations of each operating period's antenna."""
+
     COLUMNS = [("height_deg", "Height [deg]"), ("height_m", "Height [m]"),
                ("top_loading_deg", "Top loading [deg]"), ("field_ratio", "Field ratio"),
                ("phase_deg", "Phase [deg]"), ("spacing_deg", "Spacing [deg]"),
@@ -266,27 +285,120 @@ class AntennaEditor(_TableEditor):
     exclusive = (("height_deg", "height_m"), ("loss_ohm", "efficiency"))
 
     def __init__(self, document, parent=None):
+        self.period = "day"
+        self.DOC_PATH = ("antenna", "tower")
         super().__init__(document, parent)
-        self.heights = QLabel()
-        self.heights.setWordWrap(True)
-        self.layout().insertWidget(2, self.heights)
-        row = QHBoxLayout()
-        row.addWidget(QLabel("Array rotation [deg]"))
+        lay = self.layout()
+        top = QFormLayout()
+        self.period_box = QComboBox()
+        self.period_box.setObjectName("antenna_period")
+        for key, label, _ in PERIOD_SECTIONS:
+            self.period_box.addItem(label, key)
+        self.period_box.currentIndexChanged.connect(self._period_changed)
+        top.addRow("Operating period", self.period_box)
+        own_row = QHBoxLayout()
+        self.own_label = QLabel()
+        self.own_label.setWordWrap(True)
+        self.own_btn = QPushButton()
+        self.own_btn.clicked.connect(self._toggle_own)
+        own_row.addWidget(self.own_label, 1)
+        own_row.addWidget(self.own_btn)
+        top.addRow(own_row)
+        self.pattern_box = QComboBox()
+        self.pattern_box.setObjectName("antenna_pattern")
+        for key, label in PATTERN_CHOICES:
+            self.pattern_box.addItem(label, key)
+        self.pattern_box.currentIndexChanged.connect(self._pattern)
+        top.addRow("Pattern used for service and interference", self.pattern_box)
         self.rotation = QLineEdit()
         self.rotation.editingFinished.connect(self._rotation)
-        row.addWidget(self.rotation)
-        self.layout().insertLayout(0, row)
+        top.addRow("Array rotation [deg]", self.rotation)
+        lay.insertLayout(0, top)
+        self.heights = QLabel()
+        self.heights.setWordWrap(True)
+        lay.insertWidget(2, self.heights)
+        self.aug_label = QLabel("Augmentations of the standard pattern (47 CFR 73.152): the "
+                                "field at the central azimuth, at this period's power; the "
+                                "pattern merges back at the span's edges.")
+        self.aug_label.setWordWrap(True)
+        lay.addWidget(self.aug_label)
+        self.augmentations = AugmentationEditor(document)
+        lay.addWidget(self.augmentations)
 
-    DOC_PATH = ("antenna", "tower")
+    @property
+    def section(self) -> str:
+        return dict((k, s) for k, _, s in PERIOD_SECTIONS)[self.period]
+
+    def _period_changed(self, *_):
+        self.period = self.period_box.currentData()
+        self.DOC_PATH = (self.section, "tower")
+        self.augmentations.DOC_PATH = (self.section, "augmentation")
+        self.message.setText("")
+        self.augmentations.message.setText("")
+        self.rotation.setStyleSheet("")
+        self.refresh()
+
+    def _has_own(self) -> bool:
+        return self.period == "day" or self.section in self.document.doc
+
+    def _toggle_own(self):
+        section = self.section
+        if self.period == "day":
+            return
+        if section in self.document.doc:
+            self.apply(lambda d: d.pop(section, None))
+        else:  # start from the day antenna's towers
+            def mutate(d):
+                day = copy.deepcopy(d.get("antenna", {}))
+                day.pop("augmentation", None)
+                d[section] = day
+            self.apply(mutate)
+
+    def _pattern(self, *_):
+        if self._loading or not self._has_own():
+            return
+        kind, section = self.pattern_box.currentData(), self.section
+
+        def mutate(d):
+            table = d.setdefault(section, {})
+            if kind:
+                table["pattern"] = kind
+            else:
+                table.pop("pattern", None)
+        self.apply(mutate, None)
 
     def refresh(self):
-        super().refresh()
-        if not self.rotation.styleSheet():
-            self.rotation.setText(f"{self.document.spec.station.antenna.rotation_deg:g}")
         st = self.document.spec.station
-        phys = ", ".join(f"{float(height_m(e.tower.height_deg, st.freq_khz)):.1f} m"
-                         for e in st.antenna.elements)
-        elec = ", ".join(f"{e.tower.height_deg:.1f}°" for e in st.antenna.elements)
+        own = self._has_own()
+        label = dict((k, lab) for k, lab, _ in PERIOD_SECTIONS)[self.period]
+        if self.period == "day":
+            self.own_label.setText("The day antenna; a period without its own antenna uses it.")
+            self.own_btn.hide()
+        else:
+            self.own_btn.show()
+            self.own_label.setText(
+                f"{label}: its own antenna." if own else
+                f"{label}: uses the day antenna at the {label.lower()} power.")
+            self.own_btn.setText("Use the day antenna" if own else "Give it its own antenna")
+        for w in (self.table, self.add_btn, self.del_btn, self.pattern_box, self.rotation,
+                  self.augmentations):
+            w.setEnabled(own)
+        super().refresh()
+        self.augmentations.refresh()
+        fac = st.facility(self.period)
+        # augmentations modify a directional array's standard pattern: shown for 2+ towers
+        directional = len(fac.array.elements) > 1 or bool(self.augmentations._shown)
+        self.aug_label.setVisible(directional)
+        self.augmentations.setVisible(directional)
+        self._loading = True
+        kind = str(self.document.doc.get(self.section, {}).get("pattern", "")) if own else ""
+        self.pattern_box.setCurrentIndex(max(0, self.pattern_box.findData(kind)))
+        self._loading = False
+        if not self.rotation.styleSheet():
+            self.rotation.setText(f"{fac.array.rotation_deg:g}")
+        els = fac.array.elements
+        phys = ", ".join(f"{float(height_m(e.tower.height_deg, st.freq_khz)):.1f} m" for e in els)
+        elec = ", ".join(f"{e.tower.height_deg:.1f}°" for e in els)
         self.heights.setText(f"At {st.freq_khz:g} kHz: {elec} electrical = {phys} (a quarter "
                              f"wave is {float(quarter_wave_m(st.freq_khz)):.1f} m). Give each "
                              "tower's height in degrees or in metres; metres stay right when the "
@@ -294,7 +406,8 @@ class AntennaEditor(_TableEditor):
 
     def _rotation(self):
         v = _number_or_text(self.rotation.text())
-        self.apply(lambda d: d.setdefault("antenna", {}).__setitem__("rotation_deg", v),
+        section = self.section
+        self.apply(lambda d: d.setdefault(section, {}).__setitem__("rotation_deg", v),
                    self.rotation)
 
 
@@ -754,11 +867,26 @@ class ProfilePlot(QWidget):
 
 
 class PatternPlot(QWidget):
-    """Horizontal (polar) and vertical patterns of the antenna, in mV/m at 1 km."""
+    """Horizontal (polar) and vertical patterns of each operating period's antenna, in mV/m at
+    1 km at that period's power: theoretical, standard and augmented overlaid."""
+
+    PENS = {"theoretical": ("#7f7f7f", Qt.DashLine), "standard": ("#2166ac", Qt.SolidLine),
+            "augmented": ("#b2182b", Qt.SolidLine)}
 
     def __init__(self, parent=None):
         super().__init__(parent)
-        lay = QHBoxLayout(self)
+        outer = QVBoxLayout(self)
+        row = QHBoxLayout()
+        row.addWidget(QLabel("Operating period"))
+        self.period_box = QComboBox()
+        self.period_box.setObjectName("pattern_period")
+        self.period_box.currentIndexChanged.connect(self._draw)
+        row.addWidget(self.period_box)
+        self.caption = QLabel()
+        self.caption.setWordWrap(True)
+        row.addWidget(self.caption, 1)
+        outer.addLayout(row)
+        lay = QHBoxLayout()
         self.polar = pg.PlotWidget(background="w", title="horizontal plane [mV/m at 1 km]")
         self.polar.setAspectLocked(True)
         self.polar.hideAxis("left")
@@ -768,16 +896,61 @@ class PatternPlot(QWidget):
         self.vert.setLabel("left", "mV/m at 1 km")
         lay.addWidget(self.polar)
         lay.addWidget(self.vert)
-        self.values = None
+        outer.addLayout(lay, 1)
+        self.values = None  # the pattern the rules use, every degree (for tests and readers)
+        self.curves: dict = {}
+        self.result = None
 
     def show_result(self, result):
-        st = result.spec.station
-        p = result.antenna_summary["power_kw"]
+        from mwreach.coverage.station import period_rows
+
+        self.result = result
+        keep = self.period_box.currentData()
+        self.period_box.blockSignals(True)
+        self.period_box.clear()
+        for row in period_rows(result.spec.station):
+            own = "" if row["own_facility"] else " (day antenna)"
+            self.period_box.addItem(f"{row['period']}{own}", row["period"])
+        i = self.period_box.findData(keep)
+        self.period_box.setCurrentIndex(max(i, 0))
+        self.period_box.blockSignals(False)
+        self._draw()
+
+    def _pen(self, name):
+        colour, style = self.PENS[name]
+        return pg.mkPen(colour, width=2, style=style)
+
+    def _draw(self, *_):
+        if self.result is None:
+            return
+        st = self.result.spec.station
+        period = self.period_box.currentData() or "day"
+        p = (self.result.antenna_summary["power_kw"] if period == "day"
+             else st.power_kw(period))
+        if p <= 0:
+            p = 1.0  # a period without power: its shape, at 1 kW
+        rad = st.radiator(period)
+        arr = st.facility(period).array
         az = np.arange(0.0, 361.0)
-        e = st.antenna.field_mv_m(az, 0.0, p)
-        self.values = e[:360]
+        curves = {"theoretical": arr.field_mv_m(az, 0.0, p)}
+        if rad.kind == "standard":
+            scale = np.sqrt(p / rad.power_kw)
+            curves["standard"] = scale * rad.unaugmented_mv_m(az, 0.0)
+            if rad.augmentations:
+                curves["augmented"] = rad.field_mv_m(az, 0.0, p)
+        used = rad.field_mv_m(az, 0.0, p)
+        self.values = used[:360]
+        self.curves = {k: v[:360] for k, v in curves.items()}
+        parts = [f"{format_kw(p)} kW"]
+        if rad.kind == "standard":
+            parts.append(f"standard pattern RMS {rad.rms_mv_m(p):.1f} mV/m, theoretical "
+                         f"{arr.rms_mv_m(p):.1f} mV/m, Q {float(rad.q_mv_m(0.0)) * scale:.2f} mV/m")
+        else:
+            parts.append(f"RMS {arr.rms_mv_m(p):.1f} mV/m")
+        self.caption.setText("; ".join(parts) + ". Grey dashed: theoretical; blue: standard; "
+                             "red: augmented")
         self.polar.clear()
-        r_max = float(e.max()) or 1.0
+        r_max = float(max(c.max() for c in curves.values())) or 1.0
         for frac in (0.25, 0.5, 0.75, 1.0):
             t = np.radians(np.arange(0, 361))
             self.polar.plot(frac * r_max * np.sin(t), frac * r_max * np.cos(t),
@@ -790,11 +963,16 @@ class PatternPlot(QWidget):
             txt.setPos(1.2 * r_max * np.sin(a), 1.2 * r_max * np.cos(a))  # clear of the circle
             self.polar.addItem(txt)
         t = np.radians(az)
-        self.polar.plot(e * np.sin(t), e * np.cos(t), pen=pg.mkPen("#b2182b", width=2))
+        for name, e in curves.items():
+            self.polar.plot(e * np.sin(t), e * np.cos(t), pen=self._pen(name))
         el = np.arange(0.0, 90.5, 0.5)
-        az_max = result.antenna_summary["max_azimuth_deg"]
+        az_max = float(az[int(np.argmax(used))])
         self.vert.clear()
-        self.vert.plot(el, st.antenna.field_mv_m(az_max, el, p), pen=pg.mkPen("#2166ac", width=2))
+        self.vert.setTitle(f"vertical, toward the maximum ({az_max:g}°)")
+        self.vert.plot(el, arr.field_mv_m(az_max, el, p), pen=self._pen("theoretical"))
+        if rad.kind == "standard":
+            self.vert.plot(el, rad.field_mv_m(az_max, el, p),
+                           pen=self._pen("augmented" if rad.augmentations else "standard"))
 
 
 class InterferenceTable(_RowsView):

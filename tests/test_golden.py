@@ -31,7 +31,7 @@ VOLATILE = {"created", "elapsed_s", "seconds_per_candidate", "mwreach_version", 
 RUNS = {
     "run": (["run", str(DEMO), "--out", "{out}"],
             ("summary.json", "radials.csv", "night.json", "interference.csv", "contours.geojson",
-             "contours.kml")),
+             "contours.kml", "patterns.csv")),
     "search": (["search", str(DEMO), "--radius-km", "40", "--step-km", "3", "-o", "{out}"],
                ("candidates.csv", "candidates.geojson", "search.json")),
     "fit": (["fit", str(DEMO), str(DEMO.parent / "measurements.csv"), "-o", "{out}"],
