@@ -1,8 +1,9 @@
 """Contour sheets for permit paperwork: a vector PDF drawn with Qt (QPdfWriter + QPainter).
 
 Page 1: map, legend, title block, methods and cautions. Page 2 (and more if needed): radial
-table with the ground sections crossed. Last page (when the study has neighbours or night
-settings): night limit and interference. All numbers come from the StudyResult.
+table with the ground sections crossed. Then (when the study has neighbours or night settings)
+night limit and interference; then the operating periods' hours and one antenna-pattern page
+per period (gui/patternsheet.py). All numbers come from the StudyResult.
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ from mwreach.coverage.export import KM_PER_MI
 from mwreach.coverage.geodesy import dms, inverse
 from mwreach.coverage.report import citation, describe_max_power, summary_cells
 
+from .patternsheet import period_pages
 from .render import MapOptions, draw_legend, draw_map, fit_view, night_view, overview_view
 
 __all__ = ["write_sheet", "table_bearings", "sheet_rows", "CAUTIONS", "methods_lines"]
@@ -171,6 +173,13 @@ class _Doc:
 
 
 def _antenna_text(station) -> str:
+    day = _one_antenna_text(station)
+    others = [f"{p}: {'own antenna' if station.has_own(p) else 'day antenna'}"
+              for p in ("night", "critical") if station.has_own(p)]
+    return day + (f" ({'; '.join(others)}, see pattern pages)" if others else "")
+
+
+def _one_antenna_text(station) -> str:
     els = station.antenna.elements
     if len(els) == 1:
         t = els[0].tower
@@ -586,6 +595,7 @@ def write_sheet(result, path, paper: str | None = None, orientation: str | None 
     pages = [lambda: _page_map(doc, result)] + _table_pages(doc, result)
     if result.interference is not None and result.interference.night is not None:
         pages += _night_pages(doc, result)
+    pages += period_pages(doc, result, PT)
     try:
         for i, draw in enumerate(pages, 1):
             if i > 1:

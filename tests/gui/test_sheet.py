@@ -48,8 +48,9 @@ def test_page_count_and_page_numbers(sheet):
     path, pages = sheet
     text = _pages_text(path)
     # map page, radial table on two pages (its ground sections at a readable 7.2 pt), night
-    # page and its continuation (ratios, notes) on A4 portrait
-    assert len(text) == pages == 5
+    # page and its continuation (ratios, notes) on A4 portrait, the hours page and one pattern
+    # page for each of the demo's two periods
+    assert len(text) == pages == 8
     for i, t in enumerate(text, 1):
         assert f"Page {i} of {pages}" in t
 
@@ -385,3 +386,25 @@ def test_beyond_cells_are_converted_to_miles(demo_result):
                 assert (km, mi) == (">20", ">12")
                 beyond += 1
     assert beyond > 0
+
+
+def test_period_pages_print_the_core_tabulation_and_hours(sheet, demo_result):
+    from mwreach.coverage.export import sun_summary
+    from mwreach.coverage.pattern import elevation_table
+
+    text = _pages_text(sheet[0])
+    hours = next(t for t in text if "Operating periods and hours" in t)
+    june = sun_summary(demo_result.spec)["months"][5]
+    assert f"June {june['sunrise_local']} {june['sunset_local']}" in hours
+    assert "73.187(a)" in hours
+    night = next(t for t in text if "Antenna pattern — night" in t)
+    st = demo_result.spec.station
+    tab = elevation_table(st.night_antenna, 0.5, np.arange(0.0, 360.0, 10.0))
+    # the row for 90° true: every elevation 0–60° as the core tabulates it, to 0.1 mV/m
+    row = " ".join(f"{v:.1f}" for v in tab["pattern_mv_m"][:, 9])
+    assert f"90 {row}" in night
+    assert "Augmentation at 160°, span 40°: 300 mV/m" in night and "73.152" in night
+    rms = " ".join(f"{v:.1f}" for v in tab["rms_mv_m"])
+    assert f"RMS {rms}" in night
+    day = next(t for t in text if "Antenna pattern — day" in t)
+    assert "non-directional" in day and "the same at every azimuth" in day
