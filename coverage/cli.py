@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import pathlib
 import sys
 
 # numpy and the core load inside the commands (and inside main's handling of Ctrl-C), so that
@@ -216,7 +217,7 @@ class _Progress:
 
 def _cmd_run(args) -> int:
     from .export import write_outputs
-    from .report import describe_period
+    from .report import describe_period, people_text
     from .station import period_rows
     from .study import Study
 
@@ -239,16 +240,28 @@ def _cmd_run(args) -> int:
         print(f"note: ground zones '{a}' and '{b}' overlap; '{b}' (later) is used there")
     for note in result.spec.input_notes:
         print(f"note: {note}")
+    people = result.population is not None
     print(f"{'contour':<24} {'min km':>8} {'mean km':>8} {'max km':>8} {'area km²':>10} "
-          f"{'community':>9}")
+          f"{'community':>9}" + (f" {'people':>10}" if people else ""))
     for row in result.level_rows():
         fmt = lambda v: "—" if v is None else f"{v:.1f}"  # noqa: E731
         share = "—" if row["community_share"] is None else f"{100 * row['community_share']:.0f} %"
         print(f"{row['label']:<24} {fmt(row['min_km']):>8} {fmt(row['mean_km']):>8} "
-              f"{fmt(row['max_km']):>8} {row['area_km2']:>10.0f} {share:>9}")
+              f"{fmt(row['max_km']):>8} {row['area_km2']:>10.0f} {share:>9}"
+              + (f" {people_text(row['population']):>10}" if people else ""))
         if row["radials_with_further_crossings"]:
             print(f"  {row['radials_with_further_crossings']} radial(s) cross this level again "
                   "further out (field recovers over water); see radials.csv")
+    if people:
+        pop = result.population
+        extra = []
+        if pop["community"] is not None:
+            extra.append(f"community {people_text(pop['community'])}")
+        if pop["night_service"] is not None:
+            extra.append(f"inside the night interference-free contour "
+                         f"{people_text(pop['night_service'])}")
+        print(f"people ({pathlib.Path(pop['source']).name}, '{pop['property']}'): "
+              + "; ".join(extra + [f"layer total {people_text(pop['total'])}"]))
     if result.interference is not None:
         _print_interference(result)
     print(f"{len(result.radials.bearings_deg)} radials in {result.elapsed_s:.2f} s; wrote "

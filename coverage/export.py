@@ -84,12 +84,16 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
             "radial_length_km": result.max_km,
         },
         "community": spec.community.name if spec.community else None,
+        "population": (None if result.population is None else
+                       {k: (v if isinstance(v, str) else _num(v, 1))
+                        for k, v in result.population.items() if k != "levels"}),
         "operating_periods": [{k: (v if isinstance(v, (str, list)) else _num(v))
                                for k, v in row.items()} for row in period_rows(st)],
         "sun": sun_summary(spec),
         "inputs": spec_to_doc(spec),
         "levels": [{k: (v if isinstance(v, str) else
-                        _num(v, SHARE_DIGITS if k == "community_share" else None))
+                        _num(v, SHARE_DIGITS if k == "community_share" else
+                             1 if k == "population" else None))
                     for k, v in row.items()} for row in result.level_rows()],
         "elapsed_s": result.elapsed_s,
         "caution": "Planning estimate only; not a compliance determination. Filings must follow "

@@ -42,6 +42,7 @@ __all__ = [
     "choice",
     "load_zones",
     "read_boundary",
+    "read_population",
     "array_from_table",
     "array_to_table",
     "facility_from_table",
@@ -254,7 +255,8 @@ def _table(doc: dict, key: str, where: str) -> dict:
 #: channel has hundreds of neighbours, a band-wide list a few thousand), low enough that a
 #: pasted column of 100 000 values is refused at once rather than run for hours
 LIST_LIMITS = {"bearings": 3600, "contour": 20, "neighbour": 10_000, "station_class": 100,
-               "zones": 10_000, "readings": 100_000, "augmentation": 72}
+               "zones": 10_000, "readings": 100_000, "augmentation": 72,
+               "population": 2_000_000}
 
 
 def check_count(key: str, n: int, where: str) -> None:
@@ -385,6 +387,63 @@ def load_zones(path, default, notes: list | None = None):
         notes.append(f"{path}: the zones file holds no feature; the default ground is used "
                      "everywhere")
     return GroundMap(default, zones, source=str(path))
+
+
+def read_population(path, prop: str = "population", notes: list | None = None):
+    """A population layer (:class:`~.population.Population`) from a GeoJSON FeatureCollection
+    of Polygons/MultiPolygons (counted by area share) and Points (counted whole) with a numeric
+    property ``prop``, or from a CSV of points with columns ``lat``, ``lon`` and ``prop``
+    (``name`` optional). Every count must be a number >= 0; errors name the file, the feature
+    or line, and the property."""
+    from .population import Population
+
+    notes = [] if notes is None else notes
+    path = pathlib.Path(path)
+    polys, poly_people, lon, lat, pt_people = [], [], [], [], []
+    if path.suffix.lower() == ".csv":
+        rows = read_csv(path, ("lat", "lon", prop, "name"), ("lat", "lon", prop))
+        check_count("population", len(rows), str(path))
+        for where, row in rows:
+            nums = _csv_numbers(row, ("lat", "lon", prop), where)
+            for k in ("lat", "lon", prop):
+                if k not in nums:
+                    raise ValueError(f"{where}: missing value in column {k!r}")
+            la = check_finite("lat", nums["lat"], -90.0, 90.0, where=where)
+            lo = check_finite("lon", nums["lon"], -180.0, 180.0, where=where)
+            lat.append(la)
+            lon.append(lo)
+            pt_people.append(check_finite(prop, nums[prop], 0.0, 1e10, where=where))
+    else:
+        features = _features(read_json(path), path)
+        check_count("population", len(features), str(path))
+        for i, feat in enumerate(features, 1):
+            where = f"feature {i} of {path}"
+            if not isinstance(feat, dict) or feat.get("type") != "Feature":
+                raise ValueError(f"{where}: expected a GeoJSON Feature")
+            props = feat.get("properties") or {}
+            if not isinstance(props, dict):
+                raise ValueError(f"{where}: properties must be an object")
+            if prop not in props:
+                raise ValueError(f"{where}: missing property {prop!r} (the population count; "
+                                 "[population] property names another)")
+            n = check_finite(prop, props[prop], 0.0, 1e10, where=f"properties of {where}")
+            geom = feat.get("geometry")
+            if isinstance(geom, dict) and geom.get("type") == "Point":
+                c = geom.get("coordinates")
+                _numeric_coordinates([c] if isinstance(c, list) else c, where)
+                if len(c) < 2:
+                    raise ValueError(f"{where}: a Point needs [lon, lat]")
+                lon.append(check_finite("lon", c[0], -180.0, 180.0, where=where))
+                lat.append(check_finite("lat", c[1], -90.0, 90.0, where=where))
+                pt_people.append(n)
+            else:
+                polys.append(_polygon(geom, where, notes))
+                poly_people.append(n)
+    if not polys and not lon:
+        notes.append(f"{path}: the population layer holds nobody; every count is 0")
+    return Population(np.array(polys, dtype=object), np.array(poly_people, float),
+                      np.array(lon, float), np.array(lat, float), np.array(pt_people, float),
+                      source=str(path), key=prop)
 
 
 def read_boundary(path, notes: list | None = None, what: str = "community boundary"):
@@ -722,8 +781,9 @@ def night_from_table(t: dict, where: str):
 # --- the study file --------------------------------------------------------------------------
 
 SECTIONS = ("study", "station", "antenna", "antenna_night", "antenna_critical", "ground",
-            "contour", "community", "output", "night", "interference", "protection", "neighbour",
-            "station_class")
+            "contour", "community", "population", "output", "night", "interference",
+            "protection", "neighbour", "station_class")
+POPULATION_KEYS = ("file", "property")
 CLASS_KEYS = ("name", "day_mv_m", "night", "night_mv_m", "source")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
               "step_km")
@@ -864,6 +924,19 @@ def parse_study(doc: dict, path="<study>"):
         community = Community(text_value("name", cm.get("name", "community"), w),
                               read_boundary(bpath, notes), cm["boundary"])
 
+    population, population_table = None, None
+    if "population" in doc:
+        pt = _table(doc, "population", fname)
+        w = where_join("[population]", fname)
+        check_keys(pt, POPULATION_KEYS, w, required=("file",))
+        ppath = file_key(pt, "file", w, base, "population file")
+        inputs.append(ppath)
+        prop = text_value("property", pt.get("property", "population"), w)
+        if not prop.strip():
+            raise ValueError(f"property must not be empty in {w}")
+        population = read_population(ppath, prop, notes)
+        population_table = dict(pt)
+
     out = _table(doc, "output", fname)
     w = where_join("[output]", fname)
     check_keys(out, OUTPUT_KEYS, w)
@@ -901,6 +974,8 @@ def parse_study(doc: dict, path="<study>"):
         max_km=max_km,
         step_km=step_km,
         community=community,
+        population=population,
+        population_table=population_table,
         output=output,
         path=fname,
         zones_path=str(zones_rel),
@@ -1192,6 +1267,8 @@ def spec_to_doc(spec) -> dict:
                       for lv in spec.levels]
     if spec.community is not None:
         doc["community"] = {"name": spec.community.name, "boundary": spec.community.path}
+    if spec.population_table:
+        doc["population"] = dict(spec.population_table)
     if spec.output:
         doc["output"] = dict(spec.output)
     plan = spec.interference

@@ -129,3 +129,8 @@ def describe_period(row: dict) -> str:
     if n:
         text += f", {n} augmentation{'s' if n > 1 else ''}"
     return text
+
+
+def people_text(n: float | None) -> str:
+    """A count of people for reports: whole people with thousands separators; None → "—"."""
+    return "—" if n is None else f"{n:,.0f}"

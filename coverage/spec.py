@@ -56,6 +56,8 @@ class StudySpec:
     max_km: float = 0.0  # 0: automatic
     step_km: float = 0.25
     community: Community | None = None
+    population: object = None  # a Population layer (coverage/population.py), or None
+    population_table: dict | None = None  # [population] as written, for saving
     output: dict = field(default_factory=dict)
     path: str = ""  # study file, for messages and relative paths
     zones_path: str = ""  # as written in the file (relative to it)

@@ -31,6 +31,24 @@ __all__ = ["StudyResult", "Study"]
 
 # --- running -------------------------------------------------------------------------------
 
+def population_summary(spec: StudySpec, contours, inter=None) -> dict | None:
+    """People inside each contour, the community and the night interference-free contour, from
+    the study's population layer (None without one)."""
+    pop = spec.population
+    if pop is None:
+        return None
+    night = None
+    if inter is not None and inter.night is not None:
+        night = pop.count_in(inter.night.polygon_lonlat)
+    return {
+        "source": pop.source, "property": pop.key, "total": pop.total,
+        "levels": [pop.count_in(c.polygon_lonlat) for c in contours],
+        "community": (pop.count_in(spec.community.geometry) if spec.community is not None
+                      else None),
+        "night_service": night,
+    }
+
+
 @dataclass(frozen=True)
 class StudyResult:
     """Everything a run produced, for the writers, the GUI and the sheet."""
@@ -43,6 +61,7 @@ class StudyResult:
     elapsed_s: float
     created: str
     interference: InterferenceResult | None = None
+    population: dict | None = None  # people per level and more (:func:`population_summary`)
 
     def level_rows(self) -> list[dict]:
         """One summary row per level (distance statistics over all computed bearings)."""
@@ -57,6 +76,8 @@ class StudyResult:
                 "mean_km": float(finite.mean()) if finite.size else None,
                 "area_km2": c.area_km2,
                 "community_share": c.community_share,
+                "population": (None if self.population is None
+                               else self.population["levels"][len(rows)]),
                 "radials_beyond_range": int(np.isinf(c.first_km).sum()),
                 "radials_not_reached": int(np.isnan(c.first_km).sum()),
                 "radials_with_further_crossings": int(c.multiple.sum()),
@@ -139,6 +160,7 @@ class Study:
         inter = None
         if interference and spec.interference is not None:
             inter = run_interference(spec, spec.interference)
+        people = population_summary(spec, contours, inter)
         return StudyResult(
             spec=spec,
             radials=radials,
@@ -148,4 +170,5 @@ class Study:
             elapsed_s=time.perf_counter() - t0,
             created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
             interference=inter,
+            population=people,
         )

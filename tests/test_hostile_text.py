@@ -87,10 +87,11 @@ def hostile(tmp_path_factory):
 def test_run_csvs_escape_formulas(hostile):
     study, out = hostile
     csvs = sorted(out.glob("*.csv"))
-    assert {p.name for p in csvs} == {"radials.csv", "interference.csv"}
+    assert {p.name for p in csvs} == {"radials.csv", "interference.csv", "patterns.csv"}
     _assert_no_formula(out / "interference.csv",
                        (HOSTILE["Varnholt Radio"], HOSTILE["Lowrie Fen Radio"]))
     _assert_no_formula(out / "radials.csv", ())
+    _assert_no_formula(out / "patterns.csv", ())
 
 
 def test_kml_and_geojson_carry_hostile_names_intact(hostile):

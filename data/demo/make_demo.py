@@ -1,7 +1,9 @@
-"""Regenerate the invented demo scenario's GeoJSON files (run by hand).
+"""Regenerate the invented demo scenario's GeoJSON files (run by hand): zones, the community
+boundary and the population layer (people.geojson: a rural grid and six towns).
 
 The scenario is fiction: the coast of Vennick Bay, the Sarnel river valley, the Hollin uplands,
-Merrow Water and the town of Quellmoor do not exist. The site is placed in open ocean so that no
+Merrow Water and the towns of Quellmoor, Dunmere, Orrin Ford, Sarnel Bridge, Tollaby and
+Cawdell do not exist. The site is placed in open ocean so that no
 real place is implied. Shapes are drawn in km east/north of the site and converted to lon/lat.
 """
 
@@ -63,3 +65,40 @@ community = {
 }
 (HERE / "community.geojson").write_text(json.dumps(community, indent=1) + "\n")
 print("wrote zones.geojson and community.geojson")
+
+# --- population: an invented rural grid (5 km cells, people per cell) and invented towns as
+# points; nobody at sea. Run by hand; writes people.geojson.
+import shapely  # noqa: E402
+from shapely.geometry import Polygon  # noqa: E402
+
+SEA = Polygon([(12, 500), (12, 10), (6, 8), (3, 2), (5, -6), (12, -10), (12, -500), (700, -500),
+               (700, 500)])
+RURAL_PER_KM2 = 14.0  # invented
+TOWNS = [  # (name, x km, y km, people): all invented
+    ("Quellmoor", -6.0, 5.0, 18_000),
+    ("Dunmere", -40.0, 20.0, 9_000),
+    ("Orrin Ford", -25.0, -45.0, 6_000),
+    ("Sarnel Bridge", -90.0, 50.0, 12_000),
+    ("Tollaby", -110.0, -80.0, 4_000),
+    ("Cawdell", -10.0, 60.0, 5_000),
+]
+cells = []
+for x in np.arange(-125.0, 10.0, 5.0):
+    for y in np.arange(-125.0, 125.0, 5.0):
+        sq = Polygon([(x, y), (x + 5, y), (x + 5, y + 5), (x, y + 5)])
+        land = sq.difference(SEA)
+        if land.area < 0.5:
+            continue
+        cells.append({"type": "Feature",
+                      "properties": {"population": round(RURAL_PER_KM2 * land.area)},
+                      "geometry": {"type": "Polygon", "coordinates": [ring(
+                          [(x, y), (x + 5, y), (x + 5, y + 5), (x, y + 5)])]}})
+towns = []
+for name, x, y, n in TOWNS:
+    lon, lat = proj.to_lonlat(np.array([x]), np.array([y]))
+    towns.append({"type": "Feature", "properties": {"name": name, "population": n},
+                  "geometry": {"type": "Point",
+                               "coordinates": [round(float(lon[0]), 6), round(float(lat[0]), 6)]}})
+people = {"type": "FeatureCollection", "features": towns + cells}
+(HERE / "people.geojson").write_text(json.dumps(people, separators=(",", ":")) + "\n")
+print(f"wrote people.geojson ({len(cells)} cells, {len(towns)} towns)")
