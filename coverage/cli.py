@@ -587,6 +587,54 @@ def _scheduler_identity(address: str, timeout_s: float) -> str:
         return "what answers there does not speak Dask's protocol"
 
 
+def _cmd_compare(args) -> int:
+    """Gains and losses per level between two studies (coverage/compare.py)."""
+    from .compare import compare_geojson, compare_results
+    from .report import people_text
+    from .safefiles import json_text, refuse_overwriting_inputs, writable_folder, write_set
+    from .study import Study
+
+    names = ("compare.json", "compare.geojson", "compare.png")
+    before, after = Study.from_file(args.before), Study.from_file(args.after)
+    inputs = tuple(before.spec.input_files) + tuple(after.spec.input_files)
+    refuse_overwriting_inputs(args.out, names, inputs)
+    writable_folder(args.out)
+    r0 = before.run(interference=False)
+    r1 = after.run(interference=False)
+    comp = compare_results(r0, r1)
+
+    def clean(row):
+        return {k: (None if v is None else round(float(v), 3))
+                if k not in ("label", "gain", "loss") else v
+                for k, v in row.items() if k not in ("gain", "loss")}
+
+    out = {"before": str(args.before), "after": str(args.after),
+           "population_source": comp["population_source"],
+           "levels": [clean(r) for r in comp["levels"]],
+           "caution": "Planning estimate only; filings must follow local rules and be checked "
+                      "by a licensed engineer."}
+    from mwreach.gui.qt import ensure_app  # Qt only for the picture
+
+    ensure_app()
+    from mwreach.gui.comparemap import compare_png
+
+    files = write_set(args.out, {"compare.json": json_text(out, indent=1),
+                                 "compare.geojson": json_text(compare_geojson(comp)),
+                                 "compare.png": compare_png(comp, r0, r1)},
+                      known_names=names, inputs=inputs)
+    print(f"{'contour':<24} {'before km²':>11} {'after km²':>10} {'gained km²':>11} "
+          f"{'lost km²':>9} {'people +':>10} {'people −':>10}")
+    for row in comp["levels"]:
+        print(f"{row['label']:<24} {row['before_km2']:>11,.0f} {row['after_km2']:>10,.0f} "
+              f"{row['gain_km2']:>11,.0f} {row['loss_km2']:>9,.0f} "
+              f"{people_text(row['gain_population']):>10} "
+              f"{people_text(row['loss_population']):>10}")
+    print("wrote " + ", ".join(str(f) for f in files))
+    print("Planning estimate only: filings must follow local rules and be checked by a "
+          "licensed engineer.")
+    return 0
+
+
 def _cmd_exposure(args) -> int:
     """RF exposure screening near the towers (coverage/exposure.py)."""
     import pathlib
@@ -610,7 +658,7 @@ def _cmd_exposure(args) -> int:
         raise UsageError(f"{args.study}: the station has no {args.period} power")
     refuse_overwriting_inputs(args.out, ["exposure.json", "exposure.png"], spec.input_files)
     writable_folder(args.out)
-    arr = st.antenna
+    arr = st.facility(args.period).array  # the period's own towers (night array by night)
     towers = tower_xy_m(arr, st.freq_khz)
     result = {"caution": CAUTION, "station": st.name, "freq_khz": st.freq_khz,
               "period": args.period, "power_kw": power, "height_m": height,
@@ -986,6 +1034,13 @@ def build_parser() -> argparse.ArgumentParser:
     fi.add_argument("--write-zones", type=_path, help="write the zones with fitted conductivities to this "
                     "GeoJSON file")
     fi.set_defaults(func=_cmd_fit)
+
+    cp = sub.add_parser("compare", help="what a change of site, power or antenna gains and "
+                        "loses: areas and people per contour level", **fmt)
+    cp.add_argument("before", type=_path, help="the study as it is (TOML)")
+    cp.add_argument("after", type=_path, help="the study as changed (TOML)")
+    cp.add_argument("-o", "--out", type=_path, required=True, help="output folder")
+    cp.set_defaults(func=_cmd_compare)
 
     ex = sub.add_parser("exposure", help="RF exposure screening near the towers (a screening "
                         "estimate, not a compliance determination)", **fmt)

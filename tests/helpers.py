@@ -1,4 +1,6 @@
-"""Small helpers the tests share (study texts)."""
+"""Small helpers the tests share (study texts, closed-form areas)."""
+
+import numpy as np
 
 
 def homogeneous_study(lat: float, lon: float, step_deg: float = 10.0, step_km: float = 1.0,
@@ -22,3 +24,11 @@ class = "land"
 [[contour]]
 field_mv_m = {level_mv_m}
 """
+
+
+def lens_km2(r1, r2, d):
+    """Area of the overlap of two circles of radii r1, r2 whose centres are d apart (closed
+    form of plane geometry)."""
+    return (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
+            + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
+            - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))

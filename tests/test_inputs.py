@@ -229,7 +229,7 @@ def test_daytime_only_neighbour_and_station_run(demo_copy):
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o1")
     assert rc == 0, err
     assert "Varnholt Radio has no night power (daytime only): no night checks" in out
-    f.write_text(text.replace("power_night_kw = 0.2\n", "power_night_kw = 0\n"))
+    f.write_text(text.replace("power_night_kw = 0.5\n", "power_night_kw = 0\n"))
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o2")
     assert rc == 0, err
     assert "has no night power (daytime only): no night service contour" in out
@@ -434,11 +434,11 @@ def test_cli_version_help_and_case():
 
 
 def test_fail_on_violation_exit_status(demo_copy):
-    # ten times the demo's night power: the night caused to Varnholt Radio (margin +0.1 dB at
-    # 0.2 kW) falls by 11 dB and fails
+    # five times the demo's night power (2.5 kW, above the 1.38 kW its night array allows):
+    # the night limit entry at Varnholt Radio fails, as does the day overlap
     f = demo_copy / "quick.toml"
     f.write_text(DEMO_TEXT.replace("bearing_step_deg = 1.0", "bearing_step_deg = 15.0")
-                 .replace("power_night_kw = 0.2\n", "power_night_kw = 2.5\n"))
+                 .replace("power_night_kw = 0.5\n", "power_night_kw = 2.5\n"))
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o")
     assert rc == 0 and "FAILS" in out
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o", "--fail-on-violation")

@@ -25,6 +25,8 @@ from mwreach.coverage.groundwave import mv_m_to_dbu
 from mwreach.coverage.skywave import sky_field_dbu, sky_path
 from mwreach.coverage.inputs import load_study, read_neighbours_csv
 
+from helpers import lens_km2
+
 DEMO = pathlib.Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
 
 
@@ -88,7 +90,10 @@ def _spec(neighbours, night=None, floor=0.5, station_class="T"):
     plan = InterferencePlan(tuple(neighbours), night=night or NightSettings(floor_mv_m=floor,
                                                                            bearing_step_deg=30.0),
                             contour_step_deg=30.0, classes=dict(STATION_CLASSES, T=UNRANGED))
-    station = dataclasses.replace(spec.station, station_class=station_class)
+    # the demo station with its day tower by night too, at 0.2 kW: the checks here are about
+    # the mechanisms, not the demo's night array (tests/test_periods.py covers that)
+    station = dataclasses.replace(spec.station, station_class=station_class, night=None,
+                                  power_night_kw=0.2)
     return dataclasses.replace(spec, station=station, ground=GroundMap(ground_class("land")),
                                community=None, interference=plan)
 
@@ -358,13 +363,6 @@ def test_class_a_neighbour_is_protected_to_its_50_percent_sky_wave_contour():
     assert all(r.mechanism == "sky" for r in rows)
 
 
-def _lens_km2(r1, r2, d):
-    """Area of the overlap of two circles of radii r1, r2 whose centres are d apart."""
-    return (r1**2 * np.arccos((d**2 + r1**2 - r2**2) / (2 * d * r1))
-            + r2**2 * np.arccos((d**2 + r2**2 - r1**2) / (2 * d * r2))
-            - 0.5 * np.sqrt((-d + r1 + r2) * (d + r1 - r2) * (d - r1 + r2) * (d + r1 + r2)))
-
-
 def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
     # two single towers 3 km apart on homogeneous land, third adjacent: their 25 mV/m contours
     # (47 CFR 73.37, from memory) are circles; the overlap is the lens of two circles
@@ -382,7 +380,7 @@ def test_third_adjacent_overlap_area_is_the_lens_of_two_circles():
     r2 = gw.model(1420.0, g, spec.earth_k).distance_to_field_km(
         25.0, float(n.antenna.field_mv_m(0.0, 0.0, 1.0)))
     d = 3.0
-    lens = _lens_km2(r1, r2, d)
+    lens = lens_km2(r1, r2, d)
     # measured 5.4e-5 relative (2° polygons of the two circles); 5e-4 allowed
     assert ov.area_km2 == pytest.approx(lens, rel=5e-4)
     assert not ov.passed and ov.offset_channels == 3 and ov.points
@@ -696,7 +694,7 @@ def test_overlap_uses_each_stations_own_contour_at_its_own_power(freq, level_mv_
     lat, lon = _north_of_site(spec, d)
     spec = _neighbour_at(spec, Neighbour("N", lat, lon, freq, 10.0, 10.0, ant))
     (ov,) = run_interference(spec, spec.interference).overlaps
-    lens = _lens_km2(r1, r2, d)
+    lens = lens_km2(r1, r2, d)
     assert ov.area_km2 == pytest.approx(lens, rel=3e-3)
     assert ov.offset_channels == round((freq - 1390.0) / 10.0) and not ov.passed
 
