@@ -207,6 +207,7 @@ class MainWindow(QMainWindow):
         self.act_heat = self._action(t, "Show the site-search heat map", self.toggle_heat)
         self.act_heat.setCheckable(True)
         self.act_heat.setEnabled(False)
+        self._action(t, "Compare with a saved study…", self.compare_dialog)
         h = mb.addMenu("&Help")
         self._action(h, "Cautions", self.show_cautions)
         self._action(h, "About mwreach", self.show_about)
@@ -424,6 +425,63 @@ class MainWindow(QMainWindow):
         self.search_thread = None
         self.act_stop_search.setEnabled(False)
         QMessageBox.warning(self, "Site search failed", msg)
+
+    def compare_dialog(self):
+        """Pick a saved study and show what the open study gains and loses against it."""
+        from PySide6.QtWidgets import QFileDialog
+
+        path, _ = QFileDialog.getOpenFileName(self, "Compare with a saved study", "",
+                                              "Study files (*.toml)")
+        if path:
+            self.compare_with(path)
+
+    def compare_with(self, path, show: bool = True):
+        """Compare the saved study at ``path`` (before) with the open one (after); returns the
+        comparison and, with ``show``, opens a window with its table and picture."""
+        from PySide6.QtGui import QPixmap
+        from PySide6.QtWidgets import QDialog, QLabel, QTableWidget, QTableWidgetItem, \
+            QVBoxLayout
+
+        from mwreach.coverage.compare import compare_results
+        from mwreach.coverage.report import people_text
+        from mwreach.coverage.study import Study
+
+        from .comparemap import render_compare
+
+        if self.document.spec is None:
+            return None
+        try:
+            before = Study.from_file(path).run(interference=False)
+            after = Study(self.document.spec).run(interference=False)
+            comp = compare_results(before, after)
+        except ValueError as exc:
+            QMessageBox.warning(self, "Cannot compare", str(exc))
+            return None
+        self.last_compare = comp
+        if not show:
+            return comp
+        dlg = QDialog(self)
+        dlg.setWindowTitle(f"Gained and lost against {pathlib.Path(path).name}")
+        lay = QVBoxLayout(dlg)
+        heads = ["Contour", "Before km²", "After km²", "Gained km²", "Lost km²", "People +",
+                 "People −"]
+        table = QTableWidget(len(comp["levels"]), len(heads))
+        table.setHorizontalHeaderLabels(heads)
+        for i, r in enumerate(comp["levels"]):
+            cells = [r["label"], f"{r['before_km2']:,.0f}", f"{r['after_km2']:,.0f}",
+                     f"{r['gain_km2']:,.0f}", f"{r['loss_km2']:,.0f}",
+                     people_text(r["gain_population"]), people_text(r["loss_population"])]
+            for j, c in enumerate(cells):
+                table.setItem(i, j, QTableWidgetItem(c))
+        table.resizeColumnsToContents()
+        lay.addWidget(table)
+        pic = QLabel()
+        pic.setPixmap(QPixmap.fromImage(render_compare(comp, before, after, 1000, 700)))
+        lay.addWidget(pic)
+        dlg.resize(1040, 980)
+        dlg.show()
+        self.compare_window = dlg
+        return comp
 
     def toggle_heat(self):
         self.map.set_search(self.last_search if self.act_heat.isChecked() else None)

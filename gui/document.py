@@ -21,13 +21,15 @@ DEMO_PATH = pathlib.Path(__file__).resolve().parents[1] / "data" / "demo" / "que
 def _relative_paths(doc: dict):
     """(getter, setter) pairs for every file name a study document holds."""
     out = []
-    for sec, key in (("ground", "zones"), ("community", "boundary"), ("interference", "neighbours")):
+    for sec, key in (("ground", "zones"), ("community", "boundary"), ("interference", "neighbours"),
+                     ("population", "file")):
         t = doc.get(sec)
         if isinstance(t, dict) and t.get(key):
             out.append((t, key))
     for t in doc.get("neighbour", []) or []:
-        if isinstance(t, dict) and t.get("array"):
-            out.append((t, "array"))
+        for key in ("array", "array_night"):
+            if isinstance(t, dict) and t.get(key):
+                out.append((t, key))
     return out
 
 

@@ -677,15 +677,22 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
 def _legend_entries(result, s: float) -> list[tuple]:
     """What the legend shows, in order: ("head", text), ("line", pen, text),
     ("cross", text), ("swatch", colour, text) or ("gap",)."""
+    from mwreach.coverage.report import people_text
+
     out: list[tuple] = [("head", "Contours (day ground wave)")]
+    pop = getattr(result, "population", None)
     for i, c in enumerate(result.contours):
         base = f"{c.level_mv_m:g} mV/m"
         text = c.label if c.label.startswith(base) else f"{base} ({c.label})" if c.label else base
+        if pop is not None:
+            text += f": {people_text(pop['levels'][i])} people"
         out.append(("line", level_pen(c.level_mv_m, s), text))
     inter = getattr(result, "interference", None)
     if inter is not None and inter.night is not None:
-        out.append(("line", QPen(QColor(NIGHT_COLOUR), 1.6 * s, Qt.DashDotLine),
-                    "night service contour (night limit)"))
+        night = "night service contour (night limit)"
+        if pop is not None and pop["night_service"] is not None:
+            night += f": {people_text(pop['night_service'])} people"
+        out.append(("line", QPen(QColor(NIGHT_COLOUR), 1.6 * s, Qt.DashDotLine), night))
         out.append(("line", QPen(QColor(70, 70, 70), 1.0 * s),
                     "neighbour protected contour (day; night dashed)"))
         if any(not r.passed for r in inter.rows):

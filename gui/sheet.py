@@ -68,16 +68,27 @@ def methods_lines(result) -> list[str]:
 def key_figures(result) -> list[str]:
     """The figures a reader looks for first: areas, community share, maximum powers and the
     worst margin (no scientific notation)."""
-    from mwreach.coverage.report import format_kw
+    from mwreach.coverage.report import format_kw, people_text
 
     out = []
     plan = result.spec.interference
     protected = plan.protected_day_mv_m if plan is not None else 0.5
-    for c in result.contours:
+    pop = result.population
+    for i, c in enumerate(result.contours):
         share = ("" if c.community_share is None
                  else f"; {100 * c.community_share:.1f} % of {result.spec.community.name}")
+        people = "" if pop is None else f"; {people_text(pop['levels'][i])} people"
         mark = " (protected)" if c.level_mv_m == protected else ""
-        out.append(f"{c.level_mv_m:g} mV/m{mark}: {c.area_km2:,.0f} km²{share}")
+        out.append(f"{c.level_mv_m:g} mV/m{mark}: {c.area_km2:,.0f} km²{people}{share}")
+    if pop is not None:
+        parts = []
+        if pop["community"] is not None:
+            parts.append(f"{result.spec.community.name} {people_text(pop['community'])}")
+        if pop["night_service"] is not None:
+            parts.append(f"inside the night interference-free contour "
+                         f"{people_text(pop['night_service'])}")
+        if parts:
+            out.append("People: " + "; ".join(parts))
     inter = result.interference
     if inter is not None:
         for period, mp in inter.max_power.items():

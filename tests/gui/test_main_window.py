@@ -688,3 +688,18 @@ def test_pattern_view_overlays_theoretical_standard_and_augmented(qtbot, window)
     assert "standard pattern RMS" in view.caption.text()
     view.period_box.setCurrentIndex(view.period_box.findData("day"))
     assert set(view.curves) == {"theoretical"}  # one tower: no standard pattern
+
+
+def test_compare_the_open_study_with_a_saved_one(qtbot, window):
+    _open_and_wait(qtbot, window)
+    after = DEMO.parent / "quellmoor_after.toml"
+    comp = window.compare_with(str(after), show=True)
+    # the open demo against the changed one saved beside it: the same numbers as the command
+    from mwreach.coverage.compare import compare_results
+
+    ref = compare_results(Study.from_file(after).run(interference=False),
+                          Study.from_file(DEMO).run(interference=False))
+    assert [r["gain_km2"] for r in comp["levels"]] == pytest.approx(
+        [r["gain_km2"] for r in ref["levels"]], rel=1e-9)
+    assert comp["levels"][0]["gain_population"] > 0
+    assert window.compare_window.isVisible()

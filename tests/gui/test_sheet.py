@@ -147,7 +147,8 @@ def test_sheet_errors_are_one_line_and_keep_the_old_sheet(tmp_path, demo_result,
     small.write_text(text[: text.index("[night]")].replace("bearing_step_deg = 1.0",
                                                             "bearing_step_deg = 30.0")
                      .replace('"zones.geojson"', f'"{DEMO.parent / "zones.geojson"}"')
-                     .replace('"community.geojson"', f'"{DEMO.parent / "community.geojson"}"'))
+                     .replace('"community.geojson"', f'"{DEMO.parent / "community.geojson"}"')
+                     .replace('"people.geojson"', f'"{DEMO.parent / "people.geojson"}"'))
     assert cli.main(["sheet", str(small), "-o", str(blocker / "x.pdf")]) == 2
     err = capfd.readouterr().err
     assert err.count("\n") == 1 and "afile" in err and "QPainter" not in err
