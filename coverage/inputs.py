@@ -557,9 +557,12 @@ def facility_from_table(table: dict, freq_khz: float, where: str):
 
 def _check_facility(fac, power_kw: float, where: str) -> None:
     """Build the facility's pattern at its power now, so that a refused augmentation names
-    the table it came from."""
+    the table it came from (augmented fields are stated at the period's power; a period
+    without power has nothing to check)."""
+    if not power_kw > 0:
+        return
     try:
-        fac.radiator(power_kw if power_kw > 0 else 1.0)
+        fac.radiator(power_kw)
     except ValueError as exc:
         raise ValueError(f"{exc} in {where}") from None
 

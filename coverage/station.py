@@ -43,7 +43,7 @@ class Station:
 
     def __post_init__(self):
         for period in PERIODS:  # refuse a bad pattern (kind, augmentations) now, not mid-run
-            if self.has_own(period):
+            if self.has_own(period) and self.power_kw(period) > 0:
                 _ = self.radiator(period)
 
     def klass(self, table: dict | None = None):
@@ -78,8 +78,9 @@ class Station:
         if not self.has_own(period):
             period = "day"
         power = self.power_kw(period)
-        # a period without power (a daytime-only station at night) still has a pattern shape
-        return self.facility(period).radiator(power if power > 0 else 1.0)
+        if not power > 0:  # a period without power (a daytime-only station at night): its
+            return self.facility(period).array  # towers' shape; no field of it is ever used
+        return self.facility(period).radiator(power)
 
     @property
     def day_antenna(self):

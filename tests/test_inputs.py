@@ -434,11 +434,9 @@ def test_cli_version_help_and_case():
 
 
 def test_fail_on_violation_exit_status(demo_copy):
-    # five times the demo's night power (2.5 kW, above the 1.38 kW its night array allows):
-    # the night limit entry at Varnholt Radio fails, as does the day overlap
+    # the demo fails its third-adjacent day overlap (Kestrel Point Radio) at 1 kW by day
     f = demo_copy / "quick.toml"
-    f.write_text(DEMO_TEXT.replace("bearing_step_deg = 1.0", "bearing_step_deg = 15.0")
-                 .replace("power_night_kw = 0.5\n", "power_night_kw = 2.5\n"))
+    f.write_text(DEMO_TEXT.replace("bearing_step_deg = 1.0", "bearing_step_deg = 15.0"))
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o")
     assert rc == 0 and "FAILS" in out
     rc, out, err = run_cli("run", f, "--out", demo_copy / "o", "--fail-on-violation")
