@@ -474,6 +474,8 @@ class MainWindow(QMainWindow):
             for j, c in enumerate(cells):
                 table.setItem(i, j, QTableWidgetItem(c))
         table.resizeColumnsToContents()
+        table.setMaximumHeight(table.horizontalHeader().height() + 4
+                               + sum(table.rowHeight(i) for i in range(table.rowCount())))
         lay.addWidget(table)
         pic = QLabel()
         pic.setPixmap(QPixmap.fromImage(render_compare(comp, before, after, 1000, 700)))

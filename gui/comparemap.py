@@ -52,21 +52,21 @@ def render_compare(comparison: dict, before, after, width: int = 1400,
     font.setPointSizeF(11)
     p.setFont(font)
     s0, s1 = before.spec.station, after.spec.station
-    p.drawText(QRectF(20, 8, width - 40, 26), Qt.AlignLeft | Qt.AlignVCenter,
+    p.drawText(QRectF(20, 6, width - 40, 44), Qt.AlignLeft | Qt.AlignVCenter | Qt.TextWordWrap,
                f"What the change gains (green) and loses (red) — {s1.name}: before "
                f"{s0.power_day_kw:g} kW at {s0.lat:.4f}, {s0.lon:.4f}; after {s1.power_day_kw:g} kW "
-               f"at {s1.lat:.4f}, {s1.lon:.4f}")
+               f"at {s1.lat:.4f}, {s1.lon:.4f}; north up")
     proj = local_projection(s1.lat, s1.lon)
     rows = comparison["levels"]
     ncol = 2 if len(rows) > 1 else 1
     nrow = math.ceil(len(rows) / ncol)
     cell_w = (width - 40) / ncol
-    cell_h = (height - 50) / nrow
+    cell_h = (height - 60) / nrow
     old = {round(c.level_mv_m, 9): c for c in before.contours}
     new = {round(c.level_mv_m, 9): c for c in after.contours}
     for k, row in enumerate(rows):
         r, c = divmod(k, ncol)
-        cell = QRectF(20 + c * cell_w, 40 + r * cell_h, cell_w - 10, cell_h - 10)
+        cell = QRectF(20 + c * cell_w, 52 + r * cell_h, cell_w - 10, cell_h - 10)
         key = round(row["level_mv_m"], 9)
         before_xy = proj.geom_to_xy(old[key].polygon_lonlat)
         after_xy = proj.geom_to_xy(new[key].polygon_lonlat)

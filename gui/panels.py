@@ -261,9 +261,7 @@ class _TableEditor(_Editor):
 #: the operating periods the antenna tab edits, and the study table of each
 PERIOD_SECTIONS = (("day", "Day", "antenna"), ("night", "Night", "antenna_night"),
                    ("critical", "Critical hours", "antenna_critical"))
-PATTERN_CHOICES = (("", "Standard for 2+ towers (47 CFR 73.150)"),
-                   ("standard", "Standard (47 CFR 73.150)"),
-                   ("theoretical", "Theoretical (design view)"))
+PATTERN_CHOICES = (("", "Automatic"), ("standard", "Standard"), ("theoretical", "Theoretical"))
 
 
 class AugmentationEditor(_TableEditor):
@@ -296,20 +294,22 @@ class AntennaEditor(_TableEditor):
             self.period_box.addItem(label, key)
         self.period_box.currentIndexChanged.connect(self._period_changed)
         top.addRow("Operating period", self.period_box)
-        own_row = QHBoxLayout()
         self.own_label = QLabel()
         self.own_label.setWordWrap(True)
+        top.addRow(self.own_label)
         self.own_btn = QPushButton()
         self.own_btn.clicked.connect(self._toggle_own)
-        own_row.addWidget(self.own_label, 1)
-        own_row.addWidget(self.own_btn)
-        top.addRow(own_row)
+        top.addRow(self.own_btn)
         self.pattern_box = QComboBox()
         self.pattern_box.setObjectName("antenna_pattern")
+        self.pattern_box.setToolTip("The pattern every service and interference check uses. "
+                                    "Automatic: the standard pattern (47 CFR 73.150) for 2 or "
+                                    "more towers, the tower itself for one. Theoretical: the "
+                                    "bare array, a design view, not a filing.")
         for key, label in PATTERN_CHOICES:
             self.pattern_box.addItem(label, key)
         self.pattern_box.currentIndexChanged.connect(self._pattern)
-        top.addRow("Pattern used for service and interference", self.pattern_box)
+        top.addRow("Pattern (47 CFR 73.150)", self.pattern_box)
         self.rotation = QLineEdit()
         self.rotation.editingFinished.connect(self._rotation)
         top.addRow("Array rotation [deg]", self.rotation)
@@ -317,9 +317,8 @@ class AntennaEditor(_TableEditor):
         self.heights = QLabel()
         self.heights.setWordWrap(True)
         lay.insertWidget(2, self.heights)
-        self.aug_label = QLabel("Augmentations of the standard pattern (47 CFR 73.152): the "
-                                "field at the central azimuth, at this period's power; the "
-                                "pattern merges back at the span's edges.")
+        self.aug_label = QLabel("Augmentations (47 CFR 73.152): field at the central azimuth "
+                                "at this period's power.")
         self.aug_label.setWordWrap(True)
         lay.addWidget(self.aug_label)
         self.augmentations = AugmentationEditor(document)

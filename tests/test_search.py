@@ -240,7 +240,9 @@ def test_search_options_refused_in_one_line(tmp_path, argv, needle):
         err.getvalue()
 
 
-@pytest.mark.parametrize("after_s", [0.0, 4.0])  # as the workers start; when chunks are done
+# just after the workers started (Ctrl-C during their start is lost by design, see
+# search._interrupts_ignored; 0.0 raced that window on a loaded machine); when chunks are done
+@pytest.mark.parametrize("after_s", [0.5, 4.0])
 def test_ctrl_c_in_a_terminal_keeps_the_chunks_the_workers_finished(tmp_path, after_s):
     # a terminal sends Ctrl-C to the whole process group, workers included: the workers ignore
     # it, the parent stops the search and writes what was done (exit 130)
@@ -272,7 +274,7 @@ def test_ctrl_c_in_a_terminal_keeps_the_chunks_the_workers_finished(tmp_path, af
     assert proc.returncode == 130, stderr
     assert "Traceback" not in stderr and "KeyboardInterrupt" not in stderr, stderr
     assert stderr.count("\n") <= 1, stderr  # one line at most, from the parent
-    if after_s:
+    if after_s >= 4.0:  # chunks are done by then
         rows = (out / "candidates.csv").read_text().splitlines()
         assert 1 < len(rows) - 1 < 3348, len(rows)  # some, not all, of the 3348 candidates
         assert "stopped early" in stdout
