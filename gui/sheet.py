@@ -185,9 +185,9 @@ class _Doc:
 
 def _antenna_text(station) -> str:
     day = _one_antenna_text(station)
-    others = [f"{p}: {'own antenna' if station.has_own(p) else 'day antenna'}"
+    others = [f"{p} {len(getattr(station, p).array.elements)} towers"
               for p in ("night", "critical") if station.has_own(p)]
-    return day + (f" ({'; '.join(others)}, see pattern pages)" if others else "")
+    return day.replace("single tower", "tower") + ("; " + ", ".join(others) if others else "")
 
 
 def _one_antenna_text(station) -> str:
@@ -234,7 +234,7 @@ def _title_block(doc: _Doc, rect: QRectF, result) -> None:
     right = [
         f"Site (WGS84): {st.lat:.5f}, {st.lon:.5f}",
         f"{dms(st.lat, 'N', 'S')}, {dms(st.lon, 'E', 'W')}",
-        f"Computed: {result.created}; study file saved {_saved(spec.path)}",
+        f"Computed {result.created}; study saved {_saved(spec.path).split(' ')[0]}",
         f"mwreach {version()}; file {pathlib.Path(spec.path).name}",
     ]
     col = inner.adjusted(0, h + 2 * PT, 0, 0)
