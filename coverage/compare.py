@@ -9,6 +9,8 @@ of the new study (else the old one's).
 
 from __future__ import annotations
 
+import pathlib
+
 import shapely
 
 from .geodesy import geodesic_area_km2
@@ -48,7 +50,8 @@ def compare_results(before, after) -> dict:
         raise ValueError("the two studies have no contour level in common; give both the same "
                          "[[contour]] levels")
     return {"before": before.spec.path, "after": after.spec.path,
-            "population_source": None if layer is None else layer.source, "levels": rows}
+            "population_source": None if layer is None else pathlib.Path(layer.source).name,
+            "levels": rows}
 
 
 def compare_geojson(comparison: dict) -> dict:

@@ -8,6 +8,7 @@ computes coverage.
 from __future__ import annotations
 
 import datetime as _dt
+import pathlib
 import time
 from dataclasses import dataclass
 
@@ -41,7 +42,9 @@ def population_summary(spec: StudySpec, contours, inter=None) -> dict | None:
     if inter is not None and inter.night is not None:
         night = pop.count_in(inter.night.polygon_lonlat)
     return {
-        "source": pop.source, "property": pop.key, "total": pop.total,
+        # the file as the study names it (relative to the study), never a machine's path
+        "source": (spec.population_table or {}).get("file", pathlib.Path(pop.source).name),
+        "property": pop.key, "total": pop.total,
         "levels": [pop.count_in(c.polygon_lonlat) for c in contours],
         "community": (pop.count_in(spec.community.geometry) if spec.community is not None
                       else None),
