@@ -217,7 +217,7 @@ class _Progress:
 
 def _cmd_run(args) -> int:
     from .export import write_outputs
-    from .report import describe_period, people_text
+    from .report import describe_period, people_parts, people_text
     from .station import period_rows
     from .study import Study
 
@@ -254,12 +254,7 @@ def _cmd_run(args) -> int:
                   "further out (field recovers over water); see radials.csv")
     if people:
         pop = result.population
-        extra = []
-        if pop["community"] is not None:
-            extra.append(f"community {people_text(pop['community'])}")
-        if pop["night_service"] is not None:
-            extra.append(f"inside the night interference-free contour "
-                         f"{people_text(pop['night_service'])}")
+        extra = people_parts(pop)
         print(f"people ({pathlib.Path(pop['source']).name}, '{pop['property']}'): "
               + "; ".join(extra + [f"layer total {people_text(pop['total'])}"]))
     if result.interference is not None:

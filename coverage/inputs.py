@@ -342,6 +342,19 @@ def _features(data, path) -> list:
     return features
 
 
+def _feature_properties(features, path):
+    """(``"feature N of FILE"``, feature, properties) for each GeoJSON Feature, refusing what
+    is not a Feature or whose properties are not an object."""
+    for i, feat in enumerate(features, 1):
+        where = f"feature {i} of {path}"
+        if not isinstance(feat, dict) or feat.get("type") != "Feature":
+            raise ValueError(f"{where}: expected a GeoJSON Feature")
+        props = feat.get("properties") or {}
+        if not isinstance(props, dict):
+            raise ValueError(f"{where}: properties must be an object")
+        yield where, feat, props
+
+
 ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note", "buildable", "fit")
 
 
@@ -359,13 +372,7 @@ def load_zones(path, default, notes: list | None = None):
     zones = []
     features = _features(read_json(path), path)
     check_count("zones", len(features), str(path))
-    for i, feat in enumerate(features, 1):
-        where = f"feature {i} of {path}"
-        if not isinstance(feat, dict) or feat.get("type") != "Feature":
-            raise ValueError(f"{where}: expected a GeoJSON Feature")
-        props = feat.get("properties") or {}
-        if not isinstance(props, dict):
-            raise ValueError(f"{where}: properties must be an object")
+    for i, (where, feat, props) in enumerate(_feature_properties(features, path), 1):
         check_keys(props, ZONE_PROPERTIES, f"properties of {where}",
                    required=("conductivity_ms_m", "permittivity"))
         name = props.get("name")
@@ -416,13 +423,7 @@ def read_population(path, prop: str = "population", notes: list | None = None):
     else:
         features = _features(read_json(path), path)
         check_count("population", len(features), str(path))
-        for i, feat in enumerate(features, 1):
-            where = f"feature {i} of {path}"
-            if not isinstance(feat, dict) or feat.get("type") != "Feature":
-                raise ValueError(f"{where}: expected a GeoJSON Feature")
-            props = feat.get("properties") or {}
-            if not isinstance(props, dict):
-                raise ValueError(f"{where}: properties must be an object")
+        for where, feat, props in _feature_properties(features, path):
             if prop not in props:
                 raise ValueError(f"{where}: missing property {prop!r} (the population count; "
                                  "[population] property names another)")

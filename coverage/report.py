@@ -134,3 +134,15 @@ def describe_period(row: dict) -> str:
 def people_text(n: float | None) -> str:
     """A count of people for reports: whole people with thousands separators; None → "—"."""
     return "—" if n is None else f"{n:,.0f}"
+
+
+def people_parts(population: dict, community_name: str = "community") -> list[str]:
+    """The people in the community and inside the night interference-free contour, as texts
+    (the parts a population summary of :func:`~.study.population_summary` has)."""
+    parts = []
+    if population["community"] is not None:
+        parts.append(f"{community_name} {people_text(population['community'])}")
+    if population["night_service"] is not None:
+        parts.append("inside the night interference-free contour "
+                     f"{people_text(population['night_service'])}")
+    return parts

@@ -9,12 +9,12 @@ import math
 import numpy as np
 import shapely
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QColor, QFont, QImage, QPainter, QPainterPath, QPen
+from PySide6.QtGui import QColor, QImage, QPainterPath, QPen
 
 from mwreach.coverage.geodesy import local_projection
 from mwreach.coverage.report import people_text
 
-from .qt import png_bytes
+from .qt import png_bytes, white_canvas
 
 __all__ = ["render_compare", "compare_png"]
 
@@ -44,13 +44,7 @@ def _nice(km: float) -> float:
 
 def render_compare(comparison: dict, before, after, width: int = 1400,
                    height: int = 1100) -> QImage:
-    img = QImage(width, height, QImage.Format_ARGB32)
-    img.fill(Qt.white)
-    p = QPainter(img)
-    p.setRenderHint(QPainter.Antialiasing, True)
-    font = QFont("DejaVu Sans", 1)
-    font.setPointSizeF(11)
-    p.setFont(font)
+    img, p, font = white_canvas(width, height)
     s0, s1 = before.spec.station, after.spec.station
     p.drawText(QRectF(20, 6, width - 40, 44), Qt.AlignLeft | Qt.AlignVCenter | Qt.TextWordWrap,
                f"What the change gains (green) and loses (red) — {s1.name}: before "

@@ -8,9 +8,9 @@ import math
 
 import numpy as np
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QColor, QFont, QImage, QPainter, QPen, QPolygonF
+from PySide6.QtGui import QColor, QImage, QPen, QPolygonF
 
-from .qt import png_bytes
+from .qt import png_bytes, white_canvas
 
 __all__ = ["render_exposure_plan", "exposure_png"]
 
@@ -19,13 +19,7 @@ BOUNDARY_COLOURS = {"fcc-general": "#d7191c", "fcc-occupational": "#2b83ba"}
 
 
 def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> QImage:
-    img = QImage(width, height, QImage.Format_ARGB32)
-    img.fill(Qt.white)
-    p = QPainter(img)
-    p.setRenderHint(QPainter.Antialiasing, True)
-    font = QFont("DejaVu Sans", 1)
-    font.setPointSizeF(11)
-    p.setFont(font)
+    img, p, font = white_canvas(width, height)
     title = (f"RF exposure screening — {data['station']}, {data['freq_khz']:g} kHz, "
              f"{data['power_kw']:g} kW ({data['period']}), {data['height_m']:g} m above ground")
     p.drawText(QRectF(20, 10, width - 40, 30), Qt.AlignLeft | Qt.AlignVCenter, title)

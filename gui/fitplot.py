@@ -5,11 +5,11 @@ from __future__ import annotations
 
 import numpy as np
 from PySide6.QtCore import QBuffer, QByteArray, QIODevice, QPointF, QRectF, Qt
-from PySide6.QtGui import QColor, QFont, QImage, QPainter, QPen
+from PySide6.QtGui import QColor, QFont, QPainter, QPen
 
 from mwreach.coverage.fit import curve_family
 
-from .qt import png_bytes
+from .qt import png_bytes, white_canvas
 
 __all__ = ["draw_fit_plot", "fit_png", "fit_pdf"]
 
@@ -122,12 +122,7 @@ def _radial_paths_fn(spec, fit):
 
 def fit_png(spec, fit, eps_r: float, width: int = 1000, height: int = 640) -> bytes:
     family = curve_family(spec.station.freq_khz, eps_r, spec.earth_k)
-    img = QImage(width, height, QImage.Format_ARGB32)
-    img.fill(Qt.white)
-    p = QPainter(img)
-    p.setRenderHint(QPainter.Antialiasing, True)
-    font = QFont("DejaVu Sans", 1)
-    font.setPointSizeF(11.0)
+    img, p, font = white_canvas(width, height)
     font.setBold(True)
     p.setFont(font)
     p.drawText(QRectF(16, 6, width - 32, 24), Qt.AlignLeft,

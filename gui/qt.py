@@ -5,7 +5,7 @@ from __future__ import annotations
 import os
 import sys
 
-__all__ = ["ensure_app", "png_bytes"]
+__all__ = ["ensure_app", "png_bytes", "white_canvas"]
 
 
 def ensure_app(gui: bool = False):
@@ -38,3 +38,20 @@ def png_bytes(image) -> bytes:
     image.save(buf, "PNG")
     buf.close()
     return bytes(data.data())
+
+
+def white_canvas(width: int, height: int, pt: float = 11.0):
+    """(image, painter, font) for a PNG picture: a white ``width`` × ``height`` image, an
+    antialiased painter on it and its ``pt``-point DejaVu Sans font, already set. The caller
+    ends the painter."""
+    from PySide6.QtCore import Qt
+    from PySide6.QtGui import QFont, QImage, QPainter
+
+    img = QImage(width, height, QImage.Format_ARGB32)
+    img.fill(Qt.white)
+    p = QPainter(img)
+    p.setRenderHint(QPainter.Antialiasing, True)
+    font = QFont("DejaVu Sans", 1)
+    font.setPointSizeF(pt)
+    p.setFont(font)
+    return img, p, font

@@ -68,7 +68,7 @@ def methods_lines(result) -> list[str]:
 def key_figures(result) -> list[str]:
     """The figures a reader looks for first: areas, community share, maximum powers and the
     worst margin (no scientific notation)."""
-    from mwreach.coverage.report import format_kw, people_text
+    from mwreach.coverage.report import format_kw, people_parts, people_text
 
     out = []
     plan = result.spec.interference
@@ -81,12 +81,7 @@ def key_figures(result) -> list[str]:
         mark = " (protected)" if c.level_mv_m == protected else ""
         out.append(f"{c.level_mv_m:g} mV/m{mark}: {c.area_km2:,.0f} km²{people}{share}")
     if pop is not None:
-        parts = []
-        if pop["community"] is not None:
-            parts.append(f"{result.spec.community.name} {people_text(pop['community'])}")
-        if pop["night_service"] is not None:
-            parts.append(f"inside the night interference-free contour "
-                         f"{people_text(pop['night_service'])}")
+        parts = people_parts(pop, result.spec.community.name if result.spec.community else "")
         if parts:
             out.append("People: " + "; ".join(parts))
     inter = result.interference
