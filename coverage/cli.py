@@ -584,7 +584,7 @@ def _scheduler_identity(address: str, timeout_s: float) -> str:
 
 def _cmd_compare(args) -> int:
     """Gains and losses per level between two studies (coverage/compare.py)."""
-    from .compare import compare_geojson, compare_results
+    from .compare import NO_COMMON_LEVEL, compare_geojson, compare_results
     from .report import people_text
     from .safefiles import json_text, refuse_overwriting_inputs, writable_folder, write_set
     from .study import Study
@@ -593,6 +593,9 @@ def _cmd_compare(args) -> int:
     before, after = Study.from_file(args.before), Study.from_file(args.after)
     inputs = tuple(before.spec.input_files) + tuple(after.spec.input_files)
     refuse_overwriting_inputs(args.out, names, inputs)
+    if not ({round(lv.field_mv_m, 9) for lv in before.spec.levels}
+            & {round(lv.field_mv_m, 9) for lv in after.spec.levels}):
+        raise ValueError(NO_COMMON_LEVEL)  # before any folder is made
     writable_folder(args.out)
     r0 = before.run(interference=False)
     r1 = after.run(interference=False)

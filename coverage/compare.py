@@ -15,7 +15,10 @@ import shapely
 
 from .geodesy import geodesic_area_km2
 
-__all__ = ["compare_results", "compare_geojson"]
+__all__ = ["compare_results", "compare_geojson", "NO_COMMON_LEVEL"]
+
+NO_COMMON_LEVEL = ("the two studies have no contour level in common; give both the same "
+                   "[[contour]] levels")
 
 
 def _people(layer, region):
@@ -47,8 +50,7 @@ def compare_results(before, after) -> dict:
                      "loss_population": _people(layer, loss),
                      "gain": gain, "loss": loss})
     if not rows:
-        raise ValueError("the two studies have no contour level in common; give both the same "
-                         "[[contour]] levels")
+        raise ValueError(NO_COMMON_LEVEL)
     return {"before": before.spec.path, "after": after.spec.path,
             "population_source": None if layer is None else pathlib.Path(layer.source).name,
             "levels": rows}

@@ -170,3 +170,14 @@ def test_demo_population_in_outputs(demo_run):
     assert summary["population"]["community"] > 18_000  # the invented town's 18,000 and more
     assert summary["population"]["night_service"] is not None
     assert "people" in printed and "community 18," in printed
+
+
+def test_compare_without_a_common_level_is_one_line_and_makes_no_folder(tmp_path, layer_dir):
+    a = study_with_layer(layer_dir, "grid.geojson")
+    b = tmp_path / "other.toml"
+    b.write_text(a.read_text().replace("field_mv_m = 5.0", "field_mv_m = 4.0")
+                 .replace('file = "grid.geojson"', f'file = "{layer_dir / "grid.geojson"}"'))
+    rc, out, err = run_cli("compare", a, b, "-o", tmp_path / "cmp")
+    assert rc == 2
+    one_line_error(err, "no contour level in common")
+    assert not (tmp_path / "cmp").exists()
