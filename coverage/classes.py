@@ -14,7 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 __all__ = ["StationClass", "STATION_CLASSES", "PROTECTION_PLANS", "OVERLAP_RULES",
-           "station_class"]
+           "RELATIVE_RF_CURVE", "RELATIVE_RF_SOURCE", "station_class", "relative_rf_db"]
 
 _CLASS_SRC = ("levels: 47 CFR 73.182 (from memory: its paragraphs were not found in the stored "
               "texts); powers: 47 CFR 73.21(a)(1)–(3) (read), class C 73.21(c) (from memory)")
@@ -132,3 +132,30 @@ OVERLAP_RULES: dict[int, tuple[float, float, str]] = {
     3: (25.0, 25.0, "third adjacent: 25 mV/m against 25 mV/m, 47 CFR 73.37(a) (read); "
                     "1937 North American agreement App. III Table I (read)"),
 }
+
+
+#: Relative RF protection ratio [dB] against the spacing of the two carriers [kHz]: the amount
+#: by which the co-channel ratio falls when the unwanted carrier is that far from the wanted one
+#: (double-sideband AM, about 4.5 kHz audio bandwidth). Straight lines in dB between the rows;
+#: no value beyond the last row. A study may give its own rows ([protection] spacing_curve).
+RELATIVE_RF_CURVE: tuple[tuple[float, float], ...] = (
+    (0.0, 0.0), (1.0, -1.5), (2.0, -4.0), (3.0, -7.0), (4.0, -10.5), (5.0, -14.0),
+    (6.0, -17.5), (7.0, -21.0), (8.0, -24.5), (9.0, -28.0), (10.0, -31.0), (11.0, -34.0),
+    (12.0, -37.0), (13.0, -40.0), (14.0, -42.5), (15.0, -45.0), (16.0, -47.0), (18.0, -50.0),
+    (20.0, -52.0),
+)
+RELATIVE_RF_SOURCE = ("relative RF protection-ratio curve, ITU-R BS.560-4 §2 Figure 1 (from "
+                      "memory: the figure is a graph that was not found in the stored texts; "
+                      "verify the values against it before filing)")
+
+
+def relative_rf_db(spacing_khz: float, curve=RELATIVE_RF_CURVE) -> float | None:
+    """The relative RF protection ratio [dB] at a carrier spacing [kHz] (either sign), by
+    straight lines between the rows of ``curve``; None beyond its last row."""
+    import numpy as np
+
+    spacing = abs(float(spacing_khz))
+    khz = [r[0] for r in curve]
+    if spacing > khz[-1] + 1e-9:
+        return None
+    return float(np.interp(spacing, khz, [r[1] for r in curve]))

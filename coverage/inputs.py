@@ -741,7 +741,8 @@ def protection_from_table(table: dict, where: str):
     from .classes import PROTECTION_PLANS
     from .interference import ORDINALS, ProtectionTable
 
-    keys = ["plan", "raster_khz"] + [f"{p}_{o}_db" for p in ("day", "night") for o in ORDINALS]
+    keys = (["plan", "raster_khz", "spacing_curve"]
+            + [f"{p}_{o}_db" for p in ("day", "night") for o in ORDINALS])
     check_keys(table, keys, where)
     plan = choice("plan", table.get("plan", "us"), tuple(PROTECTION_PLANS), where)
     base = PROTECTION_PLANS[plan]
@@ -756,7 +757,28 @@ def protection_from_table(table: dict, where: str):
                 default = base["ratios"].get((p, i))
                 same = default is not None and default[0] == v
                 ratios[(p, i)] = (v, default[1] if same else f"set in the study file ({k})")
-    return ProtectionTable(float(raster), ratios, plan)
+    extra = {}
+    if "spacing_curve" in table:
+        extra = {"curve": spacing_curve(table["spacing_curve"], where),
+                 "curve_source": "relative RF protection-ratio curve set in the study file "
+                                 "(spacing_curve)"}
+    return ProtectionTable(float(raster), ratios, plan, **extra)
+
+
+def spacing_curve(rows, where: str) -> tuple:
+    """``spacing_curve = [[0, 0], [1, -1.5], …]``: relative RF protection ratio [dB] against
+    carrier spacing [kHz], from 0 kHz (0 dB) in increasing spacing, at most 100 kHz."""
+    what = ("spacing_curve must be a list of [spacing_khz, relative_db] pairs starting at "
+            "[0, 0] with increasing spacing")
+    if not isinstance(rows, list) or len(rows) < 2 or not all(
+            isinstance(r, list) and len(r) == 2 for r in rows):
+        raise ValueError(f"{what} in {where}")
+    out = tuple((check_finite("spacing_curve spacing_khz", r[0], 0.0, 100.0, where=where),
+                 check_finite("spacing_curve relative_db", r[1], -100.0, 20.0, where=where))
+                for r in rows)
+    if out[0] != (0.0, 0.0) or any(b[0] <= a[0] for a, b in zip(out, out[1:])):
+        raise ValueError(f"{what} in {where}")
+    return out
 
 
 def night_from_table(t: dict, where: str):
@@ -799,6 +821,19 @@ COMMUNITY_KEYS = ("name", "boundary")
 OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg", "utc_offset_h",
                "sun_year")
 INTERFERENCE_KEYS = ("protected_day_mv_m", "contour_step_deg", "neighbours")
+
+
+def check_on_raster(freq_khz: float, protection, where: str) -> None:
+    """Refuse a proposal off its protection plan's raster (channels at whole multiples of the
+    raster), naming the two nearest channels."""
+    raster = protection.raster_khz
+    k = freq_khz / raster
+    if abs(k - round(k)) * raster < 1e-6:
+        return
+    lo, hi = math.floor(k) * raster, math.ceil(k) * raster
+    raise ValueError(f"freq_khz {freq_khz:g} is off the {raster:g} kHz raster of the "
+                     f"{protection.plan!r} protection plan: the nearest channels are {lo:g} and "
+                     f"{hi:g} kHz in {where}")
 
 
 def parse_study(doc: dict, path="<study>"):
@@ -964,6 +999,8 @@ def parse_study(doc: dict, path="<study>"):
                                                 90.0, where=w)
 
     interference, neighbour_tables = _parse_interference(doc, base, fname, inputs, notes)
+    if interference is not None:
+        check_on_raster(freq, interference.protection, where_join("[station]", fname))
 
     st_title = st.get("title", station.name)
     return StudySpec(
@@ -1240,7 +1277,7 @@ def check_round_trip(doc: dict, text: str, path) -> dict:
 
 def spec_to_doc(spec) -> dict:
     """The study as a TOML document (the structure :func:`parse_study` reads)."""
-    from .interference import ORDINALS
+    from .interference import ORDINALS, ProtectionTable
 
     s = spec.station
     doc: dict = {}
@@ -1286,6 +1323,8 @@ def spec_to_doc(spec) -> dict:
         prot = {"plan": plan.protection.plan, "raster_khz": int(plan.protection.raster_khz)}
         for (period, off), (ratio, _src) in sorted(plan.protection.ratios.items()):
             prot[f"{period}_{ORDINALS[off]}_db"] = ratio
+        if plan.protection.curve != ProtectionTable().curve:
+            prot["spacing_curve"] = [list(r) for r in plan.protection.curve]
         doc["protection"] = prot
         if spec.neighbour_tables:
             doc["neighbour"] = [dict(t) for t in spec.neighbour_tables]

@@ -9,10 +9,19 @@ import re
 import numpy as np
 
 
+def offset_text(offset) -> str:
+    """A channel offset as printed: "0", "+1", "-2"; off the raster "+0.1" (of a channel)."""
+    if offset is None:
+        return ""
+    if isinstance(offset, (int, np.integer)) or float(offset).is_integer():
+        return f"{int(offset):+d}".replace("+0", "0")
+    return f"{float(offset):+.2f}".rstrip("0")
+
+
 def summary_cells(row: dict) -> dict:
     """Display texts of one :meth:`InterferenceResult.neighbour_summary` row, shared by the
     command line, the sheet and the window: offset, ratio, value, mechanism and result."""
-    off = "" if row["offset_channels"] is None else f"{row['offset_channels']:+d}".replace("+0", "0")
+    off = offset_text(row["offset_channels"])
     ratio = "" if row["ratio_db"] is None else f"{row['ratio_db']:g}"
     if row["kind"] == "day overlap":
         value = f"{row['overlap_km2']:.1f} km² overlap"

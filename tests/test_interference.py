@@ -816,3 +816,96 @@ def test_the_demo_passes_its_overlap_check_below_its_maximum_day_power():
         ov = next(o for o in run_interference(at, at.interference).overlaps
                   if o.neighbour == "Kestrel Point Radio")
         assert ov.passed is passes, factor
+
+
+# --- carriers off the raster --------------------------------------------------------------------
+
+def test_relative_curve_rows_and_interpolation():
+    from mwreach.coverage.classes import RELATIVE_RF_CURVE, relative_rf_db
+
+    # the curve's rows are ITU-R BS.560-4 §2 Figure 1 values recalled from memory (the figure
+    # was not found in the stored texts), so this checks the shape the code relies on, not the
+    # figure: 0 dB at the same carrier, falling monotonically with spacing
+    khz = [r[0] for r in RELATIVE_RF_CURVE]
+    db = [r[1] for r in RELATIVE_RF_CURVE]
+    assert RELATIVE_RF_CURVE[0] == (0.0, 0.0)
+    assert all(b < a for a, b in zip(db, db[1:])) and all(b > a for a, b in zip(khz, khz[1:]))
+    # straight lines between rows, either sign of spacing, nothing past the last row
+    assert relative_rf_db(4.5) == pytest.approx((db[4] + db[5]) / 2, abs=1e-12)
+    assert relative_rf_db(-4.5) == relative_rf_db(4.5)
+    assert relative_rf_db(khz[-1] + 0.5) is None
+
+
+@pytest.mark.parametrize("freq, expected", [
+    # on the raster the plan's rows (47 CFR 73.37(a) (read): 26 dB co-channel, 6 dB first
+    # adjacent); between them the curve's shape scaled to meet both ends:
+    # R = 26 + A(Δf)·(26 − 6)/(0 − A(10 kHz))
+    (1390.0, 26.0), (1400.0, 6.0),
+    (1391.0, 26.0 - 1.5 * 20.0 / 31.0), (1395.0, 26.0 - 14.0 * 20.0 / 31.0),
+    (1381.0, 26.0 - 28.0 * 20.0 / 31.0),
+    # past the first adjacent channel the ratio falls as the curve does from 10 kHz
+    (1405.0, 6.0 + (-45.0 + 31.0)),
+])
+def test_ratio_at_any_carrier_spacing(freq, expected):
+    prot = ProtectionTable()
+    r = prot.ratio_db("night", prot.offset(1390.0, freq))
+    assert r[0] == pytest.approx(expected, abs=0.001)  # dB: the ratio is rounded to 0.001 dB
+    if freq % 10:
+        assert "BS.560" in r[1] and "from memory" in r[1]  # the source stays beside the value
+
+
+def test_ratio_is_continuous_across_the_raster_and_ends_with_the_curve():
+    prot = ProtectionTable()
+    spacing = np.arange(0.0, 19.99, 0.05)
+    r = np.array([prot.ratio_db("day", prot.offset(1000.0, 1000.0 + s))[0] for s in spacing])
+    assert np.all(np.diff(r) <= 1e-9)  # never rises with spacing
+    assert np.max(np.abs(np.diff(r))) < 0.3  # dB per 0.05 kHz: no jump at 10 kHz (6 dB)
+    assert prot.ratio_db("day", prot.offset(1000.0, 1020.5)) is None  # past the curve
+
+
+def test_neighbour_off_the_raster_is_protected_not_dropped():
+    on = _spec([_nb("A", 1390.0)], floor=0.01)
+    off = _spec([_nb("A", 1391.0)], floor=0.01)
+    r_on = run_interference(on, on.interference)
+    r_off = run_interference(off, off.interference)
+    assert r_off.rows and {r.neighbour for r in r_off.rows} == {"A"}
+    assert all(r.offset_channels == pytest.approx(0.1) for r in r_off.rows)
+    ratio = ProtectionTable().ratio_db("night", 0.1)[0]
+    # the same paths and fields as co-channel, only the ratio differs (26 dB against ~25 dB)
+    a = {(r.kind, r.bearing_deg): r.margin_db for r in r_on.rows}
+    b = {(r.kind, r.bearing_deg): r.margin_db for r in r_off.rows}
+    common = [k for k in a if k in b and k[0] != "night RSS"]
+    assert common
+    for k in common:
+        # dB: the neighbour's fields at 1391 kHz differ from those at 1390 kHz by a few
+        # hundredths of a dB (ground-wave attenuation grows with frequency)
+        assert b[k] - a[k] == pytest.approx(26.0 - ratio, abs=0.05)
+    assert any("off the 10 kHz raster" in n and "A (1391 kHz" in n for n in r_off.notes)
+
+
+@pytest.mark.parametrize("freq, plan, text", [
+    (1391, "us", "freq_khz 1391 is off the 10 kHz raster of the 'us' protection plan: the "
+                 "nearest channels are 1390 and 1400 kHz"),
+    (1390, "regions-1-3", "freq_khz 1390 is off the 9 kHz raster of the 'regions-1-3' "
+                          "protection plan: the nearest channels are 1386 and 1395 kHz"),
+])
+def test_proposal_off_the_raster_is_refused_in_one_line(tmp_path, freq, plan, text):
+    import subprocess
+    import sys
+    import shutil
+
+    for f in DEMO.parent.iterdir():
+        if f.is_file():
+            shutil.copy(f, tmp_path / f.name)
+    study = tmp_path / "quellmoor.toml"
+    s = study.read_text(encoding="utf-8").replace("freq_khz = 1390\npower_day_kw",
+                                                  f"freq_khz = {freq}\npower_day_kw")
+    s = s.replace("raster_khz = 10\n", f'plan = "{plan}"\n')
+    study.write_text(s, encoding="utf-8")
+    before = study.read_bytes()
+    p = subprocess.run([sys.executable, "-m", "mwreach.coverage.cli", "run", str(study), "-o",
+                        str(tmp_path / "out")], capture_output=True, text=True)
+    assert p.returncode == 2
+    lines = p.stderr.strip().splitlines()
+    assert len(lines) == 1 and text in lines[0] and str(study) in lines[0]
+    assert study.read_bytes() == before and not (tmp_path / "out").exists()

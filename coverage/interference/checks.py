@@ -16,7 +16,7 @@ from .maxpower import _max_powers
 from .nightlimit import neighbour_night_base, NeighbourLimit, skywave_service_points
 from .nightservice import night_service
 from .overlap import _day_polygon, _day_radials, _overlap_area, _overlap_entries
-from .records import channel_offset, InterferencePlan, InterferenceResult, MarginRow, OverlapCheck
+from .records import InterferencePlan, InterferenceResult, MarginRow, OverlapCheck
 
 
 def _margin_rows(kind, name, off, ratio, brg, lat, lon, wanted, unwanted, mech=None,
@@ -47,19 +47,23 @@ class NeighbourChecks:
         classes = self.classes = plan.classes or STATION_CLASSES
         notes = self.notes = []
         self.day_ok, self.night_ok, self.overlap_ok = [], [], []
+        far, off_raster = [], []
         for n in plan.neighbours:
-            off = channel_offset(st.freq_khz, n.freq_khz, prot.raster_khz)
-            if off is None:
-                notes.append(f"{n.name} ({n.freq_khz:g} kHz) is off the {prot.raster_khz:g} kHz "
-                             "raster: no protection ratio applies; it contributes nothing")
-                continue
+            off = prot.offset(st.freq_khz, n.freq_khz)
+            on_raster = isinstance(off, int)
             rd, rn = prot.ratio_db("day", off), prot.ratio_db("night", off)
+            if not on_raster and (rd or rn):
+                off_raster.append(f"{n.name} ({n.freq_khz:g} kHz, "
+                                  f"{abs(n.freq_khz - st.freq_khz):g} kHz away)")
             if rd is None and rn is None:
-                if abs(off) in OVERLAP_RULES:
+                if on_raster and abs(off) in OVERLAP_RULES:
                     self.overlap_ok.append((n, off))
-                    continue
-                notes.append(f"{n.name} ({n.freq_khz:g} kHz, offset {off:+d} channels): no "
-                             "protection ratio defined for this offset; it contributes nothing")
+                elif on_raster and abs(off) <= len(OVERLAP_RULES):
+                    notes.append(f"{n.name} ({n.freq_khz:g} kHz, offset {off:+d} channels): no "
+                                 "protection ratio defined for this offset; it contributes "
+                                 "nothing")
+                else:
+                    far.append(n)
                 continue
             if rd is not None:
                 self.day_ok.append((n, off, rd[0]))
@@ -67,6 +71,16 @@ class NeighbourChecks:
                 notes.append(f"{n.name} has no night power (daytime only): no night checks")
             elif rn is not None:
                 self.night_ok.append((n, off, rn[0]))
+        if off_raster:
+            notes.append(f"off the {prot.raster_khz:g} kHz raster, protected at their carrier "
+                         f"spacing ({prot.curve_source}): " + "; ".join(off_raster))
+        if far:
+            span = prot.curve[-1][0]
+            notes.append(f"{len(far)} neighbour(s) farther than {len(OVERLAP_RULES)} channels or "
+                         f"{span:g} kHz in frequency: no protection ratio or overlap rule applies; they "
+                         "contribute nothing (" + ", ".join(
+                             f"{n.name} {n.freq_khz:g} kHz" for n in far[:5])
+                         + (", …)" if len(far) > 5 else ")"))
         if plan.night.method == "itu":
             notes.append("ITU-R P.1147 constants (k, A, b, L_p) are recalled from memory, not "
                          "read in the published text (docs/methods.md §4.2); check them before "
@@ -93,7 +107,7 @@ class NeighbourChecks:
             k = n.klass(classes)
             if k.night == "none":
                 notes.append(f"{n.name} is class {k.name}: no night protection, no night check")
-            elif k.night == "skywave50" and off == 0:
+            elif k.night == "skywave50" and abs(off) < 0.5:  # within half a channel: co-channel
                 level = n.night_level_mv_m(classes)
                 nb, _, nlat, nlon = skywave_service_points(n, level, self.brg, plan.night)
                 self.night_targets[n.name] = ("fixed", (nb, nlat, nlon),
@@ -117,8 +131,7 @@ class NeighbourChecks:
                 for o in listed:
                     if o.name == n.name:
                         continue
-                    r = prot.ratio_db("night", channel_offset(n.freq_khz, o.freq_khz,
-                                                              prot.raster_khz))
+                    r = prot.ratio_db("night", prot.offset(n.freq_khz, o.freq_khz))
                     if r is not None:
                         others.append((o, r[0]))
                 self.night_targets[n.name] = ("nif", neighbour_night_base(

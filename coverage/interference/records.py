@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..classes import OVERLAP_RULES, PROTECTION_PLANS
+from ..classes import OVERLAP_RULES, PROTECTION_PLANS, RELATIVE_RF_CURVE, RELATIVE_RF_SOURCE, relative_rf_db
 from ..station import Station
 
 
@@ -24,28 +24,77 @@ DEFAULT_RATIOS = dict(PROTECTION_PLANS["us"]["ratios"])
 
 @dataclass(frozen=True)
 class ProtectionTable:
-    """Protection (D/U) ratios [dB] by period and channel offset (0 = co-channel … 3).
+    """Protection (D/U) ratios [dB] by period and channel offset (0 = co-channel … 3), and the
+    relative RF protection-ratio curve for carriers off the raster.
 
-    An offset without a ratio contributes nothing; the report says so.
+    An offset on the raster without a ratio contributes nothing; the report says so. A carrier
+    off the raster (:meth:`offset` gives a fraction of a channel) is protected with the
+    co-channel ratio lowered by the curve at its spacing (:meth:`ratio_db`).
     """
 
     raster_khz: float = 10.0
     ratios: dict = field(default_factory=lambda: dict(DEFAULT_RATIOS))
     plan: str = "us"
+    curve: tuple = RELATIVE_RF_CURVE  # ((spacing kHz, relative dB), …), from 0 kHz up
+    curve_source: str = RELATIVE_RF_SOURCE
+
+    def offset(self, freq_khz: float, other_khz: float):
+        """The other carrier's offset in channels: an int on the raster (0, ±1, …), else a
+        float (1391 against 1390 kHz on a 10 kHz raster: 0.1)."""
+        off = channel_offset(freq_khz, other_khz, self.raster_khz)
+        if off is not None and abs(other_khz - freq_khz - off * self.raster_khz) < 1e-6:
+            return off
+        return round((other_khz - freq_khz) / self.raster_khz, 6)
 
     def adjacent_day_mv_m(self, offset: int | None) -> float | None:
         """The plan's protected day contour for every class at this offset, if it sets one
         (the US plan: 0.5 mV/m on the first adjacent channel, 47 CFR 73.37(a))."""
-        if offset is None:
+        if offset is None or not isinstance(offset, int):
             return None
         row = PROTECTION_PLANS.get(self.plan, {}).get("adjacent_day_mv_m", {}).get(abs(offset))
         return None if row is None else row[0]
 
-    def ratio_db(self, period: str, offset: int | None):
-        """(ratio dB, source) or None when no ratio is defined for that offset."""
+    def ratio_db(self, period: str, offset):
+        """(ratio dB, source), or None when none is defined for that offset.
+
+        On the raster (an int offset) the plan's row. Off it (a float offset), at a carrier
+        spacing Δf = |offset| × raster, the plan's own ratios at the channels on either side
+        hold and the relative RF protection-ratio curve
+        (:data:`~mwreach.coverage.classes.RELATIVE_RF_CURVE`) gives the shape between them:
+        ``R(Δf) = R_k + (A(Δf) − A_k) (R_k − R_k+1) / (A_k − A_k+1)``, with R the plan's ratios
+        and A the curve at channels k and k + 1. Beyond the plan's last ratio (in the US plan the
+        first adjacent channel) the ratio falls as the curve does from there,
+        ``R_k + A(Δf) − A_k``; beyond the curve's last row there is none (None).
+        """
         if offset is None:
             return None
-        return self.ratios.get((period, abs(int(offset))))
+        if isinstance(offset, (int, np.integer)):
+            return self.ratios.get((period, abs(int(offset))))
+        spacing = abs(float(offset)) * self.raster_khz
+        rel = relative_rf_db(spacing, self.curve)
+        k = int(np.floor(abs(float(offset))))
+        here = self.ratios.get((period, 0))
+        for i in range(1, k + 1):  # the plan's last ratio at or below this spacing
+            nxt = self.ratios.get((period, i))
+            if nxt is None:
+                k = i - 1
+                break
+            here = nxt
+        if here is None or rel is None:
+            return None
+        a_k = relative_rf_db(k * self.raster_khz, self.curve)
+        nxt = self.ratios.get((period, k + 1))
+        a_next = relative_rf_db((k + 1) * self.raster_khz, self.curve)
+        if k + 1 == int(np.floor(abs(float(offset)))) + 1 and nxt is not None \
+                and a_next is not None and a_k - a_next > 1e-9:
+            value = here[0] + (rel - a_k) * (here[0] - nxt[0]) / (a_k - a_next)
+            how = (f"between the plan's {here[0]:g} dB and {nxt[0]:g} dB at "
+                   f"{k * self.raster_khz:g} and {(k + 1) * self.raster_khz:g} kHz")
+        else:
+            value = here[0] + rel - a_k
+            how = f"falling from the plan's {here[0]:g} dB at {k * self.raster_khz:g} kHz"
+        source = (f"{spacing:g} kHz carrier spacing, {how} as the {self.curve_source}")
+        return (round(float(value), 3), source)
 
     def rows(self) -> list[dict]:
         """Table rows for reports: period, offset, ratio (None if undefined), source."""
