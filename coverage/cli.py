@@ -443,11 +443,7 @@ def _cmd_search(args) -> int:
     n = len(candidate_sites(spec, settings)[0])
     if n == 0:
         raise UsageError("no candidate site in the area (all water, excluded or outside)")
-    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
-    cores = cores or 1
-    workers = cores if args.workers is None else int(args.workers)
-    if not 1 <= workers <= cores:
-        raise UsageError(f"--workers must be 1–{cores}, the cores available (got {workers})")
+    workers = _workers(args.workers)
     print(f"{n} candidate sites every {settings.step_km:g} km; score: {settings.score}")
     if args.scheduler is not None:
         timeout = check_finite("--connect-timeout", args.connect_timeout, 0.5, 600.0)
@@ -503,6 +499,80 @@ def _cmd_search(args) -> int:
     print("Planning estimate only: a site needs field checks, land rights, local codes and a "
           "licensed engineer's review.")
     return 130 if search.stopped_early else 0
+
+
+def _cmd_channels(args) -> int:
+    """The study on every channel of its plan's raster in a range of the band."""
+    import pathlib
+
+    from .channels import band_channels, channels_csv, channels_summary, run_channels
+    from .inputs import load_study_doc
+    from .safefiles import json_text, refuse_overwriting_inputs, writable_folder, write_set
+
+    doc, spec = load_study_doc(args.study)
+    if spec.interference is None:
+        raise UsageError(f"{args.study}: the study has no neighbours ([interference] or "
+                         "[[neighbour]]): there is nothing to protect, every channel is open")
+    from_khz, to_khz = args.from_khz, args.to_khz
+    freqs = band_channels(spec, from_khz, to_khz)  # refuses NaN, out of band, --from > --to
+    service = check_finite("--service-mv-m", args.service_mv_m, 1e-3, 1e3)
+    names = ["channels.csv", "channels.json", "channels.png"]
+    refuse_overwriting_inputs(args.out, names, spec.input_files)
+    writable_folder(args.out)
+    workers = _workers(args.workers)
+    print(f"{len(freqs)} channels {freqs[0]:g}–{freqs[-1]:g} kHz "
+          f"({spec.interference.protection.raster_khz:g} kHz raster), "
+          f"{len(spec.interference.neighbours)} neighbours listed")
+    if workers == 1:
+        search = run_channels(spec, doc, from_khz, to_khz, service, None, 1, _Eta())
+    else:
+        from concurrent.futures import ProcessPoolExecutor
+        import multiprocessing as mp
+
+        from .search import ignore_interrupts
+
+        with ProcessPoolExecutor(workers, mp_context=mp.get_context("spawn"),
+                                 initializer=ignore_interrupts) as pool:
+            search = run_channels(spec, doc, from_khz, to_khz, service, pool, workers, _Eta())
+    summary = channels_summary(search, spec)
+    from mwreach.gui.qt import ensure_app  # Qt only for the picture
+
+    ensure_app()
+    from mwreach.gui.bandplot import channels_png
+
+    written = write_set(pathlib.Path(args.out), {
+        "channels.csv": channels_csv(search),
+        "channels.json": json_text(summary, indent=1),
+        "channels.png": channels_png(summary)}, inputs=spec.input_files)
+    print(f"{len(search.rows)} of {len(freqs)} channels in {search.elapsed_s:.1f} s on "
+          f"{search.workers} worker(s)" + (" — stopped early, partial results"
+                                           if search.stopped_early else ""))
+    print(f"{'kHz':>6} {'max day kW':>11} {'max night kW':>13} {'share':>6}  limited by (day / "
+          "night)")
+    best = [r for f in summary["ranked_by_max_day_power"][:8]
+            for r in search.rows if r.freq_khz == f]
+    own = [r for r in search.rows if r.study_channel and r not in best]
+    for r in best + own:
+        day = "—" if r.max_day_kw is None else f"{r.max_day_kw:.3g}"
+        night = "—" if r.max_night_kw is None else f"{r.max_night_kw:.3g}"
+        share = "" if r.community_share is None else f"{r.community_share:.2f}"
+        mark = "  (the study's channel)" if r.study_channel else ""
+        print(f"{r.freq_khz:>6g} {day:>11} {night:>13} {share:>6}  "
+              f"{r.day_limited_by or '—'} / {r.night_limited_by or '—'}{mark}")
+    print("wrote " + ", ".join(str(f) for f in written))
+    print("Planning estimate only: a channel must be confirmed by a licensed engineer's study "
+          "under the rules that apply and by the administration that assigns it.")
+    return 130 if search.stopped_early else 0
+
+
+def _workers(given) -> int:
+    """Local worker processes: ``given`` (--workers), else every core this process may use."""
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+    cores = cores or 1
+    workers = cores if given is None else int(given)
+    if not 1 <= workers <= cores:
+        raise UsageError(f"--workers must be 1–{cores}, the cores available (got {workers})")
+    return workers
 
 
 def _connect_scheduler(address: str, timeout_s: float):
@@ -1020,6 +1090,19 @@ def build_parser() -> argparse.ArgumentParser:
     se.add_argument("--connect-timeout", type=float, default=10.0,
                     help="seconds to wait for the scheduler to answer [s], 0.5–600")
     se.set_defaults(func=_cmd_search)
+
+    ch = sub.add_parser("channels", help="channel search: the study on every channel of its "
+                        "plan's raster, the largest powers each allows", **fmt)
+    ch.add_argument("study", type=_path, help="study file (TOML)")
+    ch.add_argument("-o", "--out", type=_path, required=True, help="output folder")
+    ch.add_argument("--from", dest="from_khz", type=float, default=530.0,
+                    help="lowest channel [kHz]")
+    ch.add_argument("--to", dest="to_khz", type=float, default=1700.0,
+                    help="highest channel [kHz]")
+    ch.add_argument("--service-mv-m", type=float, default=5.0,
+                    help="service contour whose community share counts [mV/m]")
+    ch.add_argument("--workers", type=int, help="local worker processes (default: all cores)")
+    ch.set_defaults(func=_cmd_channels)
 
     fi = sub.add_parser("fit", help="ground conductivity and E0 from field-strength "
                         "measurements", **fmt)

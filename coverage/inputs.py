@@ -823,6 +823,66 @@ OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg", "utc_
 INTERFERENCE_KEYS = ("protected_day_mv_m", "contour_step_deg", "neighbours")
 
 
+def _parse_station(doc: dict, fname: str, notes: list, freq_khz: float | None = None):
+    """``[station]`` and the ``[antenna…]`` tables as a :class:`~.station.Station`; with
+    ``freq_khz`` the station moved to that frequency (tower heights given in metres become
+    their electrical heights there)."""
+    from .groundwave import FREQ_RANGE_KHZ
+    from .geodesy import check_site
+    from .station import Station
+
+    sta = _table(doc, "station", fname)
+    w = where_join("[station]", fname)
+    check_keys(sta, STATION_KEYS, w, required=("lat", "lon", "freq_khz", "power_day_kw"))
+    lat, lon = check_site(sta["lat"], sta["lon"], where=w)
+    freq = check_finite("freq_khz", sta["freq_khz"] if freq_khz is None else freq_khz,
+                        *FREQ_RANGE_KHZ, where=w)
+    p_day = check_finite("power_day_kw", sta["power_day_kw"], 0.0, 1e4, where=w, low_open=True)
+    p_night = check_finite("power_night_kw", sta.get("power_night_kw", p_day), 0.0, 1e4, where=w)
+    name = text_value("name", sta.get("name", "unnamed station"), w)
+    p_crit = None
+    if "power_critical_kw" in sta:
+        p_crit = check_finite("power_critical_kw", sta["power_critical_kw"], 0.0, 1e4, where=w,
+                              low_open=True)
+    day = facility_from_table(_table(doc, "antenna", fname), freq, where_join("[antenna]", fname))
+    own = {p: facility_from_table(_table(doc, f"antenna_{p}", fname), freq,
+                                  where_join(f"[antenna_{p}]", fname))
+           for p in ("night", "critical") if f"antenna_{p}" in doc}
+    if "night" not in own and p_night > 0:
+        notes.append("no [antenna_night]: night checks use the day antenna at the night power")
+    if "critical" in own and p_crit is None:
+        notes.append("[antenna_critical] without power_critical_kw: the critical hours use the "
+                     "day power")
+    klass = sta.get("class", "B")
+    if not isinstance(klass, str):
+        raise ValueError(f"class must be text in quotes (got {_show(klass)}) in {w}")
+    from .classes import station_class
+
+    klass = station_class(klass.upper(), _classes(doc, fname), w).name
+    for period, fac, power in (("", day, p_day), ("_night", own.get("night"), p_night),
+                               ("_critical", own.get("critical"), p_crit or p_day)):
+        if fac is not None:
+            _check_facility(fac, power, where_join(f"[antenna{period}]", fname))
+    try:
+        station = Station(name, lat, lon, freq, p_day, p_night, day.array, klass, day.kind,
+                          day.augmentations, own.get("night"), own.get("critical"), p_crit)
+    except ValueError as exc:
+        raise ValueError(f"{exc} in {fname}") from None
+    return station
+
+
+def retune(spec, doc: dict, freq_khz: float):
+    """The study ``spec`` (read from ``doc``) with its station moved to ``freq_khz``: the same
+    site, powers and antennas, rebuilt at the new frequency; refused off the plan's raster."""
+    import dataclasses
+
+    station = _parse_station(doc, spec.path, [], freq_khz)
+    if spec.interference is not None:
+        check_on_raster(station.freq_khz, spec.interference.protection,
+                        where_join("[station]", spec.path))
+    return dataclasses.replace(spec, station=station)
+
+
 def check_on_raster(freq_khz: float, protection, where: str) -> None:
     """Refuse a proposal off its protection plan's raster (channels at whole multiples of the
     raster), naming the two nearest channels."""
@@ -878,42 +938,7 @@ def parse_study(doc: dict, path="<study>"):
     max_km = check_finite("max_km", st.get("max_km", 0.0), 0.0, MAX_RADIAL_KM, where=w)
     step_km = check_finite("step_km", st.get("step_km", 0.25), 0.01, 5.0, where=w)
 
-    sta = _table(doc, "station", fname)
-    w = where_join("[station]", fname)
-    check_keys(sta, STATION_KEYS, w, required=("lat", "lon", "freq_khz", "power_day_kw"))
-    lat, lon = check_site(sta["lat"], sta["lon"], where=w)
-    freq = check_finite("freq_khz", sta["freq_khz"], *FREQ_RANGE_KHZ, where=w)
-    p_day = check_finite("power_day_kw", sta["power_day_kw"], 0.0, 1e4, where=w, low_open=True)
-    p_night = check_finite("power_night_kw", sta.get("power_night_kw", p_day), 0.0, 1e4, where=w)
-    name = text_value("name", sta.get("name", "unnamed station"), w)
-    p_crit = None
-    if "power_critical_kw" in sta:
-        p_crit = check_finite("power_critical_kw", sta["power_critical_kw"], 0.0, 1e4, where=w,
-                              low_open=True)
-    day = facility_from_table(_table(doc, "antenna", fname), freq, where_join("[antenna]", fname))
-    own = {p: facility_from_table(_table(doc, f"antenna_{p}", fname), freq,
-                                  where_join(f"[antenna_{p}]", fname))
-           for p in ("night", "critical") if f"antenna_{p}" in doc}
-    if "night" not in own and p_night > 0:
-        notes.append("no [antenna_night]: night checks use the day antenna at the night power")
-    if "critical" in own and p_crit is None:
-        notes.append("[antenna_critical] without power_critical_kw: the critical hours use the "
-                     "day power")
-    klass = sta.get("class", "B")
-    if not isinstance(klass, str):
-        raise ValueError(f"class must be text in quotes (got {_show(klass)}) in {w}")
-    from .classes import station_class
-
-    klass = station_class(klass.upper(), _classes(doc, fname), w).name
-    for period, fac, power in (("", day, p_day), ("_night", own.get("night"), p_night),
-                               ("_critical", own.get("critical"), p_crit or p_day)):
-        if fac is not None:
-            _check_facility(fac, power, where_join(f"[antenna{period}]", fname))
-    try:
-        station = Station(name, lat, lon, freq, p_day, p_night, day.array, klass, day.kind,
-                          day.augmentations, own.get("night"), own.get("critical"), p_crit)
-    except ValueError as exc:
-        raise ValueError(f"{exc} in {fname}") from None
+    station = _parse_station(doc, fname, notes)
 
     gr = _table(doc, "ground", fname)
     w = where_join("[ground]", fname)
@@ -1000,7 +1025,7 @@ def parse_study(doc: dict, path="<study>"):
 
     interference, neighbour_tables = _parse_interference(doc, base, fname, inputs, notes)
     if interference is not None:
-        check_on_raster(freq, interference.protection, where_join("[station]", fname))
+        check_on_raster(station.freq_khz, interference.protection, where_join("[station]", fname))
 
     st_title = st.get("title", station.name)
     return StudySpec(
