@@ -517,9 +517,9 @@ def _cmd_channels(args) -> int:
     freqs = band_channels(spec, from_khz, to_khz)  # refuses NaN, out of band, --from > --to
     service = check_finite("--service-mv-m", args.service_mv_m, 1e-3, 1e3)
     names = ["channels.csv", "channels.json", "channels.png"]
+    workers = _workers(args.workers)
     refuse_overwriting_inputs(args.out, names, spec.input_files)
     writable_folder(args.out)
-    workers = _workers(args.workers)
     print(f"{len(freqs)} channels {freqs[0]:g}–{freqs[-1]:g} kHz "
           f"({spec.interference.protection.raster_khz:g} kHz raster), "
           f"{len(spec.interference.neighbours)} neighbours listed")
