@@ -102,3 +102,89 @@ for name, x, y, n in TOWNS:
 people = {"type": "FeatureCollection", "features": towns + cells}
 (HERE / "people.geojson").write_text(json.dumps(people, separators=(",", ":")) + "\n")
 print(f"wrote people.geojson ({len(cells)} cells, {len(towns)} towns)")
+
+# --- a band-wide neighbour list: invented stations on every part of 530–1700 kHz within 3000 km,
+# for the channel search (quellmoor_band.toml). Classes as a band would hold them: a few class A
+# stations on their own channels, mostly class B, class C on a handful of local channels, class
+# D day-timers; a few directional (the Varnholt two-tower array); a few carriers of a 9 kHz
+# raster across an invented regional boundary (off the 10 kHz raster).
+import csv  # noqa: E402
+
+from mwreach.coverage.geodesy import fwd_points  # noqa: E402
+
+rng = np.random.default_rng(1390)
+SYL_A = ["Ar", "Bel", "Cor", "Dra", "El", "Fen", "Gal", "Hob", "Ist", "Jor", "Kel", "Lun",
+         "Mar", "Nor", "Orv", "Pel", "Quin", "Ros", "Sul", "Tam", "Ulv", "Ves", "Wen", "Yar"]
+SYL_B = ["brin", "dale", "fast", "gorm", "hale", "kirk", "lowe", "mere", "nock", "quay",
+         "rith", "stow", "thwe", "vane", "wick", "zell"]
+CLEAR = [640, 750, 880, 1020, 1110, 1200]  # invented clear channels of the class A stations
+LOCAL = [1230, 1240, 1340, 1400, 1450, 1490]  # invented local channels of the class C stations
+names, rows = set(), []
+
+
+def invented_name():
+    while True:
+        n = f"{rng.choice(SYL_A)}{rng.choice(SYL_B)} {rng.choice(['Radio', 'AM', 'Sound', 'Voice'])}"
+        if n not in names:
+            names.add(n)
+            return n
+
+
+def place(min_km, max_km):
+    az = rng.uniform(0.0, 360.0)
+    d = np.sqrt(rng.uniform(min_km ** 2, max_km ** 2))  # uniform over the annulus's area
+    lat, lon = fwd_points(SITE[0], SITE[1], az, d)
+    return round(float(lat), 4), round(float(lon), 4)
+
+
+def station(freq, klass):
+    lat, lon = place(60.0 if klass in "CD" else 150.0, 3000.0 if klass == "A" else 1800.0)
+    if klass == "A":
+        day = night = 50.0
+        height = 190.0
+    elif klass == "B":
+        day = float(rng.choice([0.5, 1.0, 2.5, 5.0, 10.0, 25.0, 50.0]))
+        night = float(min(day, rng.choice([0.25, 0.5, 1.0, 5.0, 10.0])))
+        height = float(rng.choice([70.0, 90.0, 120.0]))
+    elif klass == "C":
+        day, night, height = 1.0, 1.0, 90.0
+    else:
+        day, night, height = float(rng.choice([0.25, 0.5, 1.0, 5.0])), 0.0, 90.0
+    return {"name": invented_name(), "lat": lat, "lon": lon, "freq_khz": freq,
+            "power_day_kw": day, "power_night_kw": night, "height_deg": height,
+            "height_m": "", "loss_ohm": 1, "array": "", "class": klass,
+            "protected_day_mv_m": "", "protected_night_mv_m": ""}
+
+
+for f in range(530, 1701, 10):
+    if f in CLEAR:
+        rows.append(station(f, "A"))
+    k = 5 if f in LOCAL else 4
+    for _ in range(k):
+        klass = "C" if f in LOCAL else str(rng.choice(["B", "B", "B", "D"]))
+        rows.append(station(f, klass))
+for r in rows:  # class B in 1605–1705 kHz: at most 10 kW (47 CFR 73.21(a)(2), read)
+    if r["class"] == "B" and r["freq_khz"] >= 1610:
+        r["power_day_kw"] = min(r["power_day_kw"], 10.0)
+        r["power_night_kw"] = min(r["power_night_kw"], 10.0)
+directional = rng.choice([i for i, r in enumerate(rows) if r["class"] == "B"], 10, replace=False)
+for i in directional:
+    rows[int(i)].update(height_deg="", loss_ohm="", array="varnholt_array.toml")
+for f in (603, 747, 999, 1206, 1341, 1494):  # 9 kHz raster carriers, far to the east
+    r = station(f, "B")
+    lat, lon = fwd_points(SITE[0], SITE[1], rng.uniform(60.0, 120.0), rng.uniform(900.0, 1500.0))
+    r.update(lat=round(float(lat), 4), lon=round(float(lon), 4))
+    rows.append(r)
+rows.sort(key=lambda r: (r["freq_khz"], r["name"]))
+with open(HERE / "band_neighbours.csv", "w", newline="", encoding="utf-8") as fh:
+    w = csv.DictWriter(fh, fieldnames=list(rows[0]), lineterminator="\n")
+    w.writeheader()
+    w.writerows(rows)
+band = (HERE / "quellmoor.toml").read_text(encoding="utf-8")
+band = band.replace("# mwreach demo study —", "# mwreach band demo study (made by make_demo.py from "
+                    "quellmoor.toml) —", 1)
+band = band.replace('neighbours = "neighbours.csv"', 'neighbours = "band_neighbours.csv"')
+band = band.replace('title = "Radio Quellmoor — proposed', 'title = "Radio Quellmoor, band-wide '
+                    'neighbours — proposed', 1)
+(HERE / "quellmoor_band.toml").write_text(band, encoding="utf-8")
+print(f"wrote band_neighbours.csv ({len(rows)} invented stations) and quellmoor_band.toml")
