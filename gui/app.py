@@ -95,6 +95,8 @@ class MainWindow(QMainWindow):
         self.map.hovered.connect(self._on_hover)
         self.map.candidateClicked.connect(self._on_candidate)
         self.search_thread = None
+        self.channel_thread = None
+        self.last_channels = None
         self.last_search = None
         self._coarse_busy = False  # a drag preview is being computed
         self._coarse_pending = None  # the newest dragged position waiting for it
@@ -208,6 +210,10 @@ class MainWindow(QMainWindow):
         self.act_heat.setCheckable(True)
         self.act_heat.setEnabled(False)
         self._action(t, "Compare with a saved study…", self.compare_dialog)
+        self.act_channels = self._action(t, "Channel search (the whole band)…",
+                                         self.start_channels)
+        self.act_stop_channels = self._action(t, "Stop the channel search", self.stop_channels)
+        self.act_stop_channels.setEnabled(False)
         h = mb.addMenu("&Help")
         self._action(h, "Cautions", self.show_cautions)
         self._action(h, "About mwreach", self.show_about)
@@ -337,6 +343,9 @@ class MainWindow(QMainWindow):
         if self.search_thread is not None:  # keep what it found; do not leave it running
             self.search_thread.stop()
             self.search_thread.wait(30_000)
+        if self.channel_thread is not None:  # stops after the channels in hand
+            self.channel_thread.stop()
+            self.channel_thread.wait(30_000)
         self.computer.shutdown()
         super().closeEvent(ev)
 
@@ -425,6 +434,87 @@ class MainWindow(QMainWindow):
         self.search_thread = None
         self.act_stop_search.setEnabled(False)
         QMessageBox.warning(self, "Site search failed", msg)
+
+    # --- channel search ---------------------------------------------------------------------
+    def start_channels(self, from_khz: float | None = None, to_khz: float | None = None):
+        """The study on every channel of its plan's band in a background thread; the band view
+        opens when it is done (click a channel to move the study there)."""
+        from mwreach.coverage.channels import PLAN_BAND_KHZ
+
+        from .worker import ChannelThread
+
+        spec = self.document.spec
+        if self.channel_thread is not None or spec is None:
+            return
+        if spec.interference is None:
+            QMessageBox.information(self, "Channel search", "The study lists no neighbours: "
+                                    "every channel is open.")
+            return
+        lo, hi = PLAN_BAND_KHZ.get(spec.interference.protection.plan, (525.0, 1705.0))
+        self.channel_thread = ChannelThread(spec, self.document.doc,
+                                            lo if from_khz is None else from_khz,
+                                            hi if to_khz is None else to_khz, self)
+        self.channel_thread.progressed.connect(
+            lambda done, total: self.statusBar().showMessage(
+                f"Channel search: {done} of {total} channels…"))
+        self.channel_thread.done.connect(self._on_channels)
+        self.channel_thread.failed.connect(self._on_channels_failed)
+        self.act_stop_channels.setEnabled(True)
+        self.act_channels.setEnabled(False)
+        self.channel_thread.start()
+
+    def stop_channels(self):
+        if self.channel_thread is not None:
+            self.channel_thread.stop()
+
+    def _channels_finished(self):
+        self.channel_thread.wait()
+        self.channel_thread = None
+        self.act_stop_channels.setEnabled(False)
+        self.act_channels.setEnabled(True)
+
+    def _on_channels(self, search):
+        from PySide6.QtWidgets import QDialog, QLabel, QVBoxLayout
+
+        from mwreach.coverage.channels import channels_summary
+
+        from .bandplot import BandView
+
+        self._channels_finished()
+        summary = channels_summary(search, self.document.spec)
+        self.last_channels = summary
+        dlg = QDialog(self)
+        more = " (stopped early)" if search.stopped_early else ""
+        dlg.setWindowTitle(f"Channels open at {self.document.spec.station.name}'s site{more}")
+        lay = QVBoxLayout(dlg)
+        head = QLabel(f"{len(search.rows)} channels, {search.from_khz:g}–{search.to_khz:g} kHz; "
+                      "each bar is the largest power every neighbour allows. Click a channel to "
+                      "move the study there; hover for its limits. Planning estimate only.")
+        head.setWordWrap(True)
+        lay.addWidget(head)
+        self.band_view = BandView(summary, self.set_frequency)
+        lay.addWidget(self.band_view, 1)  # the band takes the height, the line above does not
+        dlg.resize(1200, 680)
+        dlg.show()
+        self.channels_window = dlg
+        self.statusBar().showMessage(f"Channel search{more}: {len(search.rows)} channels in "
+                                     f"{search.elapsed_s:.0f} s")
+
+    def _on_channels_failed(self, msg):
+        self._channels_finished()
+        QMessageBox.warning(self, "Channel search failed", msg)
+
+    def set_frequency(self, freq_khz: float) -> str | None:
+        """Move the study to ``freq_khz`` (a recompute follows); returns the refusal, if any."""
+        def mutate(doc):
+            doc.setdefault("station", {})["freq_khz"] = float(freq_khz)
+
+        err = self.document.try_update(mutate)
+        if err:
+            QMessageBox.warning(self, "Frequency not set", err)
+        else:
+            self.statusBar().showMessage(f"Study moved to {freq_khz:g} kHz; recomputing…")
+        return err
 
     def compare_dialog(self):
         """Pick a saved study and show what the open study gains and loses against it."""

@@ -8,10 +8,12 @@ import math
 
 from PySide6.QtCore import QPointF, QRectF, Qt
 from PySide6.QtGui import QColor, QPainter, QPen, QPolygonF
+from PySide6.QtWidgets import QToolTip, QWidget
 
 from .qt import png_bytes, white_canvas
 
-__all__ = ["KIND_COLOURS", "BandLayout", "draw_band", "render_band", "channels_png"]
+__all__ = ["KIND_COLOURS", "BandLayout", "BandView", "draw_band", "render_band", "channels_png",
+           "row_text"]
 
 #: Bar colours by what limits the power (colour-blind-safe qualitative set).
 KIND_COLOURS = {
@@ -151,3 +153,50 @@ def render_band(summary: dict, width: int = 1400, height: int = 800):
 def channels_png(summary: dict) -> bytes:
     """channels.png of a channel search's summary (coverage.channels.channels_summary)."""
     return png_bytes(render_band(summary))
+
+
+class BandView(QWidget):
+    """The window's band view: the same drawing as channels.png; a click on a channel calls
+    ``on_pick(freq_khz)``; the tooltip gives the channel's answers."""
+
+    def __init__(self, summary: dict, on_pick, parent=None):
+        super().__init__(parent)
+        self.summary, self.on_pick = summary, on_pick
+        self.layout_ = None
+        self.setMouseTracking(True)
+        self.setMinimumSize(900, 520)
+
+    def paintEvent(self, _event):
+        p = QPainter(self)
+        p.setRenderHint(QPainter.Antialiasing, True)
+        p.fillRect(self.rect(), Qt.white)
+        self.layout_ = draw_band(p, self.summary, self.width(), self.height())
+        p.end()
+
+    def row_at(self, x: float):
+        """The channel row under ``x`` [widget pixels], or None."""
+        f = self.layout_.channel_at(x) if self.layout_ is not None else None
+        return next((r for r in self.summary["channels"] if r["freq_khz"] == f), None)
+
+    def mouseMoveEvent(self, event):
+        r = self.row_at(event.position().x())
+        if r is not None:
+            QToolTip.showText(event.globalPosition().toPoint(), row_text(r), self)
+
+    def mousePressEvent(self, event):
+        r = self.row_at(event.position().x())
+        if r is not None and event.button() == Qt.LeftButton:
+            self.on_pick(r["freq_khz"])
+
+
+def row_text(r: dict) -> str:
+    """One channel's answers as the band view's tooltip says them."""
+    def kw(v):
+        return "not limited below the class maximum" if v is None else (
+            "closed (no power passes)" if v == 0 else f"{v:.3g} kW")
+
+    share = "" if r["community_share"] is None else \
+        f"\ncommunity share at the largest day power: {r['community_share']:.0%}"
+    return (f"{r['freq_khz']:g} kHz — click to move the study here\n"
+            f"day: {kw(r['max_day_kw'])} ({r['day_limited_by'] or '—'})\n"
+            f"night: {kw(r['max_night_kw'])} ({r['night_limited_by'] or '—'})" + share)

@@ -201,3 +201,33 @@ class SearchThread(QThread):
             self.done.emit(run_search(self.spec, self.settings, None, progress))
         except Exception as exc:  # shown to the user as a message, not a console trace
             self.failed.emit(f"{type(exc).__name__}: {exc}")
+
+
+class ChannelThread(QThread):
+    """A channel search off the GUI thread: ``done(ChannelSearch)`` when finished (or stopped:
+    the channels done so far), ``failed(message)`` on an error."""
+
+    progressed = Signal(int, int)
+    done = Signal(object)
+    failed = Signal(str)
+
+    def __init__(self, spec, doc, from_khz, to_khz, parent=None):
+        super().__init__(parent)
+        self.spec, self.doc, self.band = spec, doc, (from_khz, to_khz)
+        self._stop = False
+
+    def stop(self):
+        self._stop = True
+
+    def run(self):
+        from mwreach.coverage.channels import run_channels
+
+        def progress(done, total, _elapsed):
+            self.progressed.emit(done, total)
+            if self._stop:
+                raise KeyboardInterrupt  # run_channels keeps what is done
+
+        try:
+            self.done.emit(run_channels(self.spec, self.doc, *self.band, progress=progress))
+        except Exception as exc:  # shown to the user as a message, not a console trace
+            self.failed.emit(f"{type(exc).__name__}: {exc}")

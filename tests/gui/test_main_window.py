@@ -403,6 +403,27 @@ def test_site_search_heat_layer_and_click_to_move(qtbot, window):
     assert (moved.lat, moved.lon) == pytest.approx((best.lat, best.lon), abs=1e-6)
 
 
+def test_band_view_shows_channels_and_click_moves_the_study(qtbot, window):
+    _open_and_wait(qtbot, window)
+    window.start_channels(1370.0, 1410.0)
+    qtbot.waitUntil(lambda: window.last_channels is not None, timeout=120_000)
+    summary = window.last_channels
+    assert [r["freq_khz"] for r in summary["channels"]] == [1370.0, 1380.0, 1390.0, 1400.0,
+                                                            1410.0]
+    view = window.band_view
+    qtbot.waitExposed(view)
+    view.repaint()
+    # the bars stand where the layout says; a click on the fourth channel moves the study there
+    x = view.layout_.x(3)
+    assert view.row_at(x)["freq_khz"] == 1400.0
+    with qtbot.waitSignal(window.computer.result, timeout=60_000,
+                          check_params_cb=lambda req, res: req.bearings is None):
+        QTest.mouseClick(view, Qt.LeftButton, pos=QPointF(x, view.height() / 2).toPoint())
+    assert window.document.spec.station.freq_khz == 1400.0
+    assert window.full_result.spec.station.freq_khz == 1400.0
+    window.channels_window.close()
+
+
 def test_measurements_view_fits_and_accepts(qtbot, window, demo_copy):
     import shutil
 
