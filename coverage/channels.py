@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import os
 import time
 from concurrent.futures import Executor
 from dataclasses import dataclass, field
@@ -113,13 +114,15 @@ def _applicable(checks) -> int:
     return len(names | {n.name for n, _ in checks.overlap_ok})
 
 
-def evaluate_channel(spec, doc: dict, freq_khz: float, service_mv_m: float) -> ChannelRow:
-    """The study moved to ``freq_khz`` and assessed at its own site."""
+def evaluate_channel(spec, doc: dict, freq_khz: float, service_mv_m: float,
+                     memo: dict | None = None) -> ChannelRow:
+    """The study moved to ``freq_khz`` and assessed at its own site; ``memo`` keeps the
+    neighbours' contours and night limits for the next channel of the same study."""
     from .interference import NeighbourChecks
 
     moved = retune(spec, doc, freq_khz)
-    checks = (NeighbourChecks(moved, moved.interference) if moved.interference is not None
-              else None)
+    checks = (NeighbourChecks(moved, moved.interference, memo)
+              if moved.interference is not None else None)
     st = moved.station
     c = evaluate_site(moved, SearchSettings(service_mv_m=service_mv_m), checks, 0, st.lat,
                       st.lon)
@@ -130,9 +133,17 @@ def evaluate_channel(spec, doc: dict, freq_khz: float, service_mv_m: float) -> C
                       limit_kind(spec, freq_khz, c.max_night_kw, c.night_limited_by))
 
 
-def evaluate_channels(spec, doc: dict, freqs, service_mv_m: float) -> list[ChannelRow]:
-    """A chunk of channels in one task."""
-    return [evaluate_channel(spec, doc, f, service_mv_m) for f in freqs]
+_MEMO: dict = {}
+
+
+def evaluate_channels(spec, doc: dict, freqs, service_mv_m: float,
+                      token: str = "") -> list[ChannelRow]:
+    """A chunk of channels in one task. The neighbour-side work is kept in this process for
+    the next chunk of the same search (``token``): a neighbour meets up to seven channels."""
+    if _MEMO.get("token") != token or not token:
+        _MEMO.clear()
+        _MEMO["token"], _MEMO["memo"] = token, {}
+    return [evaluate_channel(spec, doc, f, service_mv_m, _MEMO["memo"]) for f in freqs]
 
 
 def run_channels(spec, doc: dict, from_khz: float, to_khz: float, service_mv_m: float = 5.0,
@@ -148,16 +159,20 @@ def run_channels(spec, doc: dict, from_khz: float, to_khz: float, service_mv_m: 
                         raster_khz=prot.raster_khz if prot else 10.0,
                         plan=prot.plan if prot else "us", service_mv_m=service_mv_m,
                         workers=workers)
-    chunks = [freqs[k:k + CHUNK] for k in range(0, len(freqs), CHUNK)]
+    # contiguous blocks: neighbouring channels share their neighbours, whose work the memo
+    # keeps; about two blocks per worker balance the load
+    size = CHUNK if executor is None else max(CHUNK, math.ceil(len(freqs) / (2 * workers)))
+    chunks = [freqs[k:k + size] for k in range(0, len(freqs), size)]
+    token = f"{os.getpid()}-{id(spec)}-{t0}"
     rows: list[ChannelRow] = []
     try:
         if executor is None:
             for ch in chunks:
-                rows += evaluate_channels(spec, doc, ch, service_mv_m)
+                rows += evaluate_channels(spec, doc, ch, service_mv_m, token)
                 if progress:
                     progress(len(rows), len(freqs), time.perf_counter() - t0)
         else:
-            futures = [executor.submit(evaluate_channels, spec, doc, ch, service_mv_m)
+            futures = [executor.submit(evaluate_channels, spec, doc, ch, service_mv_m, token)
                        for ch in chunks]
             try:
                 for fut in futures:

@@ -38,10 +38,16 @@ class NeighbourChecks:
     gets which check, their protected day contours, their night contours and night limits
     without the proposal, class A sky-wave service contours, and the contours that second and
     third adjacent channels must not overlap. None of it depends on where the proposal is, so a
-    site search builds it once (per worker) and calls :meth:`assess` for every candidate."""
+    site search builds it once (per worker) and calls :meth:`assess` for every candidate.
 
-    def __init__(self, spec, plan: InterferencePlan):
+    Nor does any of it depend on the proposal's channel, only on which neighbours it meets and
+    at which level: the channel search passes one ``memo`` dict to the checks of every channel
+    of a study (the same ground, neighbours and settings), so that a neighbour's contours and
+    night limit are computed once however many channels meet it."""
+
+    def __init__(self, spec, plan: InterferencePlan, memo: dict | None = None):
         st = spec.station
+        memo = {} if memo is None else memo
         self.plan = plan
         prot = plan.protection
         classes = self.classes = plan.classes or STATION_CLASSES
@@ -94,9 +100,13 @@ class NeighbourChecks:
         self.day_level = {}
         for n, off, ratio in self.day_ok:
             level = self.day_level[n.name] = n.day_level_mv_m(classes, off, prot)
-            self.day_points[n.name] = protected_contour_points(
-                n.freq_khz, spec.ground, n.lat, n.lon, n.day_antenna, n.power_day_kw, level,
-                self.brg, step_km=0.5, polygons=self.protected, key=(n.name, "day"), **common)
+            key = ("day", n.name, level)
+            if key not in memo:
+                polygon: dict = {}
+                memo[key] = (protected_contour_points(
+                    n.freq_khz, spec.ground, n.lat, n.lon, n.day_antenna, n.power_day_kw, level,
+                    self.brg, step_km=0.5, polygons=polygon, key=0, **common), polygon[0])
+            self.day_points[n.name], self.protected[(n.name, "day")] = memo[key]
         # neighbours' night protection
         lo, hi = METHOD_DISTANCE_KM[plan.night.method]
         self.range_text = f"{lo:g}–{hi:g} km"
@@ -127,19 +137,29 @@ class NeighbourChecks:
                              "its sky-wave secondary service (co-channel only, 47 CFR "
                              "73.21(a)(1))")
             else:
-                others = []
-                for o in listed:
-                    if o.name == n.name:
-                        continue
-                    r = prot.ratio_db("night", prot.offset(n.freq_khz, o.freq_khz))
-                    if r is not None:
-                        others.append((o, r[0]))
-                self.night_targets[n.name] = ("nif", neighbour_night_base(
-                    n, others, spec, plan, self.brg, n.night_level_mv_m(classes),
-                    self.base_skipped))
+                key = ("nif", n.name)
+                if key not in memo:  # the neighbour's own night limit from the others listed
+                    others = []
+                    for o in listed:
+                        if o.name == n.name:
+                            continue
+                        r = prot.ratio_db("night", prot.offset(n.freq_khz, o.freq_khz))
+                        if r is not None:
+                            others.append((o, r[0]))
+                    skipped: set = set()
+                    memo[key] = (neighbour_night_base(n, others, spec, plan, self.brg,
+                                                      n.night_level_mv_m(classes), skipped),
+                                 skipped)
+                base, skipped = memo[key]
+                self.night_targets[n.name] = ("nif", base)
+                self.base_skipped |= skipped
         # the contours second and third adjacent neighbours protect
-        self.overlap_polygons = {n.name: _day_polygon(n, OVERLAP_RULES[abs(off)][1], spec)[0]
-                                 for n, off in self.overlap_ok}
+        self.overlap_polygons = {}
+        for n, off in self.overlap_ok:
+            key = ("overlap", n.name, OVERLAP_RULES[abs(off)][1])
+            if key not in memo:
+                memo[key] = _day_polygon(n, OVERLAP_RULES[abs(off)][1], spec)[0]
+            self.overlap_polygons[n.name] = memo[key]
 
     def assess(self, spec, night_service_too: bool = True, received: bool = True,
                overlap_area: bool = True, all_rows: bool = True) -> InterferenceResult:
