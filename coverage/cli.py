@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import os
 import pathlib
 import sys
@@ -249,9 +250,21 @@ def _cmd_run(args) -> int:
         print(f"{row['label']:<24} {fmt(row['min_km']):>8} {fmt(row['mean_km']):>8} "
               f"{fmt(row['max_km']):>8} {row['area_km2']:>10.0f} {share:>9}"
               + (f" {people_text(row['population']):>10}" if people else ""))
+        if "area_km2_p05" in row:  # the ground draws' 5 %, 50 % and 95 % contours
+            goal = ""
+            if row.get("community_goal") is not None:
+                goal = (f"; community share ≥ {100 * row['community_goal']:.0f} % in "
+                        f"{100 * row['community_goal_probability']:.0f} % of draws")
+            print(f"  ground uncertainty: area {row['area_km2_p05']:.0f} / "
+                  f"{row['area_km2_p50']:.0f} / {row['area_km2_p95']:.0f} km² at the 5 / 50 / "
+                  f"95 % contours{goal}")
         if row["radials_with_further_crossings"]:
             print(f"  {row['radials_with_further_crossings']} radial(s) cross this level again "
                   "further out (field recovers over water); see radials.csv")
+    if result.bands:
+        u = result.spec.uncertainty
+        print(f"ground uncertainty: {u.draws} draws (seed {u.seed}) over the conductivity "
+              "ranges; the 5 %–95 % contours are in radials.csv and contours.geojson")
     if people:
         pop = result.population
         extra = people_parts(pop)
@@ -913,17 +926,27 @@ def _fitted_zones_text(spec, combined, fits, unknown) -> tuple[str, int]:
 
     src = pathlib.Path(spec.path).parent / spec.zones_path
     data = read_json(src)
-    by_name = {}
+    by_name, ranges = {}, {}
     if combined is not None:
         by_name = dict(combined.sigma_ms_m)
+        ranges = {k: (combined.sigma_low_ms_m[k], combined.sigma_high_ms_m[k])
+                  for k in by_name}
     elif fits:
         by_name = {v[1]: fits[0].sigma_ms_m for v in unknown.values()}
+        ranges = {v[1]: (fits[0].sigma_low_ms_m, fits[0].sigma_high_ms_m)
+                  for v in unknown.values()}
     changed = 0
     for feat in data.get("features", []):
         props = feat.get("properties") or {}
         name = props.get("name")
         if props.get("fit") and name in by_name:
             props["conductivity_ms_m"] = round(float(by_name[name]), 4)
+            # the fit's 95 % interval, read by the uncertainty bands as a 5 %–95 % range (a
+            # little wider, so the bands err wide); rounded outward so it holds the value
+            lo, hi = ranges[name]
+            props["conductivity_range_ms_m"] = [
+                math.floor(min(lo, by_name[name]) * 1e4) / 1e4,
+                math.ceil(max(hi, by_name[name]) * 1e4) / 1e4]
             props["note"] = (props.get("note") or "") + " conductivity fitted to measurements"
             changed += 1
     return json_text(data, indent=1), changed

@@ -95,6 +95,7 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
                         _num(v, SHARE_DIGITS if k == "community_share" else
                              1 if k == "population" else None))
                     for k, v in row.items()} for row in result.level_rows()],
+        "uncertainty": uncertainty_summary(result),
         "elapsed_s": result.elapsed_s,
         "caution": "Planning estimate only; not a compliance determination. Filings must follow "
                    "local rules and be checked by a licensed engineer. RF exposure near towers "
@@ -103,6 +104,22 @@ def summary_dict(result: StudyResult, extra: dict | None = None) -> dict:
     if extra:
         out.update(extra)
     return out
+
+
+def uncertainty_summary(result: StudyResult) -> dict | None:
+    """How the bands were drawn: the draws, the seed and each uncertain ground's range."""
+    spec = result.spec
+    if not result.bands:
+        return None
+    from .uncertainty import uncertain_grounds
+
+    names = ["default ground"] + [z.name for z in spec.ground.zones]
+    return {"draws": spec.uncertainty.draws, "seed": spec.uncertainty.seed,
+            "sampling": "midpoint Latin hypercube, log-normal conductivity with the range as its "
+                        "5 % and 95 % points; percentiles by the (k + 1/2)/N plotting position",
+            "grounds": [{"ground": names[row], "sigma_ms_m": g.sigma_ms_m,
+                         "range_ms_m": list(rng)}
+                        for row, g, rng in uncertain_grounds(spec.ground)]}
 
 
 def sun_summary(spec) -> dict:
@@ -148,11 +165,14 @@ def radials_csv(result: StudyResult) -> str:
     w = csv_writer(buf)
     head = ["bearing_deg", "e1km_mv_m"]
     spans = [max((len(f) for f in c.further), default=0) for c in result.contours]
+    bands = result.bands or ()
     for c, n in zip(result.contours, spans):
         tag = f"{c.level_mv_m:g}mV_m"
         head += [f"{tag}_km", f"{tag}_mi"]
         for k in range(1, n + 1):
             head += [f"{tag}_further_{k}_from_km", f"{tag}_further_{k}_to_km"]
+    for band in bands:  # the contour at the 5 %, 50 % and 95 % points of the ground draws
+        head += [f"{band.level_mv_m:g}mV_m_{b}_km" for b in ("p05", "p50", "p95")]
     w.writerow(head)
     for i, b in enumerate(result.radials.bearings_deg):
         row = [f"{b:g}", f"{result.radials.e1km_mv_m[i]:.2f}"]
@@ -170,6 +190,10 @@ def radials_csv(result: StudyResult) -> str:
                     row += [f"{a:.2f}", f"{e:.2f}"]
                 else:
                     row += ["", ""]
+        for band in bands:
+            for b in ("p05", "p50", "p95"):
+                d = band.km[b][i]
+                row.append(f">{result.max_km:.1f}" if np.isinf(d) else f"{d:.2f}")
         w.writerow(row)
     return buf.getvalue()
 
@@ -224,6 +248,14 @@ def contours_geojson(result: StudyResult, extra_features=()) -> dict:
         share = None if c.community_share is None else round(c.community_share, SHARE_DIGITS)
         feats.append(_feature("day ground wave", c.level_mv_m, c.label or f"{c.level_mv_m:g} mV/m",
                               st, c.polygon_lonlat, c.area_km2, {"community_share": share}))
+    for band in result.bands or ():  # the 5 % and 95 % contours of the ground draws
+        for b in ("p05", "p95"):
+            g = band.polygons.get(b)
+            if g is None or g.is_empty:
+                continue
+            feats.append(_feature("day ground wave, uncertainty band", band.level_mv_m,
+                                  f"{band.level_mv_m:g} mV/m, {b[1:].lstrip('0')} % point", st,
+                                  g, band.area_km2[b], {"band": b}))
     feats.extend(extra_features)
     return {"type": "FeatureCollection", "features": feats}
 

@@ -238,6 +238,8 @@ class Zone:
     geometry: object  # shapely Polygon or MultiPolygon
     buildable: bool = True  # a site search may put a tower here
     fit: bool = False  # its conductivity is unknown: fitted to field-strength measurements
+    #: (lo, hi) [mS/m]: the 5 %–95 % range of a log-normal conductivity (coverage/uncertainty.py)
+    sigma_range: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -333,10 +335,13 @@ class GroundMap:
     source : file the zones came from (for messages)
     """
 
-    def __init__(self, default: Ground, zones=(), source: str = ""):
+    def __init__(self, default: Ground, zones=(), source: str = "",
+                 default_range: tuple[float, float] | None = None):
         self.default = default
         self.zones = tuple(zones)
         self.source = source
+        #: (lo, hi) [mS/m] of the default ground's conductivity (5 %–95 %), or None: exact
+        self.default_range = default_range
         # GEOS prepares geometries lazily inside queries; the GUI thread (readout, drawing) and a
         # worker thread share these zones, so every GEOS use of them holds this lock.
         self._lock = threading.RLock()
@@ -350,8 +355,14 @@ class GroundMap:
         return state
 
     def __setstate__(self, state):
+        state.setdefault("default_range", None)
         self.__dict__.update(state)
         self._lock = threading.RLock()
+
+    @property
+    def uncertain(self) -> bool:
+        """Whether any ground has a conductivity range."""
+        return self.default_range is not None or any(z.sigma_range for z in self.zones)
 
     def _find_overlaps(self) -> list[tuple[str, str]]:
         """Pairs (earlier, later) of zones whose areas overlap; the later one wins there."""

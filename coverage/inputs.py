@@ -355,7 +355,24 @@ def _feature_properties(features, path):
         yield where, feat, props
 
 
-ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note", "buildable", "fit")
+ZONE_PROPERTIES = ("conductivity_ms_m", "permittivity", "name", "note", "buildable", "fit",
+                   "conductivity_range_ms_m")
+
+
+def sigma_range(name: str, value, nominal: float, where: str) -> tuple[float, float]:
+    """A conductivity range [lo, hi] in mS/m (the 5 % and 95 % points of a log-normal σ):
+    a list of two numbers with 0 < lo ≤ hi, holding the nominal conductivity."""
+    if not isinstance(value, list) or len(value) != 2:
+        raise ValueError(f"{name} must be a list [lo, hi] of two conductivities in mS/m "
+                         f"(got {_show(value)}) in {where}")
+    lo = check_finite(f"{name} lo", value[0], 1e-4, 1e7, where=where)
+    hi = check_finite(f"{name} hi", value[1], 1e-4, 1e7, where=where)
+    if lo > hi:
+        raise ValueError(f"{name} must have lo <= hi (got [{lo:g}, {hi:g}]) in {where}")
+    if not lo * (1 - 1e-9) <= nominal <= hi * (1 + 1e-9):
+        raise ValueError(f"{name} [{lo:g}, {hi:g}] must hold the conductivity {nominal:g} mS/m "
+                         f"in {where}")
+    return (lo, hi)
 
 
 def load_zones(path, default, notes: list | None = None):
@@ -388,8 +405,11 @@ def load_zones(path, default, notes: list | None = None):
         fit = props.get("fit", False)
         if not isinstance(fit, bool):
             raise ValueError(f"fit must be true or false (got {_show(fit)}) in {pw}")
+        rng = (sigma_range("conductivity_range_ms_m", props["conductivity_range_ms_m"],
+                           ground.sigma_ms_m, pw)
+               if "conductivity_range_ms_m" in props else None)
         zones.append(Zone(name, ground, _polygon(feat.get("geometry"), where, notes), buildable,
-                          fit))
+                          fit, rng))
     if not zones:
         notes.append(f"{path}: the zones file holds no feature; the default ground is used "
                      "everywhere")
@@ -808,15 +828,16 @@ def night_from_table(t: dict, where: str):
 
 SECTIONS = ("study", "station", "antenna", "antenna_night", "antenna_critical", "ground",
             "contour", "community", "population", "output", "night", "interference",
-            "protection", "neighbour", "station_class")
+            "protection", "neighbour", "station_class", "uncertainty")
+UNCERTAINTY_KEYS = ("draws", "seed")
 POPULATION_KEYS = ("file", "property")
 CLASS_KEYS = ("name", "day_mv_m", "night", "night_mv_m", "source")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
               "step_km")
 STATION_KEYS = ("name", "lat", "lon", "freq_khz", "power_day_kw", "power_night_kw",
                 "power_critical_kw", "class")
-GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones")
-CONTOUR_KEYS = ("field_mv_m", "label")
+GROUND_KEYS = ("class", "sigma_ms_m", "eps_r", "zones", "sigma_range_ms_m")
+CONTOUR_KEYS = ("field_mv_m", "label", "community_goal")
 COMMUNITY_KEYS = ("name", "boundary")
 OUTPUT_KEYS = ("distance_units", "paper", "orientation", "table_step_deg", "utc_offset_h",
                "sun_year")
@@ -963,6 +984,29 @@ def parse_study(doc: dict, path="<study>"):
         ground = load_zones(zpath, default, notes)
     else:
         ground = GroundMap(default)
+    if "sigma_range_ms_m" in gr:
+        ground.default_range = sigma_range("sigma_range_ms_m", gr["sigma_range_ms_m"],
+                                           default.sigma_ms_m, w)
+    uncertainty = None
+    if ground.uncertain and "uncertainty" not in doc:
+        notes.append("grounds have conductivity ranges: add an [uncertainty] table (draws, "
+                     "seed) to draw each contour's 5–95 % band over them")
+    if "uncertainty" in doc:
+        from .uncertainty import UncertaintySettings
+
+        ut = _table(doc, "uncertainty", fname)
+        w = where_join("[uncertainty]", fname)
+        check_keys(ut, UNCERTAINTY_KEYS, w)
+        draws = check_finite("draws", ut.get("draws", 200), 10, 100_000, where=w)
+        seed = check_finite("seed", ut.get("seed", 1), 0, 2 ** 32 - 1, where=w)
+        for k, v in (("draws", draws), ("seed", seed)):
+            if v != int(v):
+                raise ValueError(f"{k} must be a whole number (got {ut.get(k)!r}) in {w}")
+        uncertainty = UncertaintySettings(int(draws), int(seed))
+        if not ground.uncertain:
+            notes.append("[uncertainty] is given but no ground has a conductivity range "
+                         "([ground] sigma_range_ms_m, zone conductivity_range_ms_m): the "
+                         "contours are exact and no bands are drawn")
 
     contours = _list_of_tables(doc, "contour", fname, "[[contour]]")
     if not contours:
@@ -971,8 +1015,10 @@ def parse_study(doc: dict, path="<study>"):
     for i, c in enumerate(contours, 1):
         w = where_join(f"[[contour]] {i}", fname)
         check_keys(c, CONTOUR_KEYS, w, required=("field_mv_m",))
+        goal = (check_finite("community_goal", c["community_goal"], 0.0, 1.0, where=w)
+                if "community_goal" in c else None)
         levels.append(Level(check_finite("field_mv_m", c["field_mv_m"], 1e-4, 1e4, where=w),
-                            text_value("label", c.get("label", ""), w)))
+                            text_value("label", c.get("label", ""), w), goal))
     levels.sort(key=lambda lv: -lv.field_mv_m)
     seen = [lv.field_mv_m for lv in levels]
     if len(set(seen)) != len(seen):
@@ -1048,6 +1094,7 @@ def parse_study(doc: dict, path="<study>"):
         ground_class=cls_name,
         interference=interference,
         neighbour_tables=neighbour_tables,
+        uncertainty=uncertainty,
         input_notes=tuple(notes),
         input_files=tuple(str(p.resolve()) for p in dict.fromkeys(inputs)),
     )
@@ -1328,9 +1375,15 @@ def spec_to_doc(spec) -> dict:
         "sigma_ms_m": g.sigma_ms_m, "eps_r": g.eps_r}
     if spec.zones_path:
         ground["zones"] = spec.zones_path
+    if spec.ground.default_range is not None:
+        ground["sigma_range_ms_m"] = list(spec.ground.default_range)
     doc["ground"] = ground
-    doc["contour"] = [{"field_mv_m": lv.field_mv_m, **({"label": lv.label} if lv.label else {})}
+    doc["contour"] = [{"field_mv_m": lv.field_mv_m, **({"label": lv.label} if lv.label else {}),
+                       **({"community_goal": lv.community_goal}
+                          if lv.community_goal is not None else {})}
                       for lv in spec.levels]
+    if spec.uncertainty is not None:
+        doc["uncertainty"] = {"draws": spec.uncertainty.draws, "seed": spec.uncertainty.seed}
     if spec.community is not None:
         doc["community"] = {"name": spec.community.name, "boundary": spec.community.path}
     if spec.population_table:

@@ -175,7 +175,8 @@ def millington_points_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3
                              minlength=out.size)
 
 
-def millington_radials_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3):
+def millington_radials_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 3,
+                          stack=None):
     """Millington's field [dB re unattenuated field at 1 km] on many radials at once:
     (n_paths, n_dist) for the sections ``paths[k]`` of each radial (a
     :class:`~.ground.SectionTable` or lists of sections) and one shared, increasing distance
@@ -184,6 +185,11 @@ def millington_radials_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 
     The same sums as :func:`millington_db`, regrouped into whole-array operations (the
     per-study speed path; the two agree to rounding). Distances equal to a boundary count as
     inside the nearer section, as there.
+
+    ``stack`` = (log10 d grid, (G, N) attenuations [dB], {}) gives the curves directly, one row
+    per entry of the table's ``grounds`` (section k on row ``ground[k]``), instead of the
+    grounds' cached curves: the uncertainty draws (:mod:`~.uncertainty`) change the curves of
+    the same sections from one draw to the next.
     """
     d = np.asarray(dist_km, dtype=float)
     nd = d.size
@@ -192,8 +198,12 @@ def millington_radials_db(paths, dist_km, freq_khz: float, earth_k: float = 4 / 
     t = SectionTable.of(paths)
     t.check()
     n = len(t)
-    ng, gnum, grounds = t.keys()
-    logd, att, halfdiff = _stacked_tables(grounds, freq_khz, earth_k)
+    if stack is None:
+        ng, gnum, grounds = t.keys()
+        logd, att, halfdiff = _stacked_tables(grounds, freq_khz, earth_k)
+    else:
+        logd, att, halfdiff = stack
+        ng, gnum = att.shape[0], t.ground
     # half the attenuation of each ground at the grid distances: (ng, nd)
     half = 0.5 * _lookup(logd, att, np.repeat(np.arange(ng), nd), np.tile(d, ng)).reshape(ng, nd)
     first = t.ptr[:-1]

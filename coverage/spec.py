@@ -26,6 +26,7 @@ class Level:
 
     field_mv_m: float
     label: str = ""
+    community_goal: float | None = None  # share of the community this level should cover
 
     @property
     def text(self) -> str:
@@ -66,6 +67,7 @@ class StudySpec:
     neighbour_tables: tuple = ()  # [[neighbour]] tables as written, for saving
     input_notes: tuple[str, ...] = ()  # repairs made while reading (self-intersections …)
     input_files: tuple[str, ...] = ()  # every file the study reads (resolved paths)
+    uncertainty: object = None  # UncertaintySettings when grounds have ranges (bands drawn)
 
     @property
     def bearings(self) -> np.ndarray:

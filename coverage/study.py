@@ -65,6 +65,7 @@ class StudyResult:
     created: str
     interference: InterferenceResult | None = None
     population: dict | None = None  # people per level and more (:func:`population_summary`)
+    bands: tuple | None = None  # LevelBand per level when grounds have ranges (uncertainty.py)
 
     def level_rows(self) -> list[dict]:
         """One summary row per level (distance statistics over all computed bearings)."""
@@ -85,6 +86,12 @@ class StudyResult:
                 "radials_not_reached": int(np.isnan(c.first_km).sum()),
                 "radials_with_further_crossings": int(c.multiple.sum()),
             })
+        for row, band in zip(rows, self.bands or ()):  # the ground draws' 5/50/95 % contours
+            for b in ("p05", "p50", "p95"):
+                row[f"area_km2_{b}"] = band.area_km2[b]
+            if band.share_goal is not None:
+                row["community_goal"] = band.share_goal
+                row["community_goal_probability"] = band.share_goal_probability
         return rows
 
 
@@ -133,7 +140,7 @@ class Study:
                                 spec.earth_k, min_km=20.0)
 
     def run(self, bearings=None, power_kw: float | None = None, progress=None,
-            interference: bool = True) -> StudyResult:
+            interference: bool = True, bands: bool | None = None) -> StudyResult:
         """Compute radial fields, contour distances and polygons.
 
         Parameters
@@ -143,6 +150,8 @@ class Study:
         progress : optional callable(done, total) called per bearing
         interference : also run the night and interference work when the study has neighbours
             or night settings
+        bands : the 5 %/50 %/95 % contours over the grounds' conductivity ranges (default: in
+            a run on the study's own bearings, when a ground has a range)
         """
         t0 = time.perf_counter()
         spec = self.spec
@@ -152,6 +161,16 @@ class Study:
         e1 = st.day_antenna.field_mv_m(b, 0.0, power)
         summary = st.day_antenna.horizontal_summary(power)
         max_km = self.auto_max_km(summary["max_mv_m"])
+        if bands is None:
+            bands = bearings is None
+        bands = bool(bands and spec.uncertainty is not None and spec.ground.uncertain)
+        if bands and not spec.max_km:  # long enough for the draws of the best grounds
+            from .uncertainty import top_grounds
+
+            lowest = min(lv.field_mv_m for lv in spec.levels)
+            max_km = max(max_km, radial_length_km(st.freq_khz, top_grounds(spec), lowest,
+                                                  summary["max_mv_m"], spec.earth_k,
+                                                  min_km=20.0))
         check_grid_size(b.size, distance_grid(st.freq_khz, max_km, spec.step_km).size, spec)
         radials = radial_fields(st.freq_khz, spec.ground, st.lat, st.lon, b, e1, max_km,
                                 spec.step_km, spec.mixed_path, spec.earth_k, progress)
@@ -160,6 +179,14 @@ class Study:
         contours = tuple(
             level_contour(radials, lv.field_mv_m, lv.text, proj, community) for lv in spec.levels
         )
+        level_bands = None
+        if bands:
+            from .uncertainty import ground_bands
+
+            level_bands = tuple(ground_bands(
+                spec, radials, [lv.field_mv_m for lv in spec.levels], max_km, spec.uncertainty,
+                proj.geom_to_xy(community) if community is not None else None,
+                {lv.field_mv_m: lv.community_goal for lv in spec.levels}))
         inter = None
         if interference and spec.interference is not None:
             inter = run_interference(spec, spec.interference)
@@ -174,4 +201,5 @@ class Study:
             created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
             interference=inter,
             population=people,
+            bands=level_bands,
         )

@@ -106,6 +106,7 @@ class MapOptions:
     scale_bar: bool = True
     north_arrow: bool = True
     field_shading: bool = False  # translucent field raster under the contours
+    bands: bool = True  # shade each level's 5–95 % band when the grounds have ranges
     heat: object = None  # a HeatLayer of site-search candidates, drawn over the zones
     font_pt: float = 8.0
     line_scale: float = 1.0  # device units per point
@@ -570,6 +571,9 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
         labels.pending.append((1, float(cx), float(cy) + opts.font_pt * 1.6 * s,
                                spec.community.name, QColor(40, 40, 40), 0.9, True, False))
 
+    if opts.contours and opts.bands and getattr(result, "bands", None):
+        _draw_bands(p, view, result, proj)
+
     if opts.contours:
         n = len(result.contours)
         for c in result.contours:
@@ -674,6 +678,32 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     return labels
 
 
+def band_regions_xy(result, proj) -> list:
+    """(level, region between the 5 % and 95 % contours in the site's plane) per level."""
+    cache = getattr(result, "_band_xy", None)
+    if cache is None:
+        cache = []
+        for band in result.bands or ():
+            outer = proj.geom_to_xy(band.polygons["p95"])
+            inner = proj.geom_to_xy(band.polygons["p05"])
+            cache.append((band.level_mv_m, outer.difference(inner)))
+        try:
+            object.__setattr__(result, "_band_xy", cache)
+        except (AttributeError, TypeError):
+            pass
+    return cache
+
+
+def _draw_bands(p: QPainter, view: View, result, proj):
+    """The band between each level's 5 % and 95 % contours, in the level's colour, faint."""
+    p.setPen(Qt.NoPen)
+    for level, region in band_regions_xy(result, proj):
+        c = QColor(level_colour(level))
+        c.setAlpha(70)
+        p.setBrush(c)
+        p.drawPath(_path_from_geom(region, view))
+
+
 def _legend_entries(result, s: float) -> list[tuple]:
     """What the legend shows, in order: ("head", text), ("line", pen, text),
     ("cross", text), ("swatch", colour, text) or ("gap",)."""
@@ -687,6 +717,11 @@ def _legend_entries(result, s: float) -> list[tuple]:
         if pop is not None:
             text += f": {people_text(pop['levels'][i])} people"
         out.append(("line", level_pen(c.level_mv_m, s), text))
+    if getattr(result, "bands", None):
+        u = result.spec.uncertainty
+        grey = QColor(110, 110, 110, 90)
+        out.append(("swatch", grey, f"shaded: 5–95 % band over the grounds' conductivity "
+                                    f"ranges ({u.draws} draws)"))
     inter = getattr(result, "interference", None)
     if inter is not None and inter.night is not None:
         night = "night service contour (night limit)"

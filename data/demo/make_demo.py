@@ -30,10 +30,13 @@ def circle(cx, cy, r, n=24):
     return [(cx + r * np.cos(a), cy + r * np.sin(a)) for a in t]
 
 
-def feature(name, sigma, eps, pts, note):
+def feature(name, sigma, eps, pts, note, sigma_range=None):
+    props = {"name": name, "conductivity_ms_m": sigma, "permittivity": eps, "note": note}
+    if sigma_range is not None:  # the 5 %–95 % range of a log-normal σ (uncertainty bands)
+        props["conductivity_range_ms_m"] = sigma_range
     return {
         "type": "Feature",
-        "properties": {"name": name, "conductivity_ms_m": sigma, "permittivity": eps, "note": note},
+        "properties": props,
         "geometry": {"type": "Polygon", "coordinates": [ring(pts)]},
     }
 
@@ -42,9 +45,10 @@ zones = {
     "type": "FeatureCollection",
     "features": [
         feature("Hollin uplands", 0.5, 10, [(-25, 45), (-22, -60), (-300, -260), (-420, 0), (-300, 180)],
-                "dry uplands, invented"),
+                "dry uplands, invented; conductivity known to a factor of two", [0.25, 1.0]),
         feature("Sarnel valley", 15, 30, [(4, 1), (5, 5), (-60, 36), (-160, 70), (-165, 60), (-62, 28)],
-                "river valley, high conductivity, invented; drawn after the uplands so it wins where they overlap"),
+                "river valley, high conductivity, invented; drawn after the uplands so it wins where they overlap",
+                [8, 30]),
         feature("Merrow Water", 3, 80, circle(-14, -24, 5), "fresh-water lake, invented"),
         feature("Calder flats", 30, 40, [(-12, 35), (10, 35), (8, 90), (-20, 95)],
                 "coastal marsh, invented"),
@@ -188,3 +192,17 @@ band = band.replace('title = "Radio Quellmoor — proposed', 'title = "Radio Que
                     'neighbours — proposed', 1)
 (HERE / "quellmoor_band.toml").write_text(band, encoding="utf-8")
 print(f"wrote band_neighbours.csv ({len(rows)} invented stations) and quellmoor_band.toml")
+
+# --- the demo with its contours' uncertainty bands: quellmoor.toml with an [uncertainty] table
+# (its default ground and two zones carry conductivity ranges)
+unc = (HERE / "quellmoor.toml").read_text(encoding="utf-8")
+unc = unc.replace("# mwreach demo study —", "# mwreach demo study with uncertainty bands (made by "
+                  "make_demo.py from quellmoor.toml) —", 1)
+unc = unc.replace('title = "Radio Quellmoor — proposed', 'title = "Radio Quellmoor, ground '
+                  'uncertainty — proposed', 1)
+unc = unc.replace("\n[[contour]]", "\n[uncertainty]               # Monte Carlo over the "
+                  "conductivity ranges\ndraws = 200\nseed = 1\n\n[[contour]]", 1)
+unc = unc.replace('label = "5 mV/m community"\n', 'label = "5 mV/m community"\ncommunity_goal = '
+                  '0.9          # the demo\'s own aim: 90 % of the community inside\n', 1)
+(HERE / "quellmoor_uncertain.toml").write_text(unc, encoding="utf-8")
+print("wrote quellmoor_uncertain.toml")
