@@ -720,67 +720,22 @@ def _cmd_exposure(args) -> int:
     """RF exposure screening near the towers (coverage/exposure.py)."""
     import pathlib
 
-    import numpy as np
-
-    from .exposure import (CAUTION, fields_along_bearings, near_field, reference_levels,
-                           screening_distances, tower_xy_m)
+    from .exposure import CAUTION, screening
     from .inputs import load_study
     from .safefiles import json_text, refuse_overwriting_inputs, writable_folder, write_set
 
-    height = check_finite("--height-m", args.height_m, 0.0, 100.0, low_open=True)
     spec = load_study(args.study)
-    st = spec.station
+    height = args.height_m if args.height_m is not None else \
+        (spec.exposure or {}).get("height_m", 2.0)
+    height = check_finite("--height-m", height, 0.0, 100.0, low_open=True)
     try:
-        levels = {name: reference_levels(name, st.freq_khz) for name in args.standard}
+        result = screening(spec, args.period, height, args.standard)
     except ValueError as exc:
-        raise UsageError(f"--standard: {exc}") from None
-    power = st.power_day_kw if args.period == "day" else st.power_night_kw
-    if not power > 0:
-        raise UsageError(f"{args.study}: the station has no {args.period} power")
+        text = str(exc)
+        opt = "--standard" if "standard" in text or "covers" in text else "--period"
+        raise UsageError(f"{args.study}: {opt}: {text}") from None
     refuse_overwriting_inputs(args.out, ["exposure.json", "exposure.png"], spec.input_files)
     writable_folder(args.out)
-    arr = st.facility(args.period).array  # the period's own towers (night array by night)
-    towers = tower_xy_m(arr, st.freq_khz)
-    result = {"caution": CAUTION, "station": st.name, "freq_khz": st.freq_khz,
-              "period": args.period, "power_kw": power, "height_m": height,
-              "towers_xy_m": [[round(x, 3), round(y, 3)] for x, y in towers],
-              "method": "sinusoidal tower currents over perfect ground, fields of every current "
-                        "element summed (docs/methods.md §9)",
-              "standards": {}}
-    b, d, e, h = fields_along_bearings(arr, st.freq_khz, power, height)
-    worst_b = float(b[int(np.argmax(e.max(axis=1)))])
-    for name, (e_lim, h_lim, source) in levels.items():
-        dist = screening_distances(d, e, h, e_lim, h_lim)
-        rows = []
-        for bb, dd in zip(b, dist):
-            x, y = dd * np.sin(np.radians(bb)), dd * np.cos(np.radians(bb))
-            near_m = min(float(np.hypot(x - tx, y - ty)) for tx, ty in towers)
-            rows.append({"bearing_deg": float(bb), "from_reference_m": float(dd),
-                         "from_nearest_tower_m": round(near_m, 2) if dd > 0 else 0.0})
-        result["standards"][name] = {"e_limit_v_m": e_lim, "h_limit_a_m": h_lim,
-                                     "source": source, "bearings": rows,
-                                     "largest_distance_m": float(dist.max())}
-    # the profile along the bearing of the largest field, 1 m to 500 m
-    dist = np.unique(np.round(np.geomspace(1.0, 500.0, 120), 2))
-    t = np.radians(worst_b)
-    e, h = near_field(arr, st.freq_khz, power, dist * np.sin(t), dist * np.cos(t),
-                      np.full(dist.size, height))
-    result["profile"] = {"bearing_deg": worst_b, "points": [
-        {"distance_m": float(a), "e_v_m": round(float(x), 4), "h_a_m": round(float(y), 6)}
-        for a, x, y in zip(dist, e, h)]}
-    # a grid of |E| and |H| at the height, 5 m apart over ±100 m around the reference point
-    g = np.arange(-100.0, 100.0 + 1e-9, 5.0)
-    gx, gy = np.meshgrid(g, g)
-    ge, gh = near_field(arr, st.freq_khz, power, gx, gy, np.full(gx.shape, height))
-    # points within 1 m of a tower are not screened (the tower and its base fence are there)
-    close = np.zeros(gx.shape, bool)
-    for tx, ty in towers:
-        close |= np.hypot(gx - tx, gy - ty) < 1.0
-    result["grid"] = {"x_m": g.tolist(), "y_m": g.tolist(), "note": "null within 1 m of a tower",
-                      "e_v_m": [[None if c else round(float(v), 3) for v, c in zip(rv, rc)]
-                                for rv, rc in zip(ge, close)],
-                      "h_a_m": [[None if c else round(float(v), 5) for v, c in zip(rv, rc)]
-                                for rv, rc in zip(gh, close)]}
     from mwreach.gui.qt import ensure_app  # Qt only for the picture
 
     ensure_app()
@@ -789,15 +744,18 @@ def _cmd_exposure(args) -> int:
     write_set(args.out, {"exposure.json": json_text(result, indent=1),
                          "exposure.png": exposure_png(result)},
               known_names=("exposure.json", "exposure.png"), inputs=spec.input_files)
-    print(f"RF exposure screening, {st.name}, {st.freq_khz:g} kHz, {power:g} kW ({args.period}), "
-          f"{height:g} m above ground:")
+    st = spec.station
+    print(f"RF exposure screening, {st.name}, {st.freq_khz:g} kHz, {result['power_kw']:g} kW "
+          f"({args.period}), {height:g} m above ground:")
     for name, v in result["standards"].items():
+        far = (" — still above at the end of the screened range: look farther"
+               if v["beyond_screened_range"] else "")
         print(f"  {name}: E {v['e_limit_v_m']:.4g} V/m, H {v['h_limit_a_m']:.4g} A/m "
               f"({v['source']}): fields above them out to {v['largest_distance_m']:g} m from "
-              "the reference point")
-    print(f"  largest field at 1 m from the reference point toward {worst_b:g}°: "
-          f"{result['profile']['points'][0]['e_v_m']:g} V/m, "
-          f"{result['profile']['points'][0]['h_a_m']:g} A/m")
+              f"the reference point{far}")
+    p0 = result["profile"]["points"][0]
+    print(f"  largest field at 1 m from the reference point toward "
+          f"{result['profile']['bearing_deg']:g}°: {p0['e_v_m']:g} V/m, {p0['h_a_m']:g} A/m")
     print(f"wrote {pathlib.Path(args.out) / 'exposure.json'} and exposure.png")
     print(CAUTION)
     return 0
@@ -944,10 +902,15 @@ def _fitted_zones_text(spec, combined, fits, unknown) -> tuple[str, int]:
             # the fit's 95 % interval, read by the uncertainty bands as a 5 %–95 % range (a
             # little wider, so the bands err wide); rounded outward so it holds the value
             lo, hi = ranges[name]
-            props["conductivity_range_ms_m"] = [
-                math.floor(min(lo, by_name[name]) * 1e4) / 1e4,
-                math.ceil(max(hi, by_name[name]) * 1e4) / 1e4]
-            props["note"] = (props.get("note") or "") + " conductivity fitted to measurements"
+            note = " conductivity fitted to measurements"
+            if all(math.isfinite(v) and v > 0 for v in (lo, hi)):
+                props["conductivity_range_ms_m"] = [
+                    math.floor(min(lo, by_name[name]) * 1e4) / 1e4,
+                    math.ceil(max(hi, by_name[name]) * 1e4) / 1e4]
+            else:  # an open interval (it reaches the end of the searched range)
+                props.pop("conductivity_range_ms_m", None)
+                note += "; its 95 % interval is open, so no conductivity range is written"
+            props["note"] = (props.get("note") or "") + note
             changed += 1
     return json_text(data, indent=1), changed
 
@@ -1152,11 +1115,13 @@ def build_parser() -> argparse.ArgumentParser:
     ex.add_argument("-o", "--out", type=_path, required=True, help="output folder")
     ex.add_argument("--period", type=_choices("day", "night"), default="day",
                     help="which power to screen")
-    ex.add_argument("--height-m", type=float, default=2.0,
-                    help="height above ground of the screened points [m], above 0")
-    ex.add_argument("--standard", nargs="+", default=["fcc-general", "fcc-occupational"],
-                    help="reference levels: fcc-general, fcc-occupational (47 CFR 1.1310), "
-                         "icnirp2010-public, icnirp2010-occupational")
+    ex.add_argument("--height-m", type=float, default=None,
+                    help="height above ground of the screened points [m], above 0 (default: "
+                         "the study's [exposure] height_m, else 2)")
+    ex.add_argument("--standard", nargs="+", default=None,
+                    help="reference levels: fcc (47 CFR 1.1310), icnirp2020, icnirp2020-local, "
+                         "icnirp1998, icnirp2010 (both populations each), or single rows such "
+                         "as fcc-general (default: the study's [exposure] standard, else fcc)")
     ex.set_defaults(func=_cmd_exposure)
 
     g = sub.add_parser("gui", help="the desktop application", **fmt)

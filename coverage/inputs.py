@@ -828,8 +828,9 @@ def night_from_table(t: dict, where: str):
 
 SECTIONS = ("study", "station", "antenna", "antenna_night", "antenna_critical", "ground",
             "contour", "community", "population", "output", "night", "interference",
-            "protection", "neighbour", "station_class", "uncertainty")
+            "protection", "neighbour", "station_class", "uncertainty", "exposure")
 UNCERTAINTY_KEYS = ("draws", "seed")
+EXPOSURE_KEYS = ("standard", "height_m")
 POPULATION_KEYS = ("file", "property")
 CLASS_KEYS = ("name", "day_mv_m", "night", "night_mv_m", "source")
 STUDY_KEYS = ("title", "mixed_path", "earth_k", "bearing_step_deg", "bearings", "max_km",
@@ -1069,6 +1070,27 @@ def parse_study(doc: dict, path="<study>"):
         output["table_step_deg"] = check_finite("table_step_deg", out["table_step_deg"], 1.0,
                                                 90.0, where=w)
 
+    exposure = None
+    if "exposure" in doc:
+        from .exposure import expand_standards
+
+        et = _table(doc, "exposure", fname)
+        w = where_join("[exposure]", fname)
+        check_keys(et, EXPOSURE_KEYS, w)
+        std = et.get("standard", "fcc")
+        std = [std] if isinstance(std, str) else std
+        if not isinstance(std, list) or not std or not all(isinstance(x, str) for x in std):
+            raise ValueError(f"standard must be a name or a list of names in quotes (got "
+                             f"{_show(et.get('standard'))}) in {w}")
+        try:
+            expand_standards(std)
+        except ValueError as exc:
+            raise ValueError(f"{exc} in {w}") from None
+        exposure = {"standard": std}
+        if "height_m" in et:
+            exposure["height_m"] = check_finite("height_m", et["height_m"], 0.0, 100.0,
+                                                where=w, low_open=True)
+
     interference, neighbour_tables = _parse_interference(doc, base, fname, inputs, notes)
     if interference is not None:
         check_on_raster(station.freq_khz, interference.protection, where_join("[station]", fname))
@@ -1095,6 +1117,7 @@ def parse_study(doc: dict, path="<study>"):
         interference=interference,
         neighbour_tables=neighbour_tables,
         uncertainty=uncertainty,
+        exposure=exposure,
         input_notes=tuple(notes),
         input_files=tuple(str(p.resolve()) for p in dict.fromkeys(inputs)),
     )
@@ -1384,6 +1407,10 @@ def spec_to_doc(spec) -> dict:
                       for lv in spec.levels]
     if spec.uncertainty is not None:
         doc["uncertainty"] = {"draws": spec.uncertainty.draws, "seed": spec.uncertainty.seed}
+    if spec.exposure is not None:
+        doc["exposure"] = {"standard": list(spec.exposure["standard"]),
+                           **({"height_m": spec.exposure["height_m"]}
+                              if "height_m" in spec.exposure else {})}
     if spec.community is not None:
         doc["community"] = {"name": spec.community.name, "boundary": spec.community.path}
     if spec.population_table:

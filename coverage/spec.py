@@ -68,6 +68,7 @@ class StudySpec:
     input_notes: tuple[str, ...] = ()  # repairs made while reading (self-intersections …)
     input_files: tuple[str, ...] = ()  # every file the study reads (resolved paths)
     uncertainty: object = None  # UncertaintySettings when grounds have ranges (bands drawn)
+    exposure: dict | None = None  # [exposure]: {"standard": [names], "height_m": m}
 
     @property
     def bearings(self) -> np.ndarray:

@@ -97,6 +97,8 @@ class MainWindow(QMainWindow):
         self.search_thread = None
         self.channel_thread = None
         self.last_channels = None
+        self.exposure_thread = None
+        self.last_exposure = None
         self.last_search = None
         self._coarse_busy = False  # a drag preview is being computed
         self._coarse_pending = None  # the newest dragged position waiting for it
@@ -210,6 +212,9 @@ class MainWindow(QMainWindow):
         self.act_heat.setCheckable(True)
         self.act_heat.setEnabled(False)
         self._action(t, "Compare with a saved study…", self.compare_dialog)
+        self.act_exposure = self._action(t, "RF exposure boundaries near the towers (day)",
+                                         self.toggle_exposure)
+        self.act_exposure.setCheckable(True)
         self.act_channels = self._action(t, "Channel search (the whole band)…",
                                          self.start_channels)
         self.act_stop_channels = self._action(t, "Stop the channel search", self.stop_channels)
@@ -346,6 +351,8 @@ class MainWindow(QMainWindow):
         if self.channel_thread is not None:  # stops after the channels in hand
             self.channel_thread.stop()
             self.channel_thread.wait(30_000)
+        if self.exposure_thread is not None:
+            self.exposure_thread.wait(30_000)
         self.computer.shutdown()
         super().closeEvent(ev)
 
@@ -434,6 +441,43 @@ class MainWindow(QMainWindow):
         self.search_thread = None
         self.act_stop_search.setEnabled(False)
         QMessageBox.warning(self, "Site search failed", msg)
+
+    # --- RF exposure layer ------------------------------------------------------------------
+    def toggle_exposure(self):
+        """Show (computing in the background) or hide the RF exposure screening boundaries of
+        the day antenna with the study's [exposure] standard; zoom in to the site to see them."""
+        if not self.act_exposure.isChecked():
+            self.map.options.exposure = None
+            self.map.update()
+            return
+        if self.exposure_thread is not None or self.document.spec is None:
+            return
+        from .worker import ExposureThread
+
+        self.exposure_thread = ExposureThread(self.document.spec, "day", self)
+        self.exposure_thread.done.connect(self._on_exposure)
+        self.exposure_thread.failed.connect(self._on_exposure_failed)
+        self.statusBar().showMessage("RF exposure screening near the towers…")
+        self.exposure_thread.start()
+
+    def _on_exposure(self, data):
+        self.exposure_thread.wait()
+        self.exposure_thread = None
+        self.last_exposure = data
+        if self.act_exposure.isChecked():
+            self.map.options.exposure = data
+            self.map.update()
+        parts = [f"{n}: " + (f"above within {v['largest_distance_m']:g} m of the reference point"
+                             if v["largest_distance_m"] > 0 else "below beyond 1 m of the towers")
+                 for n, v in data["standards"].items()]
+        self.statusBar().showMessage("RF exposure (screening estimate only; zoom in to the site): "
+                                     + "; ".join(parts))
+
+    def _on_exposure_failed(self, msg):
+        self.exposure_thread.wait()
+        self.exposure_thread = None
+        self.act_exposure.setChecked(False)
+        QMessageBox.warning(self, "RF exposure screening failed", msg)
 
     # --- channel search ---------------------------------------------------------------------
     def start_channels(self, from_khz: float | None = None, to_khz: float | None = None):
@@ -591,6 +635,9 @@ class MainWindow(QMainWindow):
         if req.bearings is None:
             self._on_idle()
             self.full_result = result
+            if self.act_exposure.isChecked() and self.last_exposure is not None:
+                self.last_exposure = None  # the study changed: screen it again
+                self.toggle_exposure()
             self._show_failures(result)
             self._stale_views = set(range(self.results_tabs.count()))
             self._refresh_view(self.results_tabs.currentIndex())

@@ -12,10 +12,15 @@ from PySide6.QtGui import QColor, QImage, QPen, QPolygonF
 
 from .qt import png_bytes, white_canvas
 
-__all__ = ["render_exposure_plan", "exposure_png"]
+__all__ = ["render_exposure_plan", "exposure_png", "exposure_pages", "boundary_colour"]
 
-#: boundary colour per standard (the first two; others take grey)
-BOUNDARY_COLOURS = {"fcc-general": "#d7191c", "fcc-occupational": "#2b83ba"}
+#: boundary colour by population: general public red, occupational blue
+BOUNDARY_COLOURS = {"public": "#d7191c", "occupational": "#2b83ba"}
+
+
+def boundary_colour(name: str) -> str:
+    """The boundary colour of a reference-level row (by its population)."""
+    return BOUNDARY_COLOURS["occupational" if "occupational" in name else "public"]
 
 
 def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> QImage:
@@ -52,7 +57,7 @@ def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> Q
     # boundaries
     legend = []
     for k, (name, s) in enumerate(data["standards"].items()):
-        col = QColor(BOUNDARY_COLOURS.get(name, "#555555"))
+        col = QColor(boundary_colour(name))
         pts = [dev(r["from_reference_m"] * math.sin(math.radians(r["bearing_deg"])),
                    r["from_reference_m"] * math.cos(math.radians(r["bearing_deg"])))
                for r in s["bearings"]]
@@ -101,3 +106,93 @@ def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> Q
 
 def exposure_png(data: dict) -> bytes:
     return png_bytes(render_exposure_plan(data))
+
+
+#: The sheet screens out to this distance [m] (the exposure command: 500 m): near a
+#: medium-wave tower the reference levels are passed within a few tens of metres.
+SHEET_REACH_M = 300.0
+
+
+def exposure_pages(doc, result, pt: float) -> list:
+    """Callables drawing one RF exposure screening page per operating period with power and
+    its own towers (day; night and critical hours when they have their own antenna), with the
+    study's ``[exposure]`` standard and height: the table, the site plan and the caution."""
+    from mwreach.coverage.station import period_rows
+
+    st = result.spec.station
+    periods = [r["period"] for r in period_rows(st)
+               if r["power_kw"] > 0 and r["period"] in ("day", "night")
+               and (r["period"] == "day" or st.has_own(r["period"]))]
+    return [lambda period=period: _page_exposure(doc, result, period, pt) for period in periods]
+
+
+def _page_exposure(doc, result, period: str, pt: float):
+    from mwreach.coverage.exposure import screening
+
+    spec = result.spec
+    conf = spec.exposure or {}
+    data = screening(spec, period, conf.get("height_m", 2.0), None, max_m=SHEET_REACH_M)
+    page = doc.page
+    p = doc.painter
+    y = page.top()
+    y += doc.text(QRectF(page.left(), y, page.width(), 20 * pt),
+                  f"RF exposure screening near the towers — {period} "
+                  f"({data['power_kw']:g} kW)", 11, bold=True) + 4 * pt
+    y += doc.text(QRectF(page.left(), y, page.width(), 60 * pt),
+                  f"Fields at {data['height_m']:g} m above ground from the assumed tower "
+                  "currents (sinusoidal, as the antenna model) over perfectly conducting ground, "
+                  "every current element summed; each tower's current and phases from the "
+                  f"{period} antenna at {data['power_kw']:g} kW. Distances are where, along each "
+                  f"bearing (every 5°, out to {SHEET_REACH_M:g} m), both |E| and |H| fall below "
+                  "the reference level for good. Within 1 m of a tower nothing is screened, and "
+                  "within a few metres of its base the field of the base voltage, which a "
+                  "current model leaves out, may be larger than shown.", 8) + 6 * pt
+    head = ["Reference level", "E [V/m]", "H [A/m]", "Farthest boundary from the reference "
+            "point / nearest tower [m]", "Source"]
+    widths = [0.2, 0.08, 0.08, 0.24, 0.40]
+    doc.font(8, True)
+    x, head_h = page.left(), 0.0
+    for h, w in zip(head, widths):
+        r = QRectF(x, y, w * page.width() - 4 * pt, 40 * pt)
+        head_h = max(head_h, p.boundingRect(r, Qt.AlignLeft | Qt.AlignTop | Qt.TextWordWrap,
+                                            h).height())
+        p.drawText(r, Qt.AlignLeft | Qt.AlignTop | Qt.TextWordWrap, h)
+        x += w * page.width()
+    y += head_h + 2 * pt
+    p.setPen(QPen(Qt.black, 0.6 * pt))
+    p.drawLine(QPointF(page.left(), y), QPointF(page.right(), y))
+    y += 2 * pt
+    for name, s in data["standards"].items():
+        far = max(s["bearings"], key=lambda r: r["from_reference_m"])
+        dist = ("nowhere above" if s["largest_distance_m"] <= 0 else
+                f"{far['from_reference_m']:g} / {far['from_nearest_tower_m']:g} toward "
+                f"{far['bearing_deg']:g}°" + (" (still above: look farther)"
+                                               if s["beyond_screened_range"] else ""))
+        cells = [name, f"{s['e_limit_v_m']:.4g}", f"{s['h_limit_a_m']:.4g}", dist, s["source"]]
+        doc.font(7.5)
+        p.setPen(Qt.black)
+        x, row_h = page.left(), 0.0
+        for c, w in zip(cells, widths):
+            r = QRectF(x, y, w * page.width() - 4 * pt, 40 * pt)
+            used = p.boundingRect(r, Qt.AlignLeft | Qt.AlignTop | Qt.TextWordWrap, c)
+            p.drawText(r, Qt.AlignLeft | Qt.AlignTop | Qt.TextWordWrap, c)
+            row_h = max(row_h, used.height())
+            x += w * page.width()
+        y += row_h + 3 * pt
+    y += 4 * pt
+    # the site plan, as exposure.png draws it
+    box = QRectF(page.left(), y, page.width(), page.bottom() - y - 70 * pt)
+    img = render_exposure_plan(data, 1200, 1100)
+    s = min(box.width() / img.width(), box.height() / img.height())
+    target = QRectF(box.left() + (box.width() - img.width() * s) / 2, box.top(),
+                    img.width() * s, img.height() * s)
+    p.drawImage(target, img)
+    y = target.bottom() + 6 * pt
+    p.setPen(QPen(QColor("#b00020"), 1.0 * pt))
+    p.setBrush(Qt.NoBrush)
+    caution = (data["caution"] + " The tower base and its fence need their own assessment: "
+               "contact with the tower or anything it energises can cause burns at any power.")
+    r = QRectF(page.left() + 4 * pt, y + 4 * pt, page.width() - 8 * pt, 60 * pt)
+    used = doc.text(r, caution, 8, bold=True)
+    p.setPen(QPen(QColor("#b00020"), 1.0 * pt))
+    p.drawRect(QRectF(page.left(), y, page.width(), used + 8 * pt))

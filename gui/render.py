@@ -108,6 +108,7 @@ class MapOptions:
     field_shading: bool = False  # translucent field raster under the contours
     bands: bool = True  # shade each level's 5–95 % band when the grounds have ranges
     heat: object = None  # a HeatLayer of site-search candidates, drawn over the zones
+    exposure: object = None  # an RF exposure screening (coverage.exposure.screening) to draw
     font_pt: float = 8.0
     line_scale: float = 1.0  # device units per point
     distance_units: str = "km"
@@ -593,6 +594,9 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
             labels.pending.append((2, float(dx), float(dy), f"{c.level_mv_m:g} mV/m", col, 0.9,
                                    True, False))
 
+    if opts.exposure is not None:
+        _draw_exposure(p, view, opts.exposure, s)
+
     inter = getattr(result, "interference", None)
     if opts.night and inter is not None and inter.night is not None:
         p.setPen(QPen(QColor(NIGHT_COLOUR), 1.4 * s, Qt.DashDotLine))
@@ -678,6 +682,28 @@ def draw_map(p: QPainter, view: View, result, opts: MapOptions | None = None,
     return labels
 
 
+def _draw_exposure(p: QPainter, view: View, data: dict, s: float):
+    """RF exposure screening boundaries around the towers (metres from the array's reference
+    point at the site), general public red, occupational blue; the towers as small rings."""
+    from .exposureplan import boundary_colour
+
+    for k, (name, std) in enumerate(data["standards"].items()):
+        if std["largest_distance_m"] <= 0:
+            continue
+        pts = [view.to_dev(r["from_reference_m"] / 1e3 * math.sin(math.radians(r["bearing_deg"])),
+                           r["from_reference_m"] / 1e3 * math.cos(math.radians(r["bearing_deg"])))
+               for r in std["bearings"]]
+        p.setPen(QPen(QColor(boundary_colour(name)), 1.8 * s,
+                      Qt.SolidLine if k == 0 else Qt.DashLine))
+        p.setBrush(Qt.NoBrush)
+        p.drawPolygon(QPolygonF([QPointF(float(x), float(y)) for x, y in pts]))
+    p.setPen(QPen(Qt.black, 1.0 * s))
+    p.setBrush(QColor(255, 230, 0))
+    for x, y in data["towers_xy_m"]:
+        dx, dy = view.to_dev(x / 1e3, y / 1e3)
+        p.drawEllipse(QPointF(float(dx), float(dy)), 3 * s, 3 * s)
+
+
 def band_regions_xy(result, proj) -> list:
     """(level, region between the 5 % and 95 % contours in the site's plane) per level."""
     cache = getattr(result, "_band_xy", None)
@@ -704,7 +730,7 @@ def _draw_bands(p: QPainter, view: View, result, proj):
         p.drawPath(_path_from_geom(region, view))
 
 
-def _legend_entries(result, s: float) -> list[tuple]:
+def _legend_entries(result, s: float, opts=None) -> list[tuple]:
     """What the legend shows, in order: ("head", text), ("line", pen, text),
     ("cross", text), ("swatch", colour, text) or ("gap",)."""
     from mwreach.coverage.report import people_text
@@ -717,6 +743,15 @@ def _legend_entries(result, s: float) -> list[tuple]:
         if pop is not None:
             text += f": {people_text(pop['levels'][i])} people"
         out.append(("line", level_pen(c.level_mv_m, s), text))
+    exposure = getattr(opts, "exposure", None)
+    if exposure is not None:
+        from .exposureplan import boundary_colour
+
+        for name, std in exposure["standards"].items():
+            far = std["largest_distance_m"]
+            out.append(("line", QPen(QColor(boundary_colour(name)), 1.8 * s),
+                        f"RF exposure {name} ({exposure['period']}): "
+                        + (f"above within {far:g} m" if far > 0 else "below beyond 1 m")))
     if getattr(result, "bands", None):
         u = result.spec.uncertainty
         grey = QColor(110, 110, 110, 90)
@@ -748,7 +783,7 @@ def draw_legend(p: QPainter, rect: QRectF, result, opts: MapOptions,
     bold.setBold(True)
     p.setFont(font)
     line = p.fontMetrics().height() * 1.15
-    entries = _legend_entries(result, s)
+    entries = _legend_entries(result, s, opts)
     height = sum(0.4 * line if e[0] == "gap" else line for e in entries) + line * 0.5
     if background is not None:
         p.fillRect(QRectF(rect.left() - 6 * s, rect.top() - 4 * s, rect.width() + 12 * s,

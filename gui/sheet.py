@@ -602,6 +602,9 @@ def write_sheet(result, path, paper: str | None = None, orientation: str | None 
     if result.interference is not None and result.interference.night is not None:
         pages += _night_pages(doc, result)
     pages += period_pages(doc, result, PT)
+    from .exposureplan import exposure_pages
+
+    pages += exposure_pages(doc, result, PT)
     try:
         for i, draw in enumerate(pages, 1):
             if i > 1:

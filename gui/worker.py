@@ -231,3 +231,25 @@ class ChannelThread(QThread):
             self.done.emit(run_channels(self.spec, self.doc, *self.band, progress=progress))
         except Exception as exc:  # shown to the user as a message, not a console trace
             self.failed.emit(f"{type(exc).__name__}: {exc}")
+
+
+class ExposureThread(QThread):
+    """An RF exposure screening off the GUI thread (coverage.exposure.screening):
+    ``done(dict)`` or ``failed(message)``."""
+
+    done = Signal(object)
+    failed = Signal(str)
+
+    def __init__(self, spec, period: str, parent=None):
+        super().__init__(parent)
+        self.spec, self.period = spec, period
+
+    def run(self):
+        from mwreach.coverage.exposure import screening
+
+        try:
+            conf = self.spec.exposure or {}
+            self.done.emit(screening(self.spec, self.period, conf.get("height_m", 2.0),
+                                     max_m=300.0, grid=False, profile=False))
+        except Exception as exc:  # shown to the user as a message, not a console trace
+            self.failed.emit(f"{type(exc).__name__}: {exc}")

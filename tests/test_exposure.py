@@ -102,6 +102,109 @@ def test_reference_levels(standard, f_khz, e, h):
     assert ("1.1310" in got[2]) or ("ICNIRP 2010" in got[2])
 
 
+MU0 = 1.25663706212e-6  # CODATA 2018
+
+
+@pytest.mark.parametrize("standard, f_khz, e, h", [
+    # ICNIRP 2020 local exposure (6 min), 0.1–30 MHz (read, as reproduced in a
+    # bioelectromagnetism handbook, Table 7.8): public 671/f^0.7 V/m, 4.9/f A/m; occupational
+    # 1504/f^0.7, 10.8/f (f in MHz)
+    ("icnirp2020-public-local", 1500.0, 671 / 1.5 ** 0.7, 4.9 / 1.5),
+    ("icnirp2020-occupational-local", 1000.0, 1504.0, 10.8),
+    # ICNIRP 2020 whole body (30 min) (from memory): public 300/f^0.7, 2.2/f; occupational
+    # 660/f^0.7, 4.9/f; below 10 MHz the ICNIRP 2010 nerve-stimulation levels (read: 83 V/m,
+    # 27 µT public; 170 V/m, 100 µT occupational) apply too, and the lower of each counts
+    ("icnirp2020-public", 1000.0, 83.0, 2.2),
+    ("icnirp2020-occupational", 1000.0, 170.0, 4.9),
+    ("icnirp2020-public", 20000.0, 300 / 20 ** 0.7, 2.2 / 20),  # above 10 MHz: 2020 alone
+    # ICNIRP 1998 Tables 6–7 (from memory): public 87 V/m to 1 MHz, then 87/f^0.5; H 0.73/f;
+    # occupational 610 V/m to 1 MHz, then 610/f; H 1.6/f
+    ("icnirp1998-public", 800.0, 87.0, 0.73 / 0.8),
+    ("icnirp1998-public", 1600.0, 87 / 1.6 ** 0.5, 0.73 / 1.6),
+    ("icnirp1998-occupational", 1600.0, 610 / 1.6, 1.6 / 1.6),
+])
+def test_icnirp_reference_levels(standard, f_khz, e, h):
+    got = ex.reference_levels(standard, f_khz)
+    assert got[0] == pytest.approx(e, rel=1e-12) and got[1] == pytest.approx(h, rel=1e-12)
+    assert "ICNIRP" in got[2] and ("read" in got[2] or "from memory" in got[2])
+
+
+def test_fcc_general_e_at_the_top_of_the_band():
+    # OET Bulletin 65, as quoted (read): 614 V/m to 1.34 MHz, "a bit under 482 V/m" at 1.71 MHz
+    assert ex.reference_levels("fcc-general", 1340.0)[0] == pytest.approx(614.0, abs=1.0)
+    assert 481.0 < ex.reference_levels("fcc-general", 1710.0)[0] < 482.0
+
+
+def test_a_standard_expands_to_both_populations():
+    assert ex.expand_standards(["icnirp2020"]) == ["icnirp2020-public",
+                                                   "icnirp2020-occupational"]
+    assert ex.expand_standards(["fcc", "fcc-general"]) == ["fcc-general", "fcc-occupational"]
+    with pytest.raises(ValueError, match="standard must be one of fcc, icnirp2020"):
+        ex.expand_standards(["nonesuch"])
+
+
+def test_the_study_picks_the_standard_and_height(tmp_path, capsys):
+    import shutil
+    from pathlib import Path
+
+    demo = Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
+    for f in demo.parent.iterdir():
+        if f.is_file():
+            shutil.copy(f, tmp_path / f.name)
+    study = tmp_path / "quellmoor.toml"
+    study.write_text(study.read_text(encoding="utf-8")
+                     + '\n[exposure]\nstandard = "icnirp2020"\nheight_m = 1.5\n',
+                     encoding="utf-8")
+    out = tmp_path / "ex"
+    assert cli.main(["exposure", str(study), "-o", str(out)]) == 0
+    data = json.loads((out / "exposure.json").read_text())
+    assert list(data["standards"]) == ["icnirp2020-public", "icnirp2020-occupational"]
+    assert data["height_m"] == 1.5
+    # the command line still chooses when given
+    assert cli.main(["exposure", str(study), "-o", str(tmp_path / "ex2"), "--standard",
+                     "fcc-general", "--height-m", "2"]) == 0
+    data = json.loads((tmp_path / "ex2" / "exposure.json").read_text())
+    assert list(data["standards"]) == ["fcc-general"] and data["height_m"] == 2.0
+
+
+@pytest.mark.parametrize("table, needle", [
+    ('standard = "nonesuch"', "standard must be one of fcc, icnirp2020"),
+    ("standard = 3", "standard must be a name or a list of names"),
+    ("height_m = 0", "height_m must be > 0"),
+    ("height_m = -1", "height_m must be > 0"),
+    ('colour = "red"', "unknown key"),
+])
+def test_bad_exposure_table_is_one_line_exit_2(tmp_path, capsys, table, needle):
+    import shutil
+    from pathlib import Path
+
+    demo = Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
+    for f in demo.parent.iterdir():
+        if f.is_file():
+            shutil.copy(f, tmp_path / f.name)
+    study = tmp_path / "quellmoor.toml"
+    study.write_text(study.read_text(encoding="utf-8") + f"\n[exposure]\n{table}\n",
+                     encoding="utf-8")
+    assert cli.main(["exposure", str(study), "-o", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert needle in err and "[exposure]" in err and err.count("\n") == 1
+    assert not (tmp_path / "o").exists()
+
+
+def test_a_radial_through_another_tower_is_not_screened_at_the_wire():
+    """The demo's night array: the 270° radial passes over the west tower, where the thin-wire
+    kernel is singular; points within 1 m of a tower are not screened (fields at 1 m from
+    either tower are about 10 V/m at 0.5 kW, far below every level)."""
+    from pathlib import Path
+
+    from mwreach.coverage.inputs import load_study
+
+    spec = load_study(Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml")
+    data = ex.screening(spec, "night", 2.0, ["fcc"], max_m=100.0, grid=False, profile=False)
+    for v in data["standards"].values():
+        assert v["largest_distance_m"] == 0.0
+
+
 def test_screening_boundary_holds_every_point_beyond_it_below_the_levels():
     # 50 kW into a short (40°) tower: the fields near it exceed the occupational levels; the
     # screening distance on each radial is where they stop doing so for good
@@ -149,3 +252,20 @@ def test_exposure_bad_input_is_one_line_exit_2(tmp_path, capsys, argv, needle):
     assert cli.main(["exposure", str(demo), "-o", str(tmp_path / "o"), *argv]) == 2
     err = capsys.readouterr().err
     assert needle in err and err.count("\n") == 1
+
+
+def test_a_study_without_towers_is_one_line_exit_2(tmp_path, capsys):
+    import shutil
+    from pathlib import Path
+
+    demo = Path(__file__).parents[1] / "data" / "demo" / "quellmoor.toml"
+    for f in demo.parent.iterdir():
+        if f.is_file():
+            shutil.copy(f, tmp_path / f.name)
+    text = demo.read_text(encoding="utf-8")
+    text = text[:text.index("[[antenna.tower]]")] + text[text.index("# Night:"):]
+    study = tmp_path / "notower.toml"
+    study.write_text(text, encoding="utf-8")
+    assert cli.main(["exposure", str(study), "-o", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "missing key 'tower' in [antenna]" in err and err.count("\n") == 1

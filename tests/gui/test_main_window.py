@@ -424,6 +424,25 @@ def test_band_view_shows_channels_and_click_moves_the_study(qtbot, window):
     window.channels_window.close()
 
 
+def test_exposure_layer_draws_the_screening_of_the_day_antenna(qtbot, window):
+    from mwreach.coverage.exposure import screening
+
+    _open_and_wait(qtbot, window)
+    window.act_exposure.setChecked(True)
+    window.toggle_exposure()
+    qtbot.waitUntil(lambda: window.last_exposure is not None, timeout=60_000)
+    data = window.last_exposure
+    assert window.map.options.exposure is data
+    # the same screening as the core's (the window draws, never computes, it)
+    ref = screening(window.document.spec, "day", 2.0, max_m=300.0, grid=False, profile=False)
+    assert data["standards"] == ref["standards"]
+    assert "RF exposure" in window.statusBar().currentMessage()
+    window.map.repaint()  # draws without error, boundaries or not
+    window.act_exposure.setChecked(False)
+    window.toggle_exposure()
+    assert window.map.options.exposure is None
+
+
 def test_measurements_view_fits_and_accepts(qtbot, window, demo_copy):
     import shutil
 
