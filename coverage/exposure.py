@@ -227,13 +227,16 @@ def schelkunoff_field(height_deg: float, freq_khz: float, i_loop: complex, rho, 
 
 
 def fields_along_bearings(array: Array, freq_khz: float, power_kw: float, height_m: float,
-                          bearings=None, max_m: float = 500.0, step_m: float = 1.0):
+                          bearings=None, max_m: float = 500.0, step_m: float = 1.0,
+                          dist_m=None):
     """|E| and |H| on radials from the array's reference point at ``height_m`` above ground:
-    (bearings [deg], distances [m], E (bearings × distances), H)."""
+    (bearings [deg], distances [m], E (bearings × distances), H). ``dist_m`` (increasing)
+    replaces the grid of ``step_m`` to ``max_m``."""
     if not height_m > 0:
         raise ValueError(f"height_m must be above 0 (got {height_m!r})")
     bearings = np.arange(0.0, 360.0, 5.0) if bearings is None else np.asarray(bearings, float)
-    d = np.arange(step_m, max_m + 1e-9, step_m)
+    d = (np.arange(step_m, max_m + 1e-9, step_m) if dist_m is None
+         else np.asarray(dist_m, dtype=float))
     bb, dd = np.meshgrid(np.radians(bearings), d, indexing="ij")
     e, h = near_field(array, freq_khz, power_kw, dd * np.sin(bb), dd * np.cos(bb),
                       np.full(dd.shape, float(height_m)))
@@ -259,14 +262,15 @@ NOT_SCREENED_M = 1.0
 
 def screening(spec, period: str = "day", height_m: float = 2.0, standards=None,
               max_m: float = 500.0, step_m: float = 1.0, grid: bool = True,
-              profile: bool = True) -> dict:
+              profile: bool = True, far_step_m: float | None = None) -> dict:
     """The whole screening of a study (what exposure.json holds): for each reference-level row
     the distance per bearing (every 5°) beyond which E and H stay below it, from the array's
     reference point and from the nearest tower; the profile along the bearing of the largest
     field from 1 m to ``max_m``; a grid of |E| and |H| 5 m apart over ±100 m.
 
     ``standards``: names of :data:`STANDARDS` or rows (default: the study's ``[exposure]
-    standard``, else "fcc"). ValueError for a period without power, a height ≤ 0, a standard
+    standard``, else "fcc"). With ``far_step_m`` the radials take ``step_m`` steps to 50 m and
+    ``far_step_m`` steps beyond (the sheet and the window's layer). ValueError for a period without power, a height ≤ 0, a standard
     not in the table or a frequency outside its range.
     """
     st = spec.station
@@ -289,8 +293,12 @@ def screening(spec, period: str = "day", height_m: float = 2.0, standards=None,
                         "element summed (docs/methods.md §9); points within 1 m of a tower are "
                         "not screened",
               "standards": {}}
+    dist_m = None
+    if far_step_m is not None:
+        dist_m = np.concatenate([np.arange(step_m, 50.0, step_m),
+                                 np.arange(50.0, max_m + 1e-9, far_step_m)])
     b, d, e, h = fields_along_bearings(arr, st.freq_khz, power, height_m, max_m=max_m,
-                                       step_m=step_m)
+                                       step_m=step_m, dist_m=dist_m)
     # points within 1 m of a tower are not screened (the tower and its base fence stand
     # there, and a thin-wire current model does not hold so close): a radial that passes
     # through another tower would otherwise meet the wire's singular near field

@@ -18,6 +18,15 @@ __all__ = ["render_exposure_plan", "exposure_png", "exposure_pages", "boundary_c
 BOUNDARY_COLOURS = {"public": "#d7191c", "occupational": "#2b83ba"}
 
 
+def source_text(source: str) -> str:
+    """A reference level's source as pictures and the sheet print it: without the reading
+    markers, with † where a part was recalled rather than read (exposure.json keeps them)."""
+    import re
+
+    text = re.sub(r"\s*\([^()]*\b(?:read|from memory)\b[^()]*\)", "", source).strip()
+    return text + (" †" if "from memory" in source else "")
+
+
 def boundary_colour(name: str) -> str:
     """The boundary colour of a reference-level row (by its population)."""
     return BOUNDARY_COLOURS["occupational" if "occupational" in name else "public"]
@@ -67,7 +76,8 @@ def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> Q
         if s["largest_distance_m"] > 0:
             p.drawPolygon(QPolygonF(pts))
         legend.append((col, f"{name}: E {s['e_limit_v_m']:.4g} V/m, H {s['h_limit_a_m']:.4g} "
-                            f"A/m — {s['source']}; beyond the line the fields stay below "
+                            f"A/m — {source_text(s['source'])}; beyond the line the fields stay "
+                            "below "
                             f"(largest {s['largest_distance_m']:g} m"
                             + (")" if s["largest_distance_m"] > 0 else "; nowhere above)")))
     # towers
@@ -95,7 +105,8 @@ def render_exposure_plan(data: dict, width: int = 1200, height: int = 1100) -> Q
         y += r.height() + 6
     p.drawText(QRectF(60, y, width - 80, 20), Qt.AlignLeft,
                f"Shading: |E| at {data['height_m']:g} m, darkest = {emax:,.0f} V/m, white 40 dB "
-               "below (not shown within 1 m of a tower). Yellow: towers.")
+               "below (not shown within 1 m of a tower). Yellow: towers. † recalled, not read: "
+               "check against the published level.")
     y += 24
     font.setBold(True)
     p.setFont(font)
@@ -131,7 +142,8 @@ def _page_exposure(doc, result, period: str, pt: float):
 
     spec = result.spec
     conf = spec.exposure or {}
-    data = screening(spec, period, conf.get("height_m", 2.0), None, max_m=SHEET_REACH_M)
+    data = screening(spec, period, conf.get("height_m", 2.0), None, max_m=SHEET_REACH_M,
+                     far_step_m=5.0)
     page = doc.page
     p = doc.painter
     y = page.top()
@@ -143,7 +155,8 @@ def _page_exposure(doc, result, period: str, pt: float):
                   "currents (sinusoidal, as the antenna model) over perfectly conducting ground, "
                   "every current element summed; each tower's current and phases from the "
                   f"{period} antenna at {data['power_kw']:g} kW. Distances are where, along each "
-                  f"bearing (every 5°, out to {SHEET_REACH_M:g} m), both |E| and |H| fall below "
+                  f"bearing (every 5°; 1 m steps to 50 m, 5 m steps to {SHEET_REACH_M:g} m), "
+                  "both |E| and |H| fall below "
                   "the reference level for good. Within 1 m of a tower nothing is screened, and "
                   "within a few metres of its base the field of the base voltage, which a "
                   "current model leaves out, may be larger than shown.", 8) + 6 * pt
@@ -168,7 +181,8 @@ def _page_exposure(doc, result, period: str, pt: float):
                 f"{far['from_reference_m']:g} / {far['from_nearest_tower_m']:g} toward "
                 f"{far['bearing_deg']:g}°" + (" (still above: look farther)"
                                                if s["beyond_screened_range"] else ""))
-        cells = [name, f"{s['e_limit_v_m']:.4g}", f"{s['h_limit_a_m']:.4g}", dist, s["source"]]
+        cells = [name, f"{s['e_limit_v_m']:.4g}", f"{s['h_limit_a_m']:.4g}", dist,
+                 source_text(s["source"])]
         doc.font(7.5)
         p.setPen(Qt.black)
         x, row_h = page.left(), 0.0

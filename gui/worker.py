@@ -250,6 +250,7 @@ class ExposureThread(QThread):
         try:
             conf = self.spec.exposure or {}
             self.done.emit(screening(self.spec, self.period, conf.get("height_m", 2.0),
-                                     max_m=300.0, grid=False, profile=False))
+                                     max_m=300.0, grid=False, profile=False,
+                                     far_step_m=5.0))
         except Exception as exc:  # shown to the user as a message, not a console trace
             self.failed.emit(f"{type(exc).__name__}: {exc}")

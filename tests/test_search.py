@@ -345,3 +345,86 @@ def test_community_distance_column_is_the_geodesic_distance(spec, local_search):
         want = g.inv(c.lon, c.lat, p.x, p.y)[2] / 1e3
         assert c.community_km == pytest.approx(want, abs=1e-6)  # km
         assert c.community_km < 100.0
+
+
+def _readme_cluster_commands():
+    """The README's cluster commands (the code block after 'On a Dask cluster'), as written."""
+    text = (pathlib.Path(__file__).parents[1] / "README.md").read_text(encoding="utf-8")
+    block = text.split("On a Dask cluster", 1)[1].split("```bash", 1)[1].split("```", 1)[0]
+    lines, cur = [], ""
+    for line in block.strip().splitlines():
+        cur += line.split("#")[0].rstrip().rstrip("\\").rstrip() + " "
+        if not line.rstrip().endswith("\\"):
+            lines.append(cur.strip())
+            cur = ""
+    return lines
+
+
+def test_search_on_a_real_dask_cluster_as_the_readme_says(tmp_path):
+    """A scheduler and a worker with two processes started by the README's own commands (the
+    host name filled in, nothing else changed), the search sent there with --scheduler: the
+    same ranked candidates as on local processes."""
+    import os
+    import shlex
+    import signal
+    import socket
+    import subprocess
+    import time
+
+    root = pathlib.Path(__file__).parents[1]
+    scheduler_cmd, worker_cmd, search_cmd = _readme_cluster_commands()
+    assert scheduler_cmd.startswith(".venv/bin/dask scheduler") and scheduler_cmd.endswith("&")
+    assert worker_cmd.startswith(".venv/bin/dask worker") and "--nworkers 2" in worker_cmd
+    assert search_cmd.startswith(".venv/bin/mwreach search") and "--scheduler" in search_cmd
+    port = int(scheduler_cmd.split("--port")[1].split()[0])
+    with socket.socket() as s:  # the README's port must be free here
+        if s.connect_ex(("127.0.0.1", port)) == 0:
+            pytest.skip(f"port {port} is taken on this machine")
+    venv = pathlib.Path(sys.executable).parent.parent
+
+    def argv(cmd):
+        cmd = cmd.rstrip("&").strip().replace("SCHEDULER-HOST", "127.0.0.1")
+        words = shlex.split(cmd)
+        words[0] = str(venv / words[0].removeprefix(".venv/"))
+        return words
+
+    out_local, out_dask = tmp_path / "local", tmp_path / "dask"
+    small = ["--radius-km", "12", "--step-km", "6"]
+    procs = []
+    try:
+        procs.append(subprocess.Popen(argv(scheduler_cmd), cwd=root, stdout=subprocess.DEVNULL,
+                                      stderr=subprocess.DEVNULL, start_new_session=True))
+        deadline = time.time() + 60
+        while time.time() < deadline:
+            with socket.socket() as s:
+                if s.connect_ex(("127.0.0.1", port)) == 0:
+                    break
+            time.sleep(0.3)
+        procs.append(subprocess.Popen(argv(worker_cmd), cwd=root, stdout=subprocess.DEVNULL,
+                                      stderr=subprocess.DEVNULL, start_new_session=True))
+        words = argv(search_cmd)
+        # the README's search with a smaller area (its 40 km takes minutes) and our own folder
+        words = [w for w in words]
+        k = words.index("--radius-km")
+        words[k:k + 2] = small
+        words[words.index("-o") + 1] = str(out_dask)
+        import distributed
+
+        with distributed.Client(f"tcp://127.0.0.1:{port}", timeout=60) as client:
+            client.wait_for_workers(2, timeout=90)  # the two worker processes are up
+        p = subprocess.run(words, cwd=root, capture_output=True, text=True, timeout=600)
+        assert p.returncode == 0, p.stderr
+        assert "on 2 worker(s)" in p.stdout
+    finally:
+        for proc in reversed(procs):
+            try:
+                os.killpg(proc.pid, signal.SIGTERM)
+            except ProcessLookupError:
+                pass
+            try:
+                proc.wait(timeout=30)
+            except subprocess.TimeoutExpired:
+                os.killpg(proc.pid, signal.SIGKILL)
+    p = _cli_subprocess("search", DEMO, *small, "-o", out_local, "--workers", "1")
+    assert p.returncode == 0, p.stderr
+    assert (out_dask / "candidates.csv").read_text() == (out_local / "candidates.csv").read_text()

@@ -434,7 +434,8 @@ def test_exposure_layer_draws_the_screening_of_the_day_antenna(qtbot, window):
     data = window.last_exposure
     assert window.map.options.exposure is data
     # the same screening as the core's (the window draws, never computes, it)
-    ref = screening(window.document.spec, "day", 2.0, max_m=300.0, grid=False, profile=False)
+    ref = screening(window.document.spec, "day", 2.0, max_m=300.0, grid=False, profile=False,
+                    far_step_m=5.0)
     assert data["standards"] == ref["standards"]
     assert "RF exposure" in window.statusBar().currentMessage()
     window.map.repaint()  # draws without error, boundaries or not

@@ -48,9 +48,10 @@ def test_page_count_and_page_numbers(sheet):
     path, pages = sheet
     text = _pages_text(path)
     # map page, radial table on two pages (its ground sections at a readable 7.2 pt), night
-    # page and its continuation (ratios, notes) on A4 portrait, the hours page and one pattern
-    # page for each of the demo's two periods
-    assert len(text) == pages == 8
+    # page and its continuation (ratios, notes) on A4 portrait, the hours page, one pattern
+    # page for each of the demo's two periods and one RF exposure page for each (the night has
+    # its own towers)
+    assert len(text) == pages == 10
     for i, t in enumerate(text, 1):
         assert f"Page {i} of {pages}" in t
 
