@@ -6,6 +6,7 @@ same physics through Study.run); tolerances are those of the issue: maximum powe
 """
 
 import json
+import sys
 import pathlib
 
 import numpy as np
