@@ -284,25 +284,27 @@ def cfr_geometry(tx_lat, tx_lon, rx_lat, rx_lon):
     initial bearings [deg true]. Broadcasts over the points.
     """
     at, bt, ar, br = (np.radians(np.asarray(v, dtype=float)) for v in (tx_lat, tx_lon, rx_lat, rx_lon))
-    at, bt, ar, br = np.broadcast_arrays(at, bt, ar, br)
-    cos_d = np.sin(at) * np.sin(ar) + np.cos(at) * np.cos(ar) * np.cos(br - bt)
+    shape = np.broadcast_shapes(at.shape, bt.shape, ar.shape, br.shape)
+    # sines and cosines of each end's latitude once per end point (the pair arrays are the
+    # broadcast of a column of transmitters and a row of points); the longitude difference is
+    # the only term computed per pair
+    sat, cat, sar, car = np.sin(at), np.cos(at), np.sin(ar), np.cos(ar)
+    db = np.broadcast_to(br - bt, shape)
+    cdb, sdb = np.cos(db), np.sin(db)
+    cos_d = sat * sar + cat * car * cdb
     d_deg = np.degrees(np.arccos(np.clip(cos_d, -1.0, 1.0)))  # Eq. (5)
     dist = CFR_KM_PER_DEG * d_deg  # Eq. (4)
     # midpoint: the normalised sum of the two unit vectors (the arc's middle)
-    vt = np.stack([np.cos(at) * np.cos(bt), np.cos(at) * np.sin(bt), np.sin(at)])
-    vr = np.stack([np.cos(ar) * np.cos(br), np.cos(ar) * np.sin(br), np.sin(ar)])
-    vm = vt + vr
+    vm = np.stack(np.broadcast_arrays(cat * np.cos(bt) + car * np.cos(br),
+                                      cat * np.sin(bt) + car * np.sin(br), sat + sar))
     norm = np.linalg.norm(vm, axis=0)
     vm = vm / np.where(norm > 0, norm, 1.0)
     mlat = np.degrees(np.arcsin(np.clip(vm[2], -1.0, 1.0)))
     mlon = np.degrees(np.arctan2(vm[1], vm[0]))
-
-    def bearing(a1, b1, a2, b2):
-        y = np.sin(b2 - b1) * np.cos(a2)
-        x = np.cos(a1) * np.sin(a2) - np.sin(a1) * np.cos(a2) * np.cos(b2 - b1)
-        return np.mod(np.degrees(np.arctan2(y, x)), 360.0)
-
-    return dist, bearing(at, bt, ar, br), bearing(ar, br, at, bt), mlat, mlon
+    # initial bearings at either end: sin(bt − br) = −sin(br − bt), cos is even
+    fwd = np.mod(np.degrees(np.arctan2(sdb * car, cat * sar - sat * car * cdb)), 360.0)
+    back = np.mod(np.degrees(np.arctan2(-sdb * cat, car * sat - sar * cat * cdb)), 360.0)
+    return dist, np.broadcast_to(fwd, shape), np.broadcast_to(back, shape), mlat, mlon
 
 
 def cfr_midpoint_literal(tx_lat, tx_lon, rx_lat, rx_lon):

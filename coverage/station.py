@@ -8,6 +8,7 @@ the day antenna; the night power is always its own (``power_night_kw``).
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 from .antenna import Array
@@ -74,13 +75,30 @@ class Station:
     def radiator(self, period: str = "day"):
         """The pattern the rules use in ``period``. A period with its own facility has it built
         at its own power; a period without one uses the day pattern as filed (built at the day
-        power), which callers scale to their power (fields ∝ √P)."""
-        if not self.has_own(period):
-            period = "day"
-        power = self.power_kw(period)
-        if not power > 0:  # a period without power (a daytime-only station at night): its
-            return self.facility(period).array  # towers' shape; no field of it is ever used
-        return self.facility(period).radiator(power)
+        power), which callers scale to their power (fields ∝ √P). Built once per station (the
+        night checks ask for it for every pair of stations)."""
+        cache = self.__dict__.setdefault("_radiators", {})  # not a field: not compared
+        hit = cache.get(period)
+        if hit is None:
+            own = period if self.has_own(period) else "day"
+            power = self.power_kw(own)
+            if not power > 0:  # a period without power (a daytime-only station at night):
+                hit = self.facility(own).array  # its towers' shape; no field of it is used
+            else:
+                hit = self.facility(own).radiator(power)
+            cache[period] = hit
+        return hit
+
+    def max_horizontal_mv_m(self, period: str = "night") -> float:
+        """The strongest horizontal radiation of ``period`` at its power [mV/m at 1 km], 0
+        without power (1° steps; cached)."""
+        cache = self.__dict__.setdefault("_max_horizontal", {})
+        hit = cache.get(period)
+        if hit is None:
+            power = self.power_kw(period)
+            hit = cache[period] = (_max_horizontal(self.radiator(period), float(power))
+                                   if power > 0 else 0.0)
+        return hit
 
     @property
     def day_antenna(self):
@@ -91,6 +109,12 @@ class Station:
     def night_antenna(self):
         """The night radiator (the night facility, else the day antenna, at night power)."""
         return self.radiator("night")
+
+
+@functools.lru_cache(maxsize=4096)
+def _max_horizontal(radiator, power_kw: float) -> float:
+    """Strongest horizontal radiation [mV/m at 1 km], shared by equal radiators."""
+    return float(radiator.horizontal_summary(power_kw, step_deg=1.0)["max_mv_m"])
 
 
 def period_rows(station: Station) -> list[dict]:

@@ -120,10 +120,67 @@ def sky_dbu_from(tx_lat, tx_lon, freq_khz, array: Array, power_kw: float, pts_la
     return out
 
 
-@functools.lru_cache(maxsize=4096)
-def _max_horizontal_mv_m(antenna: Array, power_kw: float) -> float:
-    """Strongest horizontal radiation [mV/m at 1 km] (cached per antenna and power)."""
-    return float(antenna.horizontal_summary(power_kw, step_deg=1.0)["max_mv_m"])
+_CANONICAL: dict = {}
+
+
+def _zone_boxes(ground_map):
+    """Per zone its lon/lat box (west, south, east, north) [deg], widened by 0.5°, kept on the
+    map; None for a zone whose box spans more than 180° of longitude (taken to meet every
+    path)."""
+    hit = ground_map.__dict__.get("_boxes")
+    if hit is None:
+        hit = []
+        for z in ground_map.zones:
+            w, so, e, n = z.geometry.bounds
+            hit.append(None if e - w > 180.0 else (w - 0.5, so - 0.5, e + 0.5, n + 0.5))
+        ground_map.__dict__["_boxes"] = hit
+    return hit
+
+
+def _regional_best(ground_map, tlat, tlon, plat, plon, d_km, cand):
+    """For every (transmitter, point) pair the index in ``ground_map.grounds`` of the best
+    ground (largest σ) among the default and the zones whose box meets the path's box. The
+    path's box is that of its ends, widened by 0.5° plus a quarter of the path's length in
+    degrees (a great circle strays from the box of its ends by less than that: its bulge in
+    latitude is at most θ²·tan(φ)/8 for an arc of θ radians at latitude φ, under θ/4 for the
+    distances and latitudes of the night checks) and in longitude by that over cos(latitude)."""
+    grounds = ground_map.grounds
+    best = np.zeros(cand.shape, dtype=np.intp)  # the default ground
+    best_sigma = np.full(cand.shape, grounds[0].sigma_ms_m)
+    lat_pad = 0.5 + 0.25 * d_km / 111.2
+    south = np.minimum(tlat, plat[None, :]) - lat_pad
+    north = np.maximum(tlat, plat[None, :]) + lat_pad
+    top = np.minimum(np.maximum(np.abs(south), np.abs(north)), 89.0)
+    lon_pad = lat_pad / np.cos(np.radians(top))
+    # longitudes relative to the transmitter, in (−180, 180]: a path's box does not wrap
+    rel = np.mod(plon[None, :] - tlon + 180.0, 360.0) - 180.0
+    west = tlon + np.minimum(rel, 0.0) - lon_pad
+    east = tlon + np.maximum(rel, 0.0) + lon_pad
+    for k, (z, box) in enumerate(zip(ground_map.zones, _zone_boxes(ground_map)), 1):
+        if box is None:
+            meets = cand
+        else:
+            w, so, e, n = box
+            lat_ok = (north >= so) & (south <= n)
+            lon_ok = np.zeros(cand.shape, dtype=bool)
+            for shift in (-360.0, 0.0, 360.0):  # the zone's box on either side of ±180°
+                lon_ok |= (east >= w + shift) & (west <= e + shift)
+            meets = cand & lat_ok & lon_ok
+        better = meets & (z.ground.sigma_ms_m > best_sigma)
+        best[better] = k
+        best_sigma[better] = z.ground.sigma_ms_m
+    return best
+
+def _canonical_night_antenna(station):
+    """The station's night radiator as one shared object for all equal radiators, found once
+    per station (hashing an antenna is dear; comparing objects by identity is not)."""
+    hit = station.__dict__.get("_night_canonical")
+    if hit is None:
+        a = station.night_antenna
+        if len(_CANONICAL) > 65_536:
+            _CANONICAL.clear()
+        hit = station.__dict__["_night_canonical"] = _CANONICAL.setdefault(a, a)
+    return hit
 
 
 def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set | None = None):
@@ -164,12 +221,16 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
     if skipped is not None:
         for i in np.flatnonzero(~ok.all(axis=1)):
             skipped.add(txs[i].name)
-    groups: dict = {}
+    groups: dict = {}  # by antenna (equal antennas share one object), power and frequency
+    antennas: dict = {}
     for i, t in enumerate(txs):
         if t.power_night_kw > 0:
-            groups.setdefault((t.night_antenna, float(t.power_night_kw), float(t.freq_khz)), []).append(i)
+            a = _canonical_night_antenna(t)
+            antennas[id(a)] = a
+            groups.setdefault((id(a), float(t.power_night_kw), float(t.freq_khz)), []).append(i)
     sky = np.full((n_tx, n_pts), -np.inf)
-    for (antenna, power, freq), rows in groups.items():
+    for (aid, power, freq), rows in groups.items():
+        antenna = antennas[aid]
         rows = np.array(rows)
         m = ok[rows]
         if not m.any():
@@ -193,8 +254,7 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
     best = max(spec.ground.grounds, key=lambda g: g.sigma_ms_m)
     ground = np.full((n_tx, n_pts), -np.inf)
     bound = np.full((n_tx, n_pts), -np.inf)
-    e_max = np.array([_max_horizontal_mv_m(t.night_antenna, float(t.power_night_kw))
-                      if t.power_night_kw > 0 else 0.0 for t in txs])
+    e_max = np.array([t.max_horizontal_mv_m("night") for t in txs])
     for freq in {float(t.freq_khz) for t in txs}:
         rows = np.array([i for i, t in enumerate(txs)
                          if float(t.freq_khz) == freq and t.power_night_kw > 0], dtype=int)
@@ -207,6 +267,30 @@ def night_fields(txs, pts_lat, pts_lon, spec, night: NightSettings, skipped: set
         blk[near] = mod.curve_db(dd[near]) + mv_m_to_dbu(np.broadcast_to(e_max[rows][:, None],
                                                                          dd.shape)[near])
         bound[rows] = blk
+    # a second bound, still for all pairs at once: the best ground among the default and the
+    # zones whose (widened) box the path's (widened) box meets; a path can only cross grounds
+    # of those zones, so this bounds the field as the best ground on the path does
+    cand = bound > sky
+    if cand.any() and spec.ground.zones:
+        regional = _regional_best(spec.ground, tlat, tlon, pts_lat, pts_lon, d, cand)
+        for gi in np.unique(regional[cand]):
+            g = spec.ground.grounds[gi]
+            for freq in {float(t.freq_khz) for t in txs}:
+                rows = np.array([i for i, t in enumerate(txs) if float(t.freq_khz) == freq
+                                 and t.power_night_kw > 0], dtype=int)
+                if rows.size == 0:
+                    continue
+                sel = cand[rows] & (regional[rows] == gi)
+                if not sel.any():
+                    continue
+                mod = model(freq, g, spec.earth_k)
+                dd = d[rows][sel]
+                val = np.where(dd >= mod.wavelength_km, mod.curve_db(np.maximum(
+                    dd, mod.wavelength_km)), np.inf)  # inside a wavelength: no bound, keep it
+                blk = bound[rows]
+                blk[sel] = np.minimum(blk[sel], val + mv_m_to_dbu(
+                    np.broadcast_to(e_max[rows][:, None], sel.shape)[sel]))
+                bound[rows] = blk
     for i in np.flatnonzero((bound > sky).any(axis=1)):
         t = txs[i]
         need = np.flatnonzero(bound[i] > sky[i])
