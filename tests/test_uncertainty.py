@@ -110,7 +110,7 @@ def test_drawn_fields_equal_exact_fields_with_the_drawn_grounds():
         exact = radial_fields(st.freq_khz, exact_map, st.lat, st.lon, rad.bearings_deg,
                               rad.e1km_mv_m, res.max_km, spec.step_km, spec.mixed_path,
                               spec.earth_k, dist_km=rad.dist_km)
-        # 0.02 dB: four-point interpolation in ln σ between exact curves 0.67 s apart, and the
+        # 0.02 dB: four-point interpolation in ln σ between exact curves 0.8 s apart, and the
         # draws' sums in single precision
         np.testing.assert_allclose(f, exact.field_dbu, atol=0.02)
 
