@@ -10,6 +10,7 @@ import pyqtgraph as pg
 from PySide6.QtCore import QAbstractTableModel, QModelIndex, QSortFilterProxyModel, Qt
 from PySide6.QtGui import QColor
 from PySide6.QtWidgets import (
+    QCheckBox,
     QComboBox,
     QFileDialog,
     QFormLayout,
@@ -432,13 +433,23 @@ class GroundEditor(_Editor):
         self.zones_label = QLabel()
         self.zones_btn = QPushButton("Choose zones file…")
         self.zones_btn.clicked.connect(self._choose)
-        self.zones = QTableWidget(0, 3)
-        self.zones.setHorizontalHeaderLabels(["Zone (later wins)", "σ [mS/m]", "εr"])
+        self.zones = QTableWidget(0, 4)
+        self.zones.setHorizontalHeaderLabels(["Zone (later wins)", "σ [mS/m]", "εr",
+                                              "5–95 % σ"])
         self.zones.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
         self.zones.setEditTriggers(QTableWidget.NoEditTriggers)
+        self.sigma_range = QLineEdit()
+        self.sigma_range.setPlaceholderText("lo, hi (empty: exact)")
+        self.sigma_range.setToolTip("The 5 % and 95 % points of the default ground's "
+                                    "conductivity [mS/m], for the uncertainty bands")
+        self.sigma_range.editingFinished.connect(self._range)
+        self.bands = QCheckBox("Draw 5–95 % bands over the conductivity ranges (200 draws)")
+        self.bands.toggled.connect(self._bands)
         form.addRow("Default ground", self.preset)
         form.addRow("σ [mS/m]", self.sigma)
         form.addRow("εr", self.eps)
+        form.addRow("σ range [mS/m]", self.sigma_range)
+        form.addRow(self.bands)
         form.addRow("Zones file", self.zones_label)
         form.addRow("", self.zones_btn)
         form.addRow(self.zones)
@@ -453,11 +464,17 @@ class GroundEditor(_Editor):
         if not self.sigma.styleSheet():  # keep a refused entry for the user to correct
             self.sigma.setText(f"{spec.ground.default.sigma_ms_m:g}")
             self.eps.setText(f"{spec.ground.default.eps_r:g}")
+        if not self.sigma_range.styleSheet():
+            rng = spec.ground.default_range
+            self.sigma_range.setText("" if rng is None else f"{rng[0]:g}, {rng[1]:g}")
+        self.bands.setChecked(spec.uncertainty is not None)
         self.zones_label.setText(g.get("zones", "(none)"))
         zs = spec.ground.zones
         self.zones.setRowCount(len(zs))
         for i, z in enumerate(zs):
-            for j, v in enumerate((z.name, f"{z.ground.sigma_ms_m:g}", f"{z.ground.eps_r:g}")):
+            rng = "—" if z.sigma_range is None else f"{z.sigma_range[0]:g}–{z.sigma_range[1]:g}"
+            for j, v in enumerate((z.name, f"{z.ground.sigma_ms_m:g}", f"{z.ground.eps_r:g}",
+                                   rng)):
                 item = QTableWidgetItem(v)
                 item.setBackground(conductivity_colour(z.ground.sigma_ms_m, z.ground.eps_r))
                 self.zones.setItem(i, j, item)
@@ -488,6 +505,37 @@ class GroundEditor(_Editor):
             gg["sigma_ms_m"], gg["eps_r"] = s, e
 
         self.apply(mutate, self.sigma)
+
+    def _range(self):
+        text = self.sigma_range.text().strip()
+        if text:
+            parts = [p for p in text.replace("–", ",").replace(";", ",").split(",") if p.strip()]
+            value = [_number_or_text(p.strip()) for p in parts]
+        else:
+            value = None
+        if value == self.document.doc.get("ground", {}).get("sigma_range_ms_m"):
+            return
+
+        def mutate(d):
+            gg = d.setdefault("ground", {})
+            if value is None:
+                gg.pop("sigma_range_ms_m", None)
+            else:
+                gg["sigma_range_ms_m"] = value
+
+        self.apply(mutate, self.sigma_range)
+
+    def _bands(self, on: bool):
+        if self._loading or on == ("uncertainty" in self.document.doc):
+            return
+
+        def mutate(d):
+            if on:
+                d["uncertainty"] = {"draws": 200, "seed": 1}
+            else:
+                d.pop("uncertainty", None)
+
+        self.apply(mutate)
 
     def _choose(self):
         path, _ = QFileDialog.getOpenFileName(self, "Conductivity zones", str(self.document.base_dir),

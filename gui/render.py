@@ -750,13 +750,12 @@ def _legend_entries(result, s: float, opts=None) -> list[tuple]:
         for name, std in exposure["standards"].items():
             far = std["largest_distance_m"]
             out.append(("line", QPen(QColor(boundary_colour(name)), 1.8 * s),
-                        f"RF exposure {name} ({exposure['period']}): "
-                        + (f"above within {far:g} m" if far > 0 else "below beyond 1 m")))
+                        f"{name} exposure: " + (f"above within {far:g} m" if far > 0
+                                                 else "below from 1 m")))
     if getattr(result, "bands", None):
         u = result.spec.uncertainty
         grey = QColor(110, 110, 110, 90)
-        out.append(("swatch", grey, f"shaded: 5–95 % band over the grounds' conductivity "
-                                    f"ranges ({u.draws} draws)"))
+        out.append(("swatch", grey, f"shaded: 5–95 % ground band ({u.draws} draws)"))
     inter = getattr(result, "interference", None)
     if inter is not None and inter.night is not None:
         night = "night service contour (night limit)"

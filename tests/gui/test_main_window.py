@@ -424,6 +424,27 @@ def test_band_view_shows_channels_and_click_moves_the_study(qtbot, window):
     window.channels_window.close()
 
 
+def test_ground_editor_sets_a_range_and_draws_the_bands(qtbot, window):
+    _open_and_wait(qtbot, window)
+    ed = window.ground_editor
+    ed.sigma_range.setText("9, 2")  # lo above hi: refused, the field marked, the study kept
+    ed._range()
+    assert "Not applied" in ed.message.text() and ed.sigma_range.styleSheet()
+    assert window.document.spec.ground.default_range == (2.0, 8.0)
+    ed.sigma_range.setText("3, 6")
+    ed._range()
+    assert window.document.spec.ground.default_range == (3.0, 6.0)
+    assert window.document.spec.uncertainty is None
+    with qtbot.waitSignal(window.computer.result, timeout=120_000,
+                          check_params_cb=lambda req, res: req.bearings is None):
+        ed.bands.setChecked(True)
+    assert window.document.spec.uncertainty.draws == 200
+    assert window.full_result.bands and len(window.full_result.bands) == 4
+    assert ed.zones.item(0, 3).text() == "0.25–1"  # the uplands' range, from the zones file
+    ed.bands.setChecked(False)
+    assert "uncertainty" not in window.document.doc
+
+
 def test_exposure_layer_draws_the_screening_of_the_day_antenna(qtbot, window):
     from mwreach.coverage.exposure import screening
 
