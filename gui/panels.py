@@ -436,7 +436,9 @@ class GroundEditor(_Editor):
         self.zones = QTableWidget(0, 4)
         self.zones.setHorizontalHeaderLabels(["Zone (later wins)", "σ [mS/m]", "εr",
                                               "5–95 % σ"])
-        self.zones.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        header = self.zones.horizontalHeader()
+        header.setSectionResizeMode(QHeaderView.ResizeToContents)
+        header.setSectionResizeMode(0, QHeaderView.Stretch)  # names take the room left
         self.zones.setEditTriggers(QTableWidget.NoEditTriggers)
         self.sigma_range = QLineEdit()
         self.sigma_range.setPlaceholderText("lo, hi (empty: exact)")

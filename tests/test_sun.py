@@ -18,6 +18,7 @@ from astropy.utils.exceptions import AstropyWarning  # noqa: E402
 
 iers.conf.auto_download = False  # CI has no network beyond the package index
 iers.conf.iers_degraded_accuracy = "ignore"  # UT1−UTC unknown for future dates: < 1 s error
+iers.conf.auto_max_age = None  # the bundled table may be months old; no download to refresh it
 
 
 def astropy_events_min(lat, lon, dates, guesses_min):

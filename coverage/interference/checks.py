@@ -4,10 +4,13 @@ the station where it stands; run_interference is the whole job.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import shapely
 
 from ..classes import OVERLAP_RULES, STATION_CLASSES
+from ..contours import radial_length_km
 from ..geodesy import inverse, local_projection
 from ..groundwave import mv_m_to_dbu
 from ..skywave import cfr_geometry, in_method_range, METHOD_DISTANCE_KM
@@ -153,13 +156,41 @@ class NeighbourChecks:
                 base, skipped = memo[key]
                 self.night_targets[n.name] = ("nif", base)
                 self.base_skipped |= skipped
-        # the contours second and third adjacent neighbours protect
+        # the contours second and third adjacent neighbours protect: drawn when first needed
+        # (a search skips those too far away to meet the proposal's contour at any power of
+        # its class, :meth:`_beyond_reach`)
+        self.memo = memo
         self.overlap_polygons = {}
-        for n, off in self.overlap_ok:
-            key = ("overlap", n.name, OVERLAP_RULES[abs(off)][1])
-            if key not in memo:
-                memo[key] = _day_polygon(n, OVERLAP_RULES[abs(off)][1], spec)[0]
-            self.overlap_polygons[n.name] = memo[key]
+
+    def _overlap_polygon(self, n, off, spec):
+        """The contour neighbour ``n`` protects against overlap at this offset (lon/lat)."""
+        level = OVERLAP_RULES[abs(off)][1]
+        key = ("overlap", n.name, level)
+        if key not in self.memo:
+            self.memo[key] = _day_polygon(n, level, spec)[0]
+        self.overlap_polygons[n.name] = self.memo[key]
+        return self.memo[key]
+
+    def _beyond_reach(self, n, off, spec) -> bool:
+        """Whether the proposal's overlap contour, at the largest day power of its class,
+        cannot reach the contour ``n`` protects: the sites are farther apart than the two
+        contours' radii on the best ground of the map with the strongest radiation
+        (:func:`~..contours.radial_length_km`, which adds 20 %). Such a neighbour never limits
+        the day power, so a search leaves it out; a full run keeps every overlap row."""
+        st = spec.station
+        rng = st.klass(self.classes).power_range_kw("day", st.freq_khz)
+        if rng is None:
+            return False
+        own_mv, other_mv, _ = OVERLAP_RULES[abs(off)]
+        key = ("reach", n.name, other_mv)
+        if key not in self.memo:
+            e_n = n.max_horizontal_mv_m("day")
+            self.memo[key] = radial_length_km(n.freq_khz, spec.ground, other_mv, e_n,
+                                              spec.earth_k, min_km=2.0)
+        e_p = st.max_horizontal_mv_m("day") * math.sqrt(rng[1] / st.power_day_kw)
+        r_p = radial_length_km(st.freq_khz, spec.ground, own_mv, e_p, spec.earth_k, min_km=2.0)
+        dist = float(inverse(st.lat, st.lon, n.lat, n.lon)[0])
+        return dist > self.memo[key] + r_p
 
     def assess(self, spec, night_service_too: bool = True, received: bool = True,
                overlap_area: bool = True, all_rows: bool = True) -> InterferenceResult:
@@ -232,8 +263,10 @@ class NeighbourChecks:
             dists.append(np.atleast_1d(d))
         n_caused = sum(b.size for b in brgs)
         others_xy, entries = [], []
-        for n, off in self.overlap_ok:
-            other = own_proj.geom_to_xy(self.overlap_polygons[n.name])  # once per neighbour
+        overlap_ok = [(n, off) for n, off in self.overlap_ok
+                      if overlap_area or not self._beyond_reach(n, off, spec)]
+        for n, off in overlap_ok:
+            other = own_proj.geom_to_xy(self._overlap_polygon(n, off, spec))  # once each
             others_xy.append(other)
             hit = _overlap_entries(st, spec, other)
             entries.append(0 if hit is None else hit[0].size)
@@ -253,7 +286,7 @@ class NeighbourChecks:
         overlaps, overlap_power = [], None
         own_rad = None
         k = n_caused
-        for (n, off), other, m in zip(self.overlap_ok, others_xy, entries):
+        for (n, off), other, m in zip(overlap_ok, others_xy, entries):
             own_mv, other_mv, source = OVERLAP_RULES[abs(off)]
             lvl = float(mv_m_to_dbu(own_mv))
             if overlap_area:
