@@ -713,10 +713,7 @@ def band_regions_xy(result, proj) -> list:
             outer = proj.geom_to_xy(band.polygons["p95"])
             inner = proj.geom_to_xy(band.polygons["p05"])
             cache.append((band.level_mv_m, outer.difference(inner)))
-        try:
-            object.__setattr__(result, "_band_xy", cache)
-        except (AttributeError, TypeError):
-            pass
+        object.__setattr__(result, "_band_xy", cache)  # a frozen result: kept beside its fields
     return cache
 
 

@@ -173,64 +173,62 @@ class Computer(QObject):
         gc.enable()
 
 
-class SearchThread(QThread):
-    """A site search off the GUI thread: ``done(SearchResult)`` when finished (or stopped:
-    the candidates done so far), ``failed(message)`` on an error."""
+class _StoppableRun(QThread):
+    """A long run off the GUI thread that reports progress and can be stopped: ``done(result)``
+    when finished (or stopped: what is done so far), ``failed(message)`` on an error. A
+    subclass's :meth:`work` calls the core with :meth:`progress`, which raises
+    KeyboardInterrupt once :meth:`stop` is asked — the core keeps what is done."""
 
     progressed = Signal(int, int)
     done = Signal(object)
     failed = Signal(str)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self._stop = False
+
+    def stop(self):
+        self._stop = True
+
+    def progress(self, done, total, _elapsed=None):
+        self.progressed.emit(done, total)
+        if self._stop:
+            raise KeyboardInterrupt
+
+    def work(self):
+        raise NotImplementedError
+
+    def run(self):
+        try:
+            self.done.emit(self.work())
+        except Exception as exc:  # shown to the user as a message, not a console trace
+            self.failed.emit(f"{type(exc).__name__}: {exc}")
+
+
+class SearchThread(_StoppableRun):
+    """A site search off the GUI thread (coverage.search.run_search)."""
 
     def __init__(self, spec, settings, parent=None):
         super().__init__(parent)
         self.spec, self.settings = spec, settings
-        self._stop = False
 
-    def stop(self):
-        self._stop = True
-
-    def run(self):
+    def work(self):
         from mwreach.coverage.search import run_search
 
-        def progress(done, total, _elapsed):
-            self.progressed.emit(done, total)
-            if self._stop:
-                raise KeyboardInterrupt  # run_search keeps what is done
-
-        try:
-            self.done.emit(run_search(self.spec, self.settings, None, progress))
-        except Exception as exc:  # shown to the user as a message, not a console trace
-            self.failed.emit(f"{type(exc).__name__}: {exc}")
+        return run_search(self.spec, self.settings, None, self.progress)
 
 
-class ChannelThread(QThread):
-    """A channel search off the GUI thread: ``done(ChannelSearch)`` when finished (or stopped:
-    the channels done so far), ``failed(message)`` on an error."""
-
-    progressed = Signal(int, int)
-    done = Signal(object)
-    failed = Signal(str)
+class ChannelThread(_StoppableRun):
+    """A channel search off the GUI thread (coverage.channels.run_channels)."""
 
     def __init__(self, spec, doc, from_khz, to_khz, parent=None):
         super().__init__(parent)
         self.spec, self.doc, self.band = spec, doc, (from_khz, to_khz)
-        self._stop = False
 
-    def stop(self):
-        self._stop = True
-
-    def run(self):
+    def work(self):
         from mwreach.coverage.channels import run_channels
 
-        def progress(done, total, _elapsed):
-            self.progressed.emit(done, total)
-            if self._stop:
-                raise KeyboardInterrupt  # run_channels keeps what is done
-
-        try:
-            self.done.emit(run_channels(self.spec, self.doc, *self.band, progress=progress))
-        except Exception as exc:  # shown to the user as a message, not a console trace
-            self.failed.emit(f"{type(exc).__name__}: {exc}")
+        return run_channels(self.spec, self.doc, *self.band, progress=self.progress)
 
 
 class ExposureThread(QThread):
